@@ -1,0 +1,60 @@
+# fleetfuel: two commands on a fresh machine with Python 3.12+ and make.
+#   make demo   builds the venv, migrates SQLite, seeds the demo fleet and serves it
+#   make test   builds the venv with test extras and runs the suite
+
+PYTHON ?= $(shell command -v python3.12 2>/dev/null || (command -v pyenv >/dev/null 2>&1 && pyenv which python3.12 2>/dev/null) || echo python3)
+VENV := .venv
+BIN := $(VENV)/bin
+PY := $(BIN)/python
+STAMP := $(VENV)/.installed
+HOST ?= 127.0.0.1
+PORT ?= 8000
+DEMO_ENV := DEBUG=true
+
+.PHONY: demo test lint format migrations-check check-deploy benchmark clean venv
+
+$(STAMP): pyproject.toml
+	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else "fleetfuel needs Python 3.12 or newer (found " + sys.version.split()[0] + ")")'
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/pip install --quiet --upgrade pip
+	$(BIN)/pip install --quiet -e '.[test]'
+	@touch $(STAMP)
+
+venv: $(STAMP)
+
+demo: $(STAMP)
+	$(DEMO_ENV) $(PY) manage.py migrate --no-input
+	$(DEMO_ENV) $(PY) manage.py seed_demo
+	$(DEMO_ENV) $(PY) manage.py project_due --quiet
+	@echo ""
+	@echo "  fleetfuel demo: http://$(HOST):$(PORT)/"
+	@echo "    fleet manager  manager  / fleetfuel-demo"
+	@echo "    mechanic       mechanic / fleetfuel-demo"
+	@echo "    auditor        auditor  / fleetfuel-demo"
+	@echo ""
+	$(DEMO_ENV) $(PY) manage.py runserver $(HOST):$(PORT)
+
+test: $(STAMP)
+	FLEETFUEL_TESTING=true $(BIN)/pytest $(PYTEST_ARGS)
+
+lint: $(STAMP)
+	$(BIN)/ruff check .
+	$(BIN)/ruff format --check .
+	$(BIN)/mypy
+
+format: $(STAMP)
+	$(BIN)/ruff check --fix .
+	$(BIN)/ruff format .
+
+migrations-check: $(STAMP)
+	FLEETFUEL_TESTING=true $(PY) manage.py makemigrations --check --dry-run
+
+check-deploy: $(STAMP)
+	SECRET_KEY=$$(openssl rand -hex 32 2>/dev/null || echo x-not-secret-but-long-enough-for-the-deploy-check-0123456789) \
+	ALLOWED_HOSTS=fleetfuel.example.com $(PY) manage.py check --deploy --fail-level WARNING
+
+benchmark: $(STAMP)
+	$(PY) manage.py benchmark
+
+clean:
+	rm -rf $(VENV) var/*.sqlite3*

@@ -1,0 +1,24 @@
+from __future__ import annotations
+
+from django.contrib.auth.decorators import login_required
+from django.core.exceptions import PermissionDenied
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import redirect
+
+from .access import user_role
+from .models import Role
+
+HOME_BY_ROLE = {
+    Role.MANAGER: "planning:due_list",
+    Role.MECHANIC: "workorders:my_work",
+    Role.AUDITOR: "ledger:history",
+}
+
+
+@login_required
+def home(request: HttpRequest) -> HttpResponse:
+    """Send each person to their role's home page."""
+    role = user_role(request.user)
+    if role is None:
+        raise PermissionDenied("Your account has no role yet; ask a fleet manager.")
+    return redirect(HOME_BY_ROLE[Role(role)])

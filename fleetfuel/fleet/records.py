@@ -1,0 +1,239 @@
+"""What happens to units over time: hour-meter readings, fuelings, fuel samples, engine events.
+
+These are the inputs of the interval engine. All are indexed for "by unit, by time" reads.
+"""
+
+from __future__ import annotations
+
+from django.core.exceptions import ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+from django.db.models import Q
+
+from .models import Component, Site, Unit
+
+
+class MeterReading(models.Model):
+    """The hour meter as read (the meter's own value, before any replacement offset)."""
+
+    class Source(models.TextChoices):
+        WORK_ORDER = "work_order", "Work order"
+        FUEL_LOG = "fuel_log", "Fuel log"
+        TELEMATICS = "telematics", "Telematics"
+        MANUAL = "manual", "Manual entry"
+
+    unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="readings")
+    taken_at = models.DateTimeField()
+    hours = models.FloatField(validators=[MinValueValidator(0)])
+    source = models.CharField(max_length=20, choices=Source.choices, default=Source.MANUAL)
+
+    class Meta:
+        ordering = ["unit", "-taken_at"]
+        get_latest_by = "taken_at"
+        indexes = [models.Index(fields=["unit", "-taken_at"], name="reading_unit_latest")]
+
+    def __str__(self) -> str:
+        return f"{self.unit.fleet_number} {self.hours:.1f} h at {self.taken_at:%Y-%m-%d %H:%M}"
+
+
+class MeterReplacement(models.Model):
+    """A replaced hour meter. Engine hours after it = meter + (old_final - new_start)."""
+
+    unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="meter_replacements")
+    replaced_at = models.DateTimeField()
+    old_meter_final = models.FloatField(validators=[MinValueValidator(0)])
+    new_meter_start = models.FloatField(validators=[MinValueValidator(0)])
+    note = models.CharField(max_length=200, blank=True)
+
+    class Meta:
+        ordering = ["unit", "replaced_at"]
+        indexes = [models.Index(fields=["unit", "replaced_at"], name="meterrepl_unit_at")]
+
+    def __str__(self) -> str:
+        return f"{self.unit.fleet_number} meter replaced {self.replaced_at:%Y-%m-%d}"
+
+    @property
+    def offset(self) -> float:
+        return self.old_meter_final - self.new_meter_start
+
+
+class FuelSource(models.Model):
+    class Kind(models.TextChoices):
+        BULK_TANK = "bulk_tank", "Bulk tank"
+        BOWSER = "bowser", "Mobile bowser"
+        RETAIL = "retail", "Retail"
+
+    site = models.ForeignKey(
+        Site, on_delete=models.PROTECT, related_name="fuel_sources", null=True, blank=True
+    )
+    name = models.CharField(max_length=100, unique=True)
+    kind = models.CharField(max_length=20, choices=Kind.choices)
+    density_kg_l = models.FloatField(
+        "density at 15 °C (kg/L)",
+        default=0.835,
+        validators=[MinValueValidator(0.78), MaxValueValidator(0.9)],
+        help_text="EN 590 allows 0.820-0.845 kg/L.",
+    )
+    fame_pct_v = models.FloatField(
+        "FAME (% V/V)", default=7.0, validators=[MinValueValidator(0), MaxValueValidator(100)]
+    )
+
+    class Meta:
+        ordering = ["name"]
+
+    def __str__(self) -> str:
+        return self.name
+
+
+class Fueling(models.Model):
+    unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="fuelings")
+    source = models.ForeignKey(
+        FuelSource, on_delete=models.PROTECT, related_name="fuelings", null=True, blank=True
+    )
+    fueled_at = models.DateTimeField()
+    litres = models.FloatField(validators=[MinValueValidator(0.1), MaxValueValidator(20_000)])
+
+    class Meta:
+        ordering = ["unit", "-fueled_at"]
+        indexes = [models.Index(fields=["unit", "fueled_at"], name="fueling_unit_at")]
+
+    def __str__(self) -> str:
+        return f"{self.litres:.0f} L into {self.unit.fleet_number} at {self.fueled_at:%Y-%m-%d}"
+
+
+class FuelSample(models.Model):
+    """A fuel-quality result, taken from a source or from a unit's own tank."""
+
+    reference = models.CharField("lab reference", max_length=40, unique=True)
+    source = models.ForeignKey(
+        FuelSource, on_delete=models.PROTECT, related_name="samples", null=True, blank=True
+    )
+    unit = models.ForeignKey(
+        Unit, on_delete=models.CASCADE, related_name="samples", null=True, blank=True
+    )
+    sampled_at = models.DateTimeField()
+    iso4406 = models.CharField(
+        "ISO 4406 code", max_length=20, blank=True, help_text="e.g. 18/16/13 or -/16/13"
+    )
+    code_4 = models.PositiveSmallIntegerField(null=True, blank=True, editable=False)
+    code_6 = models.PositiveSmallIntegerField(null=True, blank=True, editable=False)
+    code_14 = models.PositiveSmallIntegerField(null=True, blank=True, editable=False)
+    count_4_per_ml = models.FloatField(
+        "particles ≥4 µm(c) per mL", null=True, blank=True, validators=[MinValueValidator(0)]
+    )
+    count_6_per_ml = models.FloatField(
+        "particles ≥6 µm(c) per mL", null=True, blank=True, validators=[MinValueValidator(0)]
+    )
+    count_14_per_ml = models.FloatField(
+        "particles ≥14 µm(c) per mL", null=True, blank=True, validators=[MinValueValidator(0)]
+    )
+    water_mg_kg = models.FloatField(
+        "water (mg/kg)", null=True, blank=True, validators=[MinValueValidator(0)]
+    )
+    fame_pct_v = models.FloatField(
+        "FAME (% V/V)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0), MaxValueValidator(100)],
+    )
+    temperature_c = models.FloatField("temperature (°C)", null=True, blank=True)
+    lab_method = models.CharField(
+        max_length=80, blank=True, help_text="e.g. ISO 11171 APC; EN ISO 12937 (Karl Fischer)"
+    )
+
+    class Meta:
+        ordering = ["-sampled_at"]
+        constraints = [
+            models.CheckConstraint(
+                condition=(Q(source__isnull=False) & Q(unit__isnull=True))
+                | (Q(source__isnull=True) & Q(unit__isnull=False)),
+                name="sample_from_source_or_unit",
+                violation_error_message="A sample comes from either a fuel source or a unit.",
+            ),
+        ]
+        indexes = [
+            models.Index(fields=["source", "sampled_at"], name="sample_source_at"),
+            models.Index(fields=["unit", "sampled_at"], name="sample_unit_at"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.reference} ({self.iso4406 or 'counts'})"
+
+    def clean(self) -> None:
+        from services.fuel_quality import codes_from_counts, format_iso4406, parse_iso4406
+
+        counts = (self.count_4_per_ml, self.count_6_per_ml, self.count_14_per_ml)
+        has_counts = self.count_6_per_ml is not None and self.count_14_per_ml is not None
+        if self.iso4406.strip():
+            try:
+                codes = parse_iso4406(self.iso4406)
+            except ValueError as exc:
+                raise ValidationError({"iso4406": str(exc)}) from exc
+        elif has_counts:
+            try:
+                codes = codes_from_counts(per_ml=counts)  # type: ignore[arg-type]
+            except ValueError as exc:
+                raise ValidationError({"count_4_per_ml": str(exc)}) from exc
+            self.iso4406 = format_iso4406(codes)
+        else:
+            codes = None
+        if codes is None and self.water_mg_kg is None:
+            raise ValidationError("Give an ISO 4406 code, particle counts or a water content.")
+        self.code_4, self.code_6, self.code_14 = codes if codes else (None, None, None)
+
+
+class EngineEvent(models.Model):
+    """A fault or event reported by the engine controller (SAE J1939 SPN + FMI)."""
+
+    class Kind(models.TextChoices):
+        RELIEF_VALVE_OPENED = "relief_valve_opened", "Rail relief valve opened"
+        WATER_IN_FUEL = "water_in_fuel", "Water in fuel"
+        FILTER_DP_HIGH = "filter_dp_high", "Filter differential pressure high"
+        SUPPLY_PRESSURE_LOW = "supply_pressure_low", "Fuel supply pressure low"
+        PUMPING_IMBALANCE = "pumping_imbalance", "High-pressure pumping imbalance"
+        OTHER = "other", "Other"
+
+    unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="engine_events")
+    occurred_at = models.DateTimeField()
+    hours = models.FloatField(null=True, blank=True)
+    spn = models.PositiveIntegerField(
+        "SPN", validators=[MaxValueValidator(524_287)], help_text="SAE J1939 suspect parameter"
+    )
+    fmi = models.PositiveSmallIntegerField(
+        "FMI", validators=[MaxValueValidator(31)], help_text="SAE J1939 failure mode identifier"
+    )
+    occurrences = models.PositiveIntegerField(default=1, validators=[MinValueValidator(1)])
+    kind = models.CharField(max_length=30, choices=Kind.choices, default=Kind.OTHER)
+
+    class Meta:
+        ordering = ["unit", "-occurred_at"]
+        indexes = [models.Index(fields=["unit", "occurred_at"], name="event_unit_at")]
+
+    def __str__(self) -> str:
+        return (
+            f"{self.unit.fleet_number} SPN {self.spn} FMI {self.fmi} at {self.occurred_at:%Y-%m-%d}"
+        )
+
+
+class FilterPressureReading(models.Model):
+    """Differential pressure across a filter (bar), from a gauge at service or telematics."""
+
+    component = models.ForeignKey(
+        Component, on_delete=models.CASCADE, related_name="pressure_readings"
+    )
+    taken_at = models.DateTimeField()
+    hours = models.FloatField("hour meter", validators=[MinValueValidator(0)])
+    dp_bar = models.FloatField("differential pressure (bar)", validators=[MinValueValidator(0)])
+
+    class Meta:
+        ordering = ["component", "taken_at"]
+        indexes = [models.Index(fields=["component", "taken_at"], name="dp_component_at")]
+
+    def __str__(self) -> str:
+        return f"{self.component} {self.dp_bar:.2f} bar at {self.taken_at:%Y-%m-%d}"
+
+    def clean(self) -> None:
+        from .models import FILTER_KINDS
+
+        if self.component_id and self.component.kind not in FILTER_KINDS:
+            raise ValidationError({"component": "Differential pressure is read across a filter."})

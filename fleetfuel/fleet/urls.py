@@ -1,0 +1,2 @@
+app_name = "fleet"
+urlpatterns: list = []

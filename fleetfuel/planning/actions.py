@@ -1,0 +1,130 @@
+"""Writes of the planning app: store the engine's projections and flags for units."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime
+
+from django.db import transaction
+
+from services.common import DueStatus
+
+from .engine import unit_compute
+from .inputs import batch_inputs_load
+from .models import DueItem, ProjectionRun, UnitFlag
+
+STATUS_RANK = {DueStatus.OVERDUE: 0, DueStatus.DUE: 1, DueStatus.SOON: 2, DueStatus.OK: 3}
+DUE_FIELDS = [
+    "unit",
+    "status",
+    "rank",
+    "basis",
+    "due_hours",
+    "due_on",
+    "earliest_on",
+    "latest_on",
+    "explanation",
+    "inputs",
+    "computed_at",
+]
+
+
+@dataclass(frozen=True)
+class RecomputeResult:
+    units: int
+    items: int
+    flags: int
+
+
+def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResult:
+    """Project every task of the given units and store the latest word on each.
+
+    Idempotent: the same inputs give the same rows (upserts keyed on component and task, so
+    a due item keeps its id, and the work-order tasks that point at it stay linked).
+    A fixed number of queries per call, whatever the number of units.
+    """
+    batch = batch_inputs_load(unit_ids=unit_ids, now=now)
+    items: list[DueItem] = []
+    flags: list[UnitFlag] = []
+    for bundle in batch.units:
+        result = unit_compute(bundle, batch, now)
+        for cp in result.projections:
+            p = cp.projection
+            items.append(
+                DueItem(
+                    unit_id=result.unit_id,
+                    component_id=cp.component_id,
+                    task=p.task.value,
+                    status=p.status.value,
+                    rank=STATUS_RANK[p.status],
+                    basis=p.basis.value,
+                    due_hours=round(p.due.hours, 1) if p.due.hours is not None else None,
+                    due_on=p.due.on,
+                    earliest_on=p.due.earliest,
+                    latest_on=p.due.latest,
+                    explanation=list(p.explanation),
+                    inputs=dict(p.inputs),
+                    computed_at=now,
+                )
+            )
+        for f in result.flags:
+            flags.append(
+                UnitFlag(
+                    unit_id=result.unit_id,
+                    code=f.code,
+                    title=f.title,
+                    reason=f.reason,
+                    checks=list(f.checks),
+                    since=f.since,
+                    high_pressure=f.high_pressure,
+                    computed_at=now,
+                )
+            )
+    ids = [b.unit.pk for b in batch.units]
+    with transaction.atomic():
+        keep = {(i.component_id, i.task) for i in items}
+        stale = [
+            pk
+            for pk, comp, task in DueItem.objects.filter(unit_id__in=ids).values_list(
+                "pk", "component_id", "task"
+            )
+            if (comp, task) not in keep
+        ]
+        if stale:
+            DueItem.objects.filter(pk__in=stale).delete()
+        if items:
+            DueItem.objects.bulk_create(
+                items,
+                update_conflicts=True,
+                unique_fields=["component", "task"],
+                update_fields=DUE_FIELDS,
+            )
+        flag_keys = {(f.unit_id, f.code) for f in flags}
+        stale_flags = [
+            pk
+            for pk, unit_id, code in UnitFlag.objects.filter(unit_id__in=ids).values_list(
+                "pk", "unit_id", "code"
+            )
+            if (unit_id, code) not in flag_keys
+        ]
+        if stale_flags:
+            UnitFlag.objects.filter(pk__in=stale_flags).delete()
+        if flags:
+            UnitFlag.objects.bulk_create(
+                flags,
+                update_conflicts=True,
+                unique_fields=["unit", "code"],
+                update_fields=[
+                    "title",
+                    "reason",
+                    "checks",
+                    "since",
+                    "high_pressure",
+                    "computed_at",
+                ],
+            )
+    return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))
+
+
+def projection_run_start(*, now: datetime, trigger: str) -> ProjectionRun:
+    return ProjectionRun.objects.create(started_at=now, trigger=trigger)

@@ -1,0 +1,97 @@
+"""The engine's latest word on each unit: due items and unit flags.
+
+Rows here are derived: a recompute replaces them (same inputs, same rows), so they are never
+the record of anything done. The record is the ledger.
+"""
+
+from __future__ import annotations
+
+from django.db import models
+from django.db.models import Q
+
+
+class DueItem(models.Model):
+    class Task(models.TextChoices):
+        PRIMARY_FILTER = "primary_filter", "Change primary filter / separator element"
+        FINE_FILTER = "fine_filter", "Change pressure-side (fine) filter"
+        SEPARATOR_DRAIN = "separator_drain", "Drain water separator"
+
+    class Status(models.TextChoices):
+        # Stored as text; ``rank`` orders by urgency for sorting and counting.
+        OVERDUE = "overdue", "Overdue"
+        DUE = "due", "Due"
+        SOON = "soon", "Soon"
+        OK = "ok", "OK"
+
+    unit = models.ForeignKey("fleet.Unit", on_delete=models.CASCADE, related_name="due_items")
+    component = models.ForeignKey(
+        "fleet.Component", on_delete=models.CASCADE, related_name="due_items"
+    )
+    task = models.CharField(max_length=30, choices=Task.choices)
+    status = models.CharField(max_length=10, choices=Status.choices)
+    rank = models.PositiveSmallIntegerField(help_text="0 overdue, 1 due, 2 soon, 3 ok")
+    basis = models.CharField(max_length=40)
+    due_hours = models.FloatField(null=True, blank=True)
+    due_on = models.DateField()
+    earliest_on = models.DateField()
+    latest_on = models.DateField()
+    explanation = models.JSONField(default=list)
+    inputs = models.JSONField(default=dict)
+    computed_at = models.DateTimeField()
+
+    class Meta:
+        ordering = ["due_on", "unit_id", "task"]
+        constraints = [
+            models.UniqueConstraint(
+                fields=["component", "task"], name="dueitem_one_per_component_task"
+            ),
+        ]
+        indexes = [
+            models.Index(fields=["due_on", "id"], name="dueitem_due_on"),
+            models.Index(fields=["status", "due_on"], name="dueitem_status_due"),
+            models.Index(fields=["unit", "due_on"], name="dueitem_unit_due"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.unit_id} {self.task} due {self.due_on}"
+
+
+class UnitFlag(models.Model):
+    """Something odd the engine saw in a unit's engine events, with the checks to make."""
+
+    unit = models.ForeignKey("fleet.Unit", on_delete=models.CASCADE, related_name="flags")
+    code = models.CharField(max_length=40)
+    title = models.CharField(max_length=120)
+    reason = models.TextField()
+    checks = models.JSONField(default=list)
+    since = models.DateTimeField()
+    high_pressure = models.BooleanField(default=False)
+    computed_at = models.DateTimeField()
+
+    class Meta:
+        ordering = ["unit", "code"]
+        constraints = [
+            models.UniqueConstraint(fields=["unit", "code"], name="flag_one_per_unit_code"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.unit_id}: {self.title}"
+
+
+class ProjectionRun(models.Model):
+    """A record of a full recompute (nightly or by command), for the manager's confidence."""
+
+    started_at = models.DateTimeField()
+    finished_at = models.DateTimeField(null=True, blank=True)
+    units = models.PositiveIntegerField(default=0)
+    items = models.PositiveIntegerField(default=0)
+    trigger = models.CharField(max_length=20, default="nightly")
+
+    class Meta:
+        ordering = ["-started_at"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(finished_at__isnull=True) | Q(finished_at__gte=models.F("started_at")),
+                name="run_finishes_after_start",
+            )
+        ]

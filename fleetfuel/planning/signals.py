@@ -1,0 +1,82 @@
+"""Enqueue a unit's recompute, on commit, whenever one of its inputs is saved."""
+
+from __future__ import annotations
+
+import threading
+from datetime import timedelta
+from typing import Any
+
+from django.db import transaction
+from django.db.models.signals import post_save
+from django.dispatch import receiver
+
+from fleetfuel.fleet.models import (
+    EngineEvent,
+    FilterPressureReading,
+    Fueling,
+    FuelSample,
+    MeterReading,
+    MeterReplacement,
+)
+from fleetfuel.ledger.models import ServiceEvent
+
+from .inputs import LOOKBACK_DAYS
+
+_pending = threading.local()
+
+
+def unit_recompute_enqueue(unit_ids: list[int]) -> None:
+    """Queue a recompute of these units once the current transaction commits.
+
+    Many saves in one transaction (an import, the demo seed, a work-order close) give one
+    recompute per unit, not one per save: ids gather here and the first commit callback
+    sends them all in batches; the others find nothing left. Ids left by a rolled-back
+    transaction go with the next commit, which is harmless (a recompute is idempotent).
+    """
+    if not unit_ids:
+        return
+    pending: set[int] = getattr(_pending, "ids", None) or set()
+    pending.update(unit_ids)
+    _pending.ids = pending
+    transaction.on_commit(_flush)
+
+
+def _flush() -> None:
+    from django.conf import settings
+
+    from .tasks import recompute_units
+
+    ids = sorted(getattr(_pending, "ids", None) or ())
+    _pending.ids = set()
+    size = settings.PLANNING_BATCH_SIZE
+    for start in range(0, len(ids), size):
+        recompute_units.delay(ids[start : start + size])
+
+
+@receiver(post_save, sender=MeterReading)
+@receiver(post_save, sender=MeterReplacement)
+@receiver(post_save, sender=Fueling)
+@receiver(post_save, sender=EngineEvent)
+@receiver(post_save, sender=ServiceEvent)
+def _unit_input_saved(sender: Any, instance: Any, **kwargs: Any) -> None:
+    unit_recompute_enqueue([instance.unit_id])
+
+
+@receiver(post_save, sender=FilterPressureReading)
+def _dp_saved(sender: Any, instance: FilterPressureReading, **kwargs: Any) -> None:
+    unit_recompute_enqueue([instance.component.unit_id])
+
+
+@receiver(post_save, sender=FuelSample)
+def _sample_saved(sender: Any, instance: FuelSample, **kwargs: Any) -> None:
+    if instance.unit_id is not None:
+        unit_recompute_enqueue([instance.unit_id])
+        return
+    # A source sample: every unit fuelled from that source since the sample's look-back.
+    since = instance.sampled_at - timedelta(days=LOOKBACK_DAYS)
+    unit_ids = list(
+        Fueling.objects.filter(source_id=instance.source_id, fueled_at__gte=since)
+        .values_list("unit_id", flat=True)
+        .distinct()
+    )
+    unit_recompute_enqueue(unit_ids)

@@ -1,0 +1,2 @@
+app_name = "planning"
+urlpatterns: list = []

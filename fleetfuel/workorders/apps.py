@@ -1,0 +1,6 @@
+from django.apps import AppConfig
+
+
+class WorkordersConfig(AppConfig):
+    name = "fleetfuel.workorders"
+    label = "workorders"

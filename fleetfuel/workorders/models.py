@@ -1,0 +1,111 @@
+"""Work orders: a unit, a mechanic, a due date and the tasks to do on it."""
+
+from __future__ import annotations
+
+from django.conf import settings
+from django.db import models
+from django.db.models import Q
+
+
+class WorkOrder(models.Model):
+    class Status(models.TextChoices):
+        OPEN = "open", "Open"
+        CLOSED = "closed", "Closed"
+        CANCELLED = "cancelled", "Cancelled"
+
+    class Priority(models.IntegerChoices):
+        URGENT = 1, "Urgent"
+        HIGH = 2, "High"
+        NORMAL = 3, "Normal"
+
+    number = models.CharField(max_length=20, unique=True)
+    unit = models.ForeignKey("fleet.Unit", on_delete=models.PROTECT, related_name="work_orders")
+    status = models.CharField(max_length=12, choices=Status.choices, default=Status.OPEN)
+    priority = models.PositiveSmallIntegerField(choices=Priority.choices, default=Priority.NORMAL)
+    due_on = models.DateField()
+    assigned_to = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="assigned_work_orders",
+    )
+    created_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="created_work_orders"
+    )
+    created_at = models.DateTimeField()
+    hour_meter = models.FloatField("hour meter at the job", null=True, blank=True)
+    meter_replaced = models.BooleanField("hour meter was replaced at this job", default=False)
+    notes = models.TextField(blank=True)
+    closed_at = models.DateTimeField(null=True, blank=True)
+    closed_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="closed_work_orders",
+    )
+    close_token = models.CharField(max_length=64, null=True, blank=True, unique=True)
+    override_reason = models.TextField(blank=True)
+    override_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="overridden_work_orders",
+    )
+
+    class Meta:
+        ordering = ["priority", "due_on", "number"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(status="closed", closed_at__isnull=False, closed_by__isnull=False)
+                | ~Q(status="closed"),
+                name="workorder_closed_has_who_and_when",
+            ),
+        ]
+        indexes = [
+            models.Index(fields=["status", "due_on"], name="wo_status_due"),
+            models.Index(fields=["assigned_to", "status"], name="wo_assignee_status"),
+        ]
+
+    def __str__(self) -> str:
+        return self.number
+
+
+class WorkOrderTask(models.Model):
+    """One thing to do in a work order. ``record`` holds what the mechanic entered (a draft
+    saved as they go), which becomes service events when the work order closes."""
+
+    class Kind(models.TextChoices):
+        FILTER_CHANGE = "filter_change", "Change filter"
+        SEPARATOR_DRAIN = "separator_drain", "Drain water separator"
+        INJECTOR_REPLACE = "injector_replace", "Replace injector"
+        CONNECTOR_REPLACE = "connector_replace", "Replace high-pressure connector"
+        RELIEF_VALVE_REPLACE = "relief_valve_replace", "Replace rail relief valve"
+        MEASUREMENT = "measurement", "Take measurement"
+        INSPECTION = "inspection", "Inspect / diagnose"
+
+    work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="tasks")
+    kind = models.CharField(max_length=30, choices=Kind.choices)
+    component = models.ForeignKey(
+        "fleet.Component", on_delete=models.PROTECT, null=True, blank=True, related_name="+"
+    )
+    cylinder = models.PositiveSmallIntegerField(null=True, blank=True)
+    description = models.CharField(max_length=200)
+    due_item = models.ForeignKey(
+        "planning.DueItem",
+        on_delete=models.SET_NULL,
+        null=True,
+        blank=True,
+        related_name="work_order_tasks",
+    )
+    record = models.JSONField(default=dict, blank=True)
+    done = models.BooleanField(default=False)
+    draft_saved_at = models.DateTimeField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["work_order", "id"]
+
+    def __str__(self) -> str:
+        return f"{self.work_order.number}: {self.description}"

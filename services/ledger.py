@@ -1,0 +1,94 @@
+"""The service history's hash chain, as pure functions.
+
+Each entry's hash is SHA-256 over a canonical serialisation of its content followed by the
+previous entry's hash (the first entry of a unit's chain follows GENESIS). Canonical form:
+JSON (RFC 8259) with keys sorted, no insignificant white space, UTF-8, floats written by
+Python's shortest round-trip repr, datetimes as ISO 8601 UTC with a trailing 'Z'. Anyone with
+the exported rows can recompute it with a few lines in any language (see the README).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from datetime import UTC, date, datetime
+
+GENESIS = "0" * 64
+
+
+def _canonical_value(value: object) -> object:
+    if isinstance(value, datetime):
+        if value.tzinfo is None:
+            raise ValueError("ledger datetimes must be timezone-aware")
+        return value.astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+    if isinstance(value, date):
+        return value.isoformat()
+    if isinstance(value, float) and value.is_integer():
+        # 12.0 and 12 hash alike whatever the database hands back.
+        return int(value)
+    return value
+
+
+def canonical_bytes(content: Mapping[str, object]) -> bytes:
+    """The bytes that are hashed for one entry's content."""
+    normalised = {key: _canonical_value(val) for key, val in content.items()}
+    return json.dumps(
+        normalised, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
+    ).encode("utf-8")
+
+
+def entry_hash(*, content: Mapping[str, object], prev_hash: str) -> str:
+    """SHA-256 (FIPS 180-4) of the canonical content followed by the previous hash (ASCII hex)."""
+    if len(prev_hash) != 64:
+        raise ValueError("prev_hash must be 64 hexadecimal characters")
+    digest = hashlib.sha256()
+    digest.update(canonical_bytes(content))
+    digest.update(prev_hash.encode("ascii"))
+    return digest.hexdigest()
+
+
+@dataclass(frozen=True, slots=True)
+class ChainEntry:
+    ident: str  # how a person finds it (e.g. the event id)
+    seq: int
+    content: Mapping[str, object]
+    prev_hash: str
+    hash: str
+
+
+@dataclass(frozen=True, slots=True)
+class ChainBreak:
+    ident: str
+    seq: int
+    problem: str  # what differs, in words
+
+
+def chain_verify(entries: Iterable[ChainEntry]) -> ChainBreak | None:
+    """Walk one unit's chain in seq order; return the first broken link, or None."""
+    expected_prev = GENESIS
+    expected_seq = 1
+    for entry in entries:
+        if entry.seq != expected_seq:
+            return ChainBreak(
+                entry.ident, entry.seq, f"sequence jumps to {entry.seq}, expected {expected_seq}"
+            )
+        if entry.prev_hash != expected_prev:
+            return ChainBreak(
+                entry.ident,
+                entry.seq,
+                f"prev_hash {entry.prev_hash[:12]}… does not match the previous entry's hash "
+                f"{expected_prev[:12]}…",
+            )
+        recomputed = entry_hash(content=entry.content, prev_hash=entry.prev_hash)
+        if recomputed != entry.hash:
+            return ChainBreak(
+                entry.ident,
+                entry.seq,
+                f"content does not match its stored hash (stored {entry.hash[:12]}…, "
+                f"recomputed {recomputed[:12]}…): the entry was changed after it was recorded",
+            )
+        expected_prev = entry.hash
+        expected_seq += 1
+    return None
