@@ -122,6 +122,7 @@ TEMPLATES = [
                 "django.contrib.messages.context_processors.messages",
                 "fleetfuel.accounts.context.role",
             ],
+            "builtins": ["fleetfuel.planning.templatetags.fleetfuel_tags"],
         },
     }
 ]
@@ -142,7 +143,8 @@ if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     DATABASES["default"].setdefault("OPTIONS", {}).update(
         {"transaction_mode": "IMMEDIATE", "init_command": "PRAGMA journal_mode=WAL;"}
     )
-    DATABASES["default"]["TEST"] = {"NAME": str(BASE_DIR / "var" / "test.sqlite3")}
+    # A file (not memory) so a real Celery worker process can share it; one per test process.
+    DATABASES["default"]["TEST"] = {"NAME": str(BASE_DIR / "var" / f"test-{os.getpid()}.sqlite3")}
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [
@@ -175,12 +177,14 @@ STORAGES = {
 }
 
 # Security: strict by default; DEBUG relaxes only what local http needs.
-SECURE_SSL_REDIRECT = env_bool("SECURE_SSL_REDIRECT", not DEBUG)
+SECURE_SSL_REDIRECT = env_bool("SECURE_SSL_REDIRECT", not (DEBUG or TESTING))
 SESSION_COOKIE_SECURE = not DEBUG
 CSRF_COOKIE_SECURE = not DEBUG
 SECURE_HSTS_SECONDS = env_int("SECURE_HSTS_SECONDS", 0 if DEBUG else 31_536_000)
 SECURE_HSTS_INCLUDE_SUBDOMAINS = not DEBUG
 SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", False)
+# The container health check speaks plain http inside the network.
+SECURE_REDIRECT_EXEMPT = [r"^healthz$"]
 SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")
 SECURE_CONTENT_TYPE_NOSNIFF = True
 X_FRAME_OPTIONS = "DENY"
@@ -211,7 +215,8 @@ SITE_URL = env_str("SITE_URL", "http://127.0.0.1:8000").rstrip("/")
 
 # Celery: Redis in production; with no broker, tasks run in-process (eager).
 CELERY_BROKER_URL = os.environ.get("CELERY_BROKER_URL", "")
-CELERY_TASK_ALWAYS_EAGER = not CELERY_BROKER_URL
+# Tests run tasks in-process too, except the ones that start a real worker (they switch it off).
+CELERY_TASK_ALWAYS_EAGER = env_bool("CELERY_TASK_ALWAYS_EAGER", not CELERY_BROKER_URL or TESTING)
 CELERY_TASK_EAGER_PROPAGATES = True
 CELERY_RESULT_BACKEND = os.environ.get("CELERY_RESULT_BACKEND", CELERY_BROKER_URL or None)
 CELERY_TASK_SERIALIZER = "json"
@@ -229,6 +234,11 @@ CELERY_BEAT_SCHEDULE = {
         "task": "fleetfuel.planning.tasks.recompute_all",
         "schedule": crontab(hour=2, minute=15),
         "options": {"expires": 6 * 3600},
+    },
+    "work-lists": {
+        "task": "fleetfuel.planning.tasks.worklists_tick",
+        "schedule": crontab(minute=0),
+        "options": {"expires": 50 * 60},
     },
 }
 

@@ -6,6 +6,7 @@ from . import views
 app_name = "accounts"
 urlpatterns = [
     path("", views.home, name="home"),
+    path("healthz", views.healthz, name="healthz"),
     path(
         "login/",
         auth_views.LoginView.as_view(template_name="accounts/login.html"),

@@ -2,8 +2,10 @@ from __future__ import annotations
 
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
+from django.db import connection
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect
+from django.views.decorators.http import require_GET
 
 from .access import user_role
 from .models import Role
@@ -22,3 +24,11 @@ def home(request: HttpRequest) -> HttpResponse:
     if role is None:
         raise PermissionDenied("Your account has no role yet; ask a fleet manager.")
     return redirect(HOME_BY_ROLE[Role(role)])
+
+
+@require_GET
+def healthz(request: HttpRequest) -> HttpResponse:
+    """Liveness for the container health check: no login, no data, just 'the database answers'."""
+    with connection.cursor() as cursor:
+        cursor.execute("SELECT 1")
+    return HttpResponse("ok", content_type="text/plain")

@@ -591,7 +591,7 @@ class DemoBuilder:
         hours = self.hours_at(key, when)
         mechanic = self.people["mechanic"]
         wo = WorkOrder.objects.create(
-            number="WO-0001",
+            number="WO-00001",
             unit=unit,
             status=WorkOrder.Status.CLOSED,
             due_on=when.date(),
@@ -638,7 +638,7 @@ class DemoBuilder:
         now = _at(self.anchor, 7)
         specs = [
             (
-                "WO-0002",
+                "WO-00002",
                 "KQ-H04",
                 WorkOrder.Priority.URGENT,
                 [
@@ -650,7 +650,7 @@ class DemoBuilder:
                 ],
             ),
             (
-                "WO-0003",
+                "WO-00003",
                 "ML-H01",
                 WorkOrder.Priority.HIGH,
                 [
@@ -667,7 +667,7 @@ class DemoBuilder:
                 ],
             ),
             (
-                "WO-0004",
+                "WO-00004",
                 "KQ-H06",
                 WorkOrder.Priority.NORMAL,
                 [
@@ -703,6 +703,14 @@ def demo_seed(*, anchor: date) -> bool:
     """Build the demo fleet unless it is already there. Returns True when it built it."""
     if Site.objects.filter(code="kestrel").exists():
         return False
+    from fleetfuel.planning.actions import due_items_recompute
+
     with transaction.atomic():
-        DemoBuilder(anchor=anchor).build()
+        builder = DemoBuilder(anchor=anchor)
+        builder.build()
+        # Project now, in the same transaction, so the demo opens with its due list.
+        due_items_recompute(
+            unit_ids=[u.pk for u in builder.units.values()],
+            now=datetime.combine(anchor, time(6, 0), tzinfo=UTC),
+        )
     return True

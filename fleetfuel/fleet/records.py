@@ -35,6 +35,30 @@ class MeterReading(models.Model):
     def __str__(self) -> str:
         return f"{self.unit.fleet_number} {self.hours:.1f} h at {self.taken_at:%Y-%m-%d %H:%M}"
 
+    def clean(self) -> None:
+        """The meter may not go backwards, unless a meter replacement lies in between."""
+        if not self.unit_id or self.taken_at is None or self.hours is None:
+            return
+        previous = (
+            MeterReading.objects.filter(unit_id=self.unit_id, taken_at__lte=self.taken_at)
+            .exclude(pk=self.pk)
+            .order_by("-taken_at")
+            .first()
+        )
+        if previous is None or self.hours >= previous.hours:
+            return
+        replaced = MeterReplacement.objects.filter(
+            unit_id=self.unit_id, replaced_at__gt=previous.taken_at, replaced_at__lte=self.taken_at
+        ).exists()
+        if not replaced:
+            raise ValidationError(
+                {
+                    "hours": f"{self.hours:,.1f} h is lower than the previous reading "
+                    f"({previous.hours:,.1f} h on {previous.taken_at:%Y-%m-%d}). Record a meter "
+                    "replacement first if the hour meter was changed."
+                }
+            )
+
 
 class MeterReplacement(models.Model):
     """A replaced hour meter. Engine hours after it = meter + (old_final - new_start)."""

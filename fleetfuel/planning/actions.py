@@ -20,6 +20,7 @@ DUE_FIELDS = [
     "rank",
     "basis",
     "due_hours",
+    "hours_left",
     "due_on",
     "earliest_on",
     "latest_on",
@@ -59,6 +60,12 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
                     rank=STATUS_RANK[p.status],
                     basis=p.basis.value,
                     due_hours=round(p.due.hours, 1) if p.due.hours is not None else None,
+                    hours_left=round(
+                        p.due.hours - result.current_hours
+                        if p.due.hours is not None
+                        else (p.due.on - now.date()).days * result.rate,
+                        1,
+                    ),
                     due_on=p.due.on,
                     earliest_on=p.due.earliest,
                     latest_on=p.due.latest,

@@ -12,7 +12,7 @@ from datetime import datetime, timedelta
 from fleetfuel.fleet.models import ComponentKind, FuelSample, ServicePlan
 from services import fuel_quality as fq
 from services import intervals, rules, usage, water
-from services.common import Projection, TaskKind
+from services.common import Projection, TaskKind, UsageForecast
 
 from .inputs import FORECAST_WINDOW_DAYS, BatchInputs, UnitInputs
 
@@ -35,6 +35,8 @@ class UnitResult:
     projections: list[ComponentProjection]
     flags: list[rules.UnitFlag]
     skipped: list[str]  # why a task could not be projected (no plan, no filter fitted)
+    current_hours: float  # engine hours now, from the usage forecast
+    rate: float  # engine hours per day, from the usage forecast
 
 
 def sample_quality(sample: FuelSample, source_name: str | None) -> fq.FuelQuality:
@@ -66,7 +68,7 @@ def _meter_to_engine(b: UnitInputs, at: datetime, meter: float) -> float:
     return meter + sum(r.offset for r in b.replacements if r.replaced_at <= at)
 
 
-def unit_forecast(b: UnitInputs, now: datetime) -> object:
+def unit_forecast(b: UnitInputs, now: datetime) -> UsageForecast:
     readings = [usage.MeterReading(at=at, hours=h) for at, h in b.readings]
     if b.latest_reading and (not readings or readings[-1].at != b.latest_reading[0]):
         readings.append(usage.MeterReading(at=b.latest_reading[0], hours=b.latest_reading[1]))
@@ -187,7 +189,7 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
                 for r in b.dp_readings.get(comp.pk, [])
                 if r.taken_at >= last_at
             ],
-            forecast=forecast,  # type: ignore[arg-type]
+            forecast=forecast,
             now=now,
             priority_raised=raised,
         )
@@ -229,7 +231,7 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
         lifetime_relief_openings=b.lifetime_relief_openings,
         now=now,
     )
-    return UnitResult(unit.pk, results, flags, skipped)
+    return UnitResult(unit.pk, results, flags, skipped, forecast.current_hours, forecast.rate)
 
 
 def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> intervals.FilterPlan:
@@ -254,7 +256,7 @@ def drain_compute(
     paired: list[tuple[fq.Fueling, fq.FuelQuality | None]],
     engine_events: list[rules.EngineEvent],
     burn: float | None,
-    forecast: object,
+    forecast: UsageForecast,
     now: datetime,
 ) -> Projection:
     records = [
@@ -306,7 +308,7 @@ def drain_compute(
         burn_l_per_h=burn or plan.reference_burn_l_per_h or b.unit.unit_class.typical_burn_l_per_h,
         current_free_water_mg_kg=current_fw,
         density_kg_l=density,
-        forecast=forecast,  # type: ignore[arg-type]
+        forecast=forecast,
         water_in_fuel_since_drain=rules.water_event_since(events=engine_events, since=since),
         now=now,
     )

@@ -32,6 +32,11 @@ class DueItem(models.Model):
     rank = models.PositiveSmallIntegerField(help_text="0 overdue, 1 due, 2 soon, 3 ok")
     basis = models.CharField(max_length=40)
     due_hours = models.FloatField(null=True, blank=True)
+    hours_left = models.FloatField(
+        default=0.0,
+        help_text="Engine hours from the projection to the due point (calendar items: at the "
+        "forecast rate).",
+    )
     due_on = models.DateField()
     earliest_on = models.DateField()
     latest_on = models.DateField()
@@ -95,3 +100,39 @@ class ProjectionRun(models.Model):
                 name="run_finishes_after_start",
             )
         ]
+
+
+class WorkListDispatch(models.Model):
+    """One emailed work list: a manager, a site, a local day. Claimed before sending, so a
+    rerun of the hourly tick, or two workers, never send the same list twice."""
+
+    class Status(models.TextChoices):
+        PENDING = "pending", "Waiting to send"
+        SENDING = "sending", "Sending"
+        RETRYING = "retrying", "Failed, will retry"
+        SENT = "sent", "Sent"
+        FAILED = "failed", "Failed after retries"
+
+    user = models.ForeignKey("auth.User", on_delete=models.CASCADE, related_name="work_lists")
+    site = models.ForeignKey("fleet.Site", on_delete=models.CASCADE, related_name="work_lists")
+    local_date = models.DateField()
+    manual = models.BooleanField(default=False, help_text="Sent with the 'send now' button.")
+    status = models.CharField(max_length=10, choices=Status.choices, default=Status.PENDING)
+    attempts = models.PositiveSmallIntegerField(default=0)
+    last_error = models.TextField(blank=True)
+    items = models.PositiveIntegerField(default=0)
+    created_at = models.DateTimeField(auto_now_add=True)
+    sent_at = models.DateTimeField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["-created_at"]
+        constraints = [
+            models.UniqueConstraint(
+                fields=["user", "site", "local_date"],
+                condition=Q(manual=False),
+                name="worklist_once_per_user_site_day",
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"work list {self.site_id} {self.local_date} for {self.user_id}: {self.status}"

@@ -59,3 +59,63 @@ def recompute_all(after_id: int = 0, run_id: int | None = None) -> dict[str, int
     )
     recompute_all.delay(after_id=ids[-1], run_id=run_id)
     return {"units": result.units, "items": result.items, "run": run_id}
+
+
+@shared_task(name="fleetfuel.planning.tasks.worklists_tick", time_limit=120, soft_time_limit=100)
+def worklists_tick() -> int:
+    """Hourly (beat): queue the work lists whose local hour has come. Rerunning is harmless."""
+    from .worklists import worklists_due_now
+
+    due = worklists_due_now(now=timezone.now())
+    for user_id, site_id, local_date in due:
+        worklist_send.delay(user_id, site_id, local_date.isoformat())
+    return len(due)
+
+
+@shared_task(
+    bind=True,
+    name="fleetfuel.planning.tasks.worklist_send",
+    time_limit=120,
+    soft_time_limit=100,
+    max_retries=3,
+)
+def worklist_send(self, user_id: int, site_id: int, local_date: str, manual: bool = False) -> str:  # type: ignore[no-untyped-def]
+    """Claim, then send one work list; SMTP failures retry with backoff (30 s, 2, 8 min).
+
+    After the last retry the dispatch stays FAILED with the error, shown on the manager's page.
+    """
+    from datetime import date
+
+    from .models import WorkListDispatch
+    from .worklists import dispatch_claim, dispatch_send
+
+    if self.request.retries:
+        dispatch = (
+            WorkListDispatch.objects.filter(
+                user_id=user_id, site_id=site_id, local_date=local_date, manual=manual
+            )
+            .order_by("-created_at")
+            .first()
+        )
+        claimed = dispatch is not None and WorkListDispatch.objects.filter(
+            pk=dispatch.pk, status=WorkListDispatch.Status.RETRYING
+        ).update(status=WorkListDispatch.Status.SENDING, attempts=F("attempts") + 1)
+        if not claimed:
+            return "not claimed"
+        dispatch.refresh_from_db()
+    else:
+        dispatch = dispatch_claim(
+            user_id=user_id,
+            site_id=site_id,
+            local_date=date.fromisoformat(local_date),
+            manual=manual,
+        )
+        if dispatch is None:
+            return "already sent or being sent"
+    try:
+        dispatch_send(dispatch=dispatch)
+    except Exception as exc:
+        if self.request.retries < self.max_retries:
+            raise self.retry(exc=exc, countdown=30 * 4**self.request.retries) from exc
+        raise
+    return "sent"

@@ -1,2 +1,11 @@
+from django.urls import path
+
+from . import views
+
 app_name = "planning"
-urlpatterns: list = []
+urlpatterns = [
+    path("", views.due_list, name="due_list"),
+    path("items/<int:pk>/", views.due_item_detail, name="due_item_detail"),
+    path("work-orders/", views.work_orders_create, name="work_orders_create"),
+    path("work-list/send/", views.worklist_send_now, name="worklist_send_now"),
+]

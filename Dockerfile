@@ -1,0 +1,15 @@
+# One image for web, worker and beat.
+FROM python:3.12-slim
+ENV PYTHONDONTWRITEBYTECODE=1 PYTHONUNBUFFERED=1
+WORKDIR /app
+COPY pyproject.toml ./
+COPY fleetfuel ./fleetfuel
+COPY services ./services
+RUN pip install --no-cache-dir .
+COPY . .
+RUN SECRET_KEY=build-only-collectstatic-key-not-used-at-run-time-0123456789 \
+    python manage.py collectstatic --no-input
+RUN useradd --system --uid 1000 fleetfuel && chown -R fleetfuel /app
+USER fleetfuel
+EXPOSE 8000
+CMD ["gunicorn", "fleetfuel.wsgi", "--bind", "0.0.0.0:8000", "--worker-class", "gthread", "--workers", "2", "--threads", "4", "--timeout", "120"]

@@ -1,0 +1,191 @@
+"""Reads of the fleet app: the unit list and everything the unit page shows."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime, timedelta
+
+from django.db.models import Count, Q, QuerySet
+
+from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.planning.models import DueItem, UnitFlag
+from fleetfuel.workorders.models import WorkOrder
+from services import usage
+from services.common import UsageForecast
+
+from .charts import Chart, Series
+from .models import (
+    FILTER_KINDS,
+    Component,
+    FilterPressureReading,
+    Fueling,
+    FuelSample,
+    MeterReading,
+    MeterReplacement,
+    Unit,
+)
+
+HISTORY_DAYS = 365
+
+
+def units_for_list(*, site_ids: list[int], q: str = "") -> QuerySet[Unit]:
+    qs = (
+        Unit.objects.filter(site_id__in=site_ids)
+        .select_related("site", "unit_class")
+        .annotate(
+            overdue=Count("due_items", filter=Q(due_items__status=DueItem.Status.OVERDUE)),
+            due=Count("due_items", filter=Q(due_items__status=DueItem.Status.DUE)),
+            flags_n=Count("flags", distinct=True),
+        )
+        .order_by("site__name", "fleet_number")
+    )
+    if q:
+        qs = qs.filter(fleet_number__icontains=q)
+    return qs
+
+
+@dataclass
+class UnitPage:
+    unit: Unit
+    components: list[Component]
+    flags: list[UnitFlag]
+    due_items: list[DueItem]
+    events: list[ServiceEvent]
+    open_orders: list[WorkOrder]
+    forecast: UsageForecast | None
+    charts: dict[str, Chart]
+
+
+def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
+    since = now - timedelta(days=HISTORY_DAYS)
+    components = list(unit.components.filter(removed_on__isnull=True).order_by("kind", "position"))
+    flags = list(UnitFlag.objects.filter(unit=unit).order_by("code"))
+    due_items = list(
+        DueItem.objects.filter(unit=unit).select_related("component").order_by("due_on")
+    )
+    events = list(
+        ServiceEvent.objects.filter(unit=unit)
+        .select_related("recorded_by")
+        .order_by("-performed_at", "-seq")[:25]
+    )
+    open_orders = list(
+        WorkOrder.objects.filter(unit=unit, status=WorkOrder.Status.OPEN).select_related(
+            "assigned_to"
+        )
+    )
+    readings = list(
+        MeterReading.objects.filter(unit=unit, taken_at__gte=since, taken_at__lte=now)
+        .order_by("taken_at")
+        .values_list("taken_at", "hours")
+    )
+    replacements = [
+        usage.MeterReplacement(
+            at=r.replaced_at, old_meter_final=r.old_meter_final, new_meter_start=r.new_meter_start
+        )
+        for r in MeterReplacement.objects.filter(unit=unit).order_by("replaced_at")
+    ]
+    engine = usage.engine_hours(
+        readings=[usage.MeterReading(at=at, hours=h) for at, h in readings],
+        replacements=replacements,
+    )
+    forecast = None
+    if engine:
+        forecast = usage.usage_forecast(
+            readings=[usage.MeterReading(at=at, hours=h) for at, h in readings],
+            replacements=replacements,
+            now=now,
+            class_rate=unit.unit_class.typical_hours_per_day,
+        )
+    charts: dict[str, Chart] = {}
+    hours_chart = Chart(title="Engine hours with forecast", y_label="engine hours (h)")
+    hours_chart.series.append(Series(points=engine, css="series", label="recorded"))
+    if forecast is not None and due_items:
+        horizon = max(d.latest_on for d in due_items)
+        days = max(1, (horizon - now.date()).days)
+        steps = [now + timedelta(days=days * i / 10) for i in range(11)]
+        base = forecast.current_hours
+        hours_chart.series.append(
+            Series(
+                points=[
+                    (t, base + forecast.rate * (t - now).total_seconds() / 86400) for t in steps
+                ],
+                css="forecast",
+                label=f"forecast {forecast.rate:.1f} h/day (dashed; band shaded)",
+            )
+        )
+        hours_chart.band = [
+            (
+                t,
+                base + forecast.rate_low * (t - now).total_seconds() / 86400,
+                base + forecast.rate_high * (t - now).total_seconds() / 86400,
+            )
+            for t in steps
+        ]
+    charts["hours"] = hours_chart
+    filters = {c.pk: c for c in components if c.kind in FILTER_KINDS}
+    dp_rows: dict[int, list[tuple[datetime, float]]] = {pk: [] for pk in filters}
+    for comp_id, at, dp in (
+        FilterPressureReading.objects.filter(component_id__in=list(filters), taken_at__gte=since)
+        .order_by("taken_at")
+        .values_list("component_id", "taken_at", "dp_bar")
+    ):
+        if at.date() >= filters[comp_id].installed_on:
+            dp_rows[comp_id].append((at, dp))
+    plans = {p.component_kind: p for p in unit.unit_class.plans.all()}
+    for pk, comp in filters.items():
+        plan = plans.get(comp.kind)
+        charts[f"dp-{comp.kind}"] = Chart(
+            title=f"Differential pressure, {comp.get_kind_display().lower()}, since its change",
+            y_label="dP (bar)",
+            series=[Series(points=dp_rows[pk], css="series")],
+            limit=plan.dp_limit_bar if plan else None,
+            limit_label=f"limit {plan.dp_limit_bar} bar" if plan and plan.dp_limit_bar else "",
+        )
+    drains = [
+        (e.performed_at, e.water_ml or 0.0)
+        for e in ServiceEvent.objects.filter(
+            unit=unit, kind=ServiceEvent.Kind.SEPARATOR_DRAINED, performed_at__gte=since
+        ).order_by("performed_at")
+    ]
+    charts["water"] = Chart(
+        title="Water drained per drain",
+        y_label="water (mL)",
+        series=[Series(points=drains, css="bar")],
+        bars=True,
+    )
+    source_ids = list(
+        Fueling.objects.filter(unit=unit, fueled_at__gte=since)
+        .values_list("source_id", flat=True)
+        .distinct()
+    )
+    samples = list(
+        FuelSample.objects.filter(Q(unit=unit) | Q(source_id__in=source_ids), sampled_at__gte=since)
+        .order_by("sampled_at")
+        .values_list("sampled_at", "code_4", "code_14", "water_mg_kg")
+    )
+    charts["codes"] = Chart(
+        title="Fuel samples: ISO 4406 scale numbers",
+        y_label="scale number",
+        series=[
+            Series(
+                points=[(s[0], s[1]) for s in samples if s[1] is not None],
+                css="series",
+                label="≥4 µm(c)",
+            ),
+            Series(
+                points=[(s[0], s[2]) for s in samples if s[2] is not None],
+                css="forecast",
+                label="≥14 µm(c) (dashed)",
+            ),
+        ],
+        limit=18,
+        limit_label="WWFC 18 at ≥4 µm(c)",
+    )
+    charts["water_content"] = Chart(
+        title="Fuel samples: water content",
+        y_label="water (mg/kg)",
+        series=[Series(points=[(s[0], s[3]) for s in samples if s[3] is not None], css="dot")],
+        limit=200,
+        limit_label="EN 590 limit 200 mg/kg",
+    )
+    return UnitPage(unit, components, flags, due_items, events, open_orders, forecast, charts)

@@ -1,0 +1,43 @@
+from __future__ import annotations
+
+from django.core.paginator import Paginator
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import render
+from django.utils import timezone
+from django.views.decorators.http import require_GET
+
+from fleetfuel.accounts.access import role_required, site_ids_for_user, unit_for_user
+from fleetfuel.accounts.models import Role
+from fleetfuel.fleet.models import HIGH_PRESSURE_KINDS
+
+from .charts import chart_svg
+from .selectors import unit_page, units_for_list
+
+ALL_ROLES = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
+
+
+@require_GET
+@role_required(*ALL_ROLES)
+def unit_list(request: HttpRequest) -> HttpResponse:
+    q = request.GET.get("q", "").strip()[:30]
+    paginator = Paginator(units_for_list(site_ids=site_ids_for_user(request.user), q=q), 50)
+    page = paginator.get_page(request.GET.get("page"))
+    return render(request, "fleet/unit_list.html", {"page": page, "q": q})
+
+
+@require_GET
+@role_required(*ALL_ROLES)
+def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
+    unit = unit_for_user(request.user, pk)
+    page = unit_page(unit=unit, now=timezone.now())
+    charts = {name: chart_svg(chart) for name, chart in page.charts.items()}
+    return render(
+        request,
+        "fleet/unit_detail.html",
+        {
+            "p": page,
+            "unit": unit,
+            "charts": charts,
+            "hp_kinds": [k.value for k in HIGH_PRESSURE_KINDS],
+        },
+    )

@@ -1,0 +1,170 @@
+"""Emailed work lists: what each manager should see before the shift starts.
+
+One email per manager, site and local day: overdue items, items due within the manager's
+chosen days, and flagged units, grouped by unit, with links back to the due list.
+"""
+
+from __future__ import annotations
+
+import zoneinfo
+from dataclasses import dataclass
+from datetime import date, datetime, timedelta
+from typing import Any
+from urllib.parse import urlencode
+
+from django.conf import settings
+from django.contrib.auth.models import User
+from django.core.mail import EmailMultiAlternatives
+from django.db import IntegrityError, transaction
+from django.db.models import F, Q
+from django.template.loader import render_to_string
+from django.urls import reverse
+from django.utils import timezone
+
+from fleetfuel.accounts.access import sites_for_user
+from fleetfuel.accounts.models import Profile, Role
+from fleetfuel.fleet.models import Site
+
+from .models import DueItem, UnitFlag, WorkListDispatch
+
+MAX_ATTEMPTS = 4
+
+
+@dataclass
+class UnitSection:
+    fleet_number: str
+    unit_id: int
+    items: list[DueItem]
+    flags: list[UnitFlag]
+
+
+def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
+    """What the email lists (three queries)."""
+    days = user.profile.work_list_days_ahead
+    items = list(
+        DueItem.objects.filter(unit__site=site, unit__disposed_on__isnull=True)
+        .filter(Q(status=DueItem.Status.OVERDUE) | Q(due_on__lte=today + timedelta(days=days)))
+        .select_related("unit")
+        .order_by("unit__fleet_number", "due_on", "task")
+    )
+    flags = list(
+        UnitFlag.objects.filter(unit__site=site, unit__disposed_on__isnull=True)
+        .select_related("unit")
+        .order_by("unit__fleet_number", "code")
+    )
+    sections: dict[int, UnitSection] = {}
+    for item in items:
+        sections.setdefault(item.unit_id, UnitSection(item.unit.fleet_number, item.unit_id, [], []))
+        sections[item.unit_id].items.append(item)
+    for flag in flags:
+        sections.setdefault(flag.unit_id, UnitSection(flag.unit.fleet_number, flag.unit_id, [], []))
+        sections[flag.unit_id].flags.append(flag)
+    base = settings.SITE_URL + reverse("planning:due_list")
+    overdue = sum(1 for i in items if i.status == DueItem.Status.OVERDUE)
+    return {
+        "user": user,
+        "site": site,
+        "today": today,
+        "days": days,
+        "sections": sorted(sections.values(), key=lambda s: s.fleet_number),
+        "overdue": overdue,
+        "upcoming": len(items) - overdue,
+        "flagged": len({f.unit_id for f in flags}),
+        "link_overdue": f"{base}?{urlencode({'site': site.pk, 'status': 'overdue'})}",
+        "link_upcoming": f"{base}?{urlencode({'site': site.pk, 'within_days': days})}",
+        "link_flagged": f"{base}?{urlencode({'site': site.pk, 'flagged': 'on'})}",
+        "site_url": settings.SITE_URL,
+        "item_count": len(items),
+    }
+
+
+def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMultiAlternatives, int]:
+    ctx = worklist_content(user=user, site=site, today=today)
+    subject = (
+        f"fleetfuel work list, {site.name}, {today:%a %d %b %Y}: "
+        f"{ctx['overdue']} overdue, {ctx['upcoming']} due within {ctx['days']} days"
+    )
+    message = EmailMultiAlternatives(
+        subject=subject,
+        body=render_to_string("planning/email/work_list.txt", ctx),
+        to=[user.email],
+    )
+    message.attach_alternative(render_to_string("planning/email/work_list.html", ctx), "text/html")
+    return message, ctx["item_count"]
+
+
+def dispatch_claim(
+    *, user_id: int, site_id: int, local_date: date, manual: bool
+) -> WorkListDispatch | None:
+    """Claim the right to send (None: already sent, or another worker is sending it)."""
+    if manual:
+        dispatch = WorkListDispatch.objects.create(
+            user_id=user_id, site_id=site_id, local_date=local_date, manual=True
+        )
+    else:
+        try:
+            with transaction.atomic():
+                dispatch, _ = WorkListDispatch.objects.get_or_create(
+                    user_id=user_id, site_id=site_id, local_date=local_date, manual=False
+                )
+        except IntegrityError:  # a concurrent tick created it first
+            dispatch = WorkListDispatch.objects.get(
+                user_id=user_id, site_id=site_id, local_date=local_date, manual=False
+            )
+    claimed = WorkListDispatch.objects.filter(
+        pk=dispatch.pk,
+        status__in=[WorkListDispatch.Status.PENDING, WorkListDispatch.Status.RETRYING],
+    ).update(status=WorkListDispatch.Status.SENDING, attempts=F("attempts") + 1)
+    if claimed != 1:
+        return None
+    dispatch.refresh_from_db()
+    return dispatch
+
+
+def dispatch_send(*, dispatch: WorkListDispatch) -> None:
+    """Send a claimed dispatch. SMTP errors propagate to the caller after being recorded."""
+    message, count = worklist_message(
+        user=dispatch.user, site=dispatch.site, today=dispatch.local_date
+    )
+    try:
+        message.send()
+    except Exception as exc:
+        final = dispatch.attempts >= MAX_ATTEMPTS
+        WorkListDispatch.objects.filter(pk=dispatch.pk).update(
+            status=WorkListDispatch.Status.FAILED if final else WorkListDispatch.Status.RETRYING,
+            last_error=f"{type(exc).__name__}: {exc}"[:1000],
+        )
+        raise
+    WorkListDispatch.objects.filter(pk=dispatch.pk).update(
+        status=WorkListDispatch.Status.SENT, sent_at=timezone.now(), items=count, last_error=""
+    )
+
+
+def worklists_due_now(*, now: datetime) -> list[tuple[int, int, date]]:
+    """(user, site, local day) for every subscribed manager whose site's chosen hour is now."""
+    due: list[tuple[int, int, date]] = []
+    profiles = Profile.objects.filter(
+        work_list_subscribed=True, user__is_active=True, user__groups__name=Role.MANAGER
+    ).select_related("user")
+    all_sites = list(Site.objects.all())
+    for profile in profiles:
+        named = set(profile.sites.values_list("pk", flat=True))
+        for site in all_sites:
+            if named and site.pk not in named:
+                continue
+            local = now.astimezone(zoneinfo.ZoneInfo(site.time_zone))
+            if local.hour == profile.work_list_hour:
+                due.append((profile.user_id, site.pk, local.date()))
+    return due
+
+
+def recent_dispatches(*, user: Any, limit: int = 8) -> list[WorkListDispatch]:
+    return list(
+        WorkListDispatch.objects.filter(user=user)
+        .select_related("site")
+        .order_by("-created_at")[:limit]
+    )
+
+
+def sites_to_send(*, user: Any) -> list[Site]:
+    return list(sites_for_user(user))

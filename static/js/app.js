@@ -1,0 +1,27 @@
+// fleetfuel: small shared behaviour. No framework beyond htmx.
+(function () {
+  "use strict";
+  var banner = function () { return document.getElementById("connection-banner"); };
+  function offline(isOff) {
+    var b = banner();
+    if (b) { b.hidden = !isOff; }
+    document.documentElement.classList.toggle("is-offline", isOff);
+  }
+  window.addEventListener("offline", function () { offline(true); });
+  window.addEventListener("online", function () {
+    offline(false);
+    document.dispatchEvent(new CustomEvent("fleetfuel:online"));
+  });
+  document.addEventListener("htmx:sendError", function () { offline(true); });
+  document.addEventListener("htmx:afterRequest", function (e) {
+    if (e.detail && e.detail.xhr && e.detail.xhr.status) { offline(false); }
+  });
+  // Select-all boxes: <input type=checkbox data-select-all="name">
+  document.addEventListener("change", function (e) {
+    var t = e.target;
+    if (t && t.dataset && t.dataset.selectAll) {
+      document.querySelectorAll('input[type=checkbox][name="' + t.dataset.selectAll + '"]')
+        .forEach(function (box) { if (!box.disabled) { box.checked = t.checked; } });
+    }
+  });
+})();

@@ -1,0 +1,84 @@
+"""Shared fixtures. Services that tests need (PostgreSQL, Redis, Chromium) are required in CI
+(CI=true): a test that needs one fails there if it is missing, and skips locally with the
+reason."""
+
+from __future__ import annotations
+
+import os
+from typing import Any
+
+import pytest
+from django.db import connection
+
+from tests import factories as f
+
+IN_CI = os.environ.get("CI", "").lower() in {"1", "true", "yes"}
+
+
+def need(condition: bool, reason: str) -> None:
+    """Skip locally, fail in CI, when a service a test needs is missing."""
+    if condition:
+        return
+    if IN_CI:
+        pytest.fail(f"CI requires this: {reason}")
+    pytest.skip(reason)
+
+
+@pytest.fixture
+def postgres() -> None:
+    need(connection.vendor == "postgresql", "needs PostgreSQL (set DATABASE_URL=postgres://...)")
+
+
+@pytest.fixture
+def site(db: Any) -> Any:
+    return f.site_make(name="North Depot", code="north")
+
+
+@pytest.fixture
+def other_site(db: Any) -> Any:
+    return f.site_make(name="South Depot", code="south")
+
+
+@pytest.fixture
+def unit_class(db: Any) -> Any:
+    uc = f.unit_class_make(name="Test hauler")
+    f.plans_make(uc)
+    return uc
+
+
+@pytest.fixture
+def unit(site: Any, unit_class: Any) -> Any:
+    return f.unit_make(site=site, unit_class=unit_class, fleet_number="N-001")
+
+
+@pytest.fixture
+def manager(site: Any) -> Any:
+    return f.user_make("manager", username="maria")
+
+
+@pytest.fixture
+def mechanic(site: Any) -> Any:
+    return f.user_make("mechanic", username="mick", sites=[site])
+
+
+@pytest.fixture
+def auditor(db: Any) -> Any:
+    return f.user_make("auditor", username="audrey")
+
+
+@pytest.fixture
+def as_manager(client: Any, manager: Any) -> Any:
+    client.force_login(manager)
+    return client
+
+
+@pytest.fixture
+def as_mechanic(client: Any, mechanic: Any) -> Any:
+    client.force_login(mechanic)
+    return client
+
+
+@pytest.fixture
+def as_auditor(client: Any, auditor: Any) -> Any:
+    client.force_login(auditor)
+    return client

@@ -1,0 +1,32 @@
+from __future__ import annotations
+
+from typing import Any
+
+from django.apps import apps
+from django.core.management import call_command
+
+from fleetfuel.fleet.models import FuelSample, Site, Unit
+
+
+def row_counts() -> dict[str, int]:
+    return {
+        m._meta.label: m.objects.count()
+        for m in apps.get_models()
+        if m._meta.app_label in {"fleet", "ledger", "workorders", "accounts", "planning"}
+    }
+
+
+def test_seed_demo_is_idempotent_and_matches_the_scenario(db: Any) -> None:
+    call_command("seed_demo")
+    first = row_counts()
+    call_command("seed_demo")
+    assert row_counts() == first
+    assert Site.objects.count() == 4
+    assert 40 <= Unit.objects.count() <= 60
+    assert Unit.objects.values("unit_class").distinct().count() == 5
+    # One water-contaminated delivery (EN 590 limit: 200 mg/kg) and one dirty one
+    # (dirtier than the WWFC 6th ed. 18/16/13 at the >=4 um(c) channel).
+    assert FuelSample.objects.filter(water_mg_kg__gt=200).count() == 1
+    assert FuelSample.objects.filter(code_4__gt=18).exists()
+    # The recompute ran on commit: every unit has its three tasks projected.
+    assert first["planning.DueItem"] == 3 * Unit.objects.count()

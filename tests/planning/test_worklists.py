@@ -1,0 +1,167 @@
+"""Emailed work lists through a real local SMTP server (aiosmtpd)."""
+
+from __future__ import annotations
+
+import email
+import socket
+from collections.abc import Iterator
+from datetime import UTC, datetime, timedelta
+from email.message import Message
+from typing import Any
+
+import pytest
+from aiosmtpd.controller import Controller
+from django.test import override_settings
+from django.urls import reverse
+
+from fleetfuel.fleet.models import EngineEvent
+from fleetfuel.planning.actions import due_items_recompute
+from fleetfuel.planning.models import WorkListDispatch
+from fleetfuel.planning.tasks import worklists_tick
+from tests import factories as f
+from tests.planning.builders import history_make
+
+
+class Inbox:
+    def __init__(self) -> None:
+        self.messages: list[tuple[str, list[str], Message]] = []
+
+    async def handle_DATA(self, server: Any, session: Any, envelope: Any) -> str:  # noqa: N802
+        self.messages.append(
+            (
+                envelope.mail_from,
+                list(envelope.rcpt_tos),
+                email.message_from_bytes(envelope.content),
+            )
+        )
+        return "250 OK"
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+@pytest.fixture
+def smtp() -> Iterator[tuple[Inbox, int]]:
+    inbox = Inbox()
+    port = free_port()
+    controller = Controller(inbox, hostname="127.0.0.1", port=port)
+    controller.start()
+    try:
+        yield inbox, port
+    finally:
+        controller.stop()
+
+
+def smtp_mailer(port: int) -> dict[str, Any]:
+    # The test runner swaps every mailer for the in-memory one: point at the real server.
+    return {
+        "default": {
+            "BACKEND": "django.core.mail.backends.smtp.EmailBackend",
+            "OPTIONS": {"host": "127.0.0.1", "port": port, "use_tls": False, "timeout": 5},
+        }
+    }
+
+
+@pytest.fixture
+def subscribed(site: Any, unit_class: Any) -> dict[str, Any]:
+    manager = f.user_make("manager", username="morgan", sites=[site])
+    manager.email = "morgan@depot.example"
+    manager.save()
+    manager.profile.work_list_subscribed = True
+    manager.profile.work_list_hour = 6
+    manager.profile.work_list_days_ahead = 7
+    manager.profile.save()
+    overdue_unit = f.unit_make(site=site, unit_class=unit_class, fleet_number="OV-1")
+    history_make(unit=overdue_unit, source=f.source_make(), days=60)  # 600 h > the 500 h plan
+    flagged = f.unit_make(site=site, unit_class=unit_class, fleet_number="FL-1")
+    history_make(unit=flagged, source=f.source_make(), days=5)
+    for d in (1, 2, 3):
+        EngineEvent.objects.create(
+            unit=flagged,
+            occurred_at=f.NOW - timedelta(days=d),
+            spn=5571,
+            fmi=0,
+            kind=EngineEvent.Kind.RELIEF_VALVE_OPENED,
+        )
+    due_items_recompute(unit_ids=[overdue_unit.pk, flagged.pk], now=f.NOW)
+    return {"manager": manager, "site": site}
+
+
+@pytest.mark.django_db
+def test_tick_sends_one_list_per_manager_site_and_day(
+    smtp: tuple[Inbox, int], subscribed: dict[str, Any], monkeypatch: Any
+) -> None:
+    inbox, port = smtp
+    site = subscribed["site"]  # Europe/London: 06:00 local in June is 05:00 UTC (BST)
+    at = datetime(2026, 6, 15, 5, 10, tzinfo=UTC)
+    monkeypatch.setattr("django.utils.timezone.now", lambda: at)
+    with override_settings(MAILERS=smtp_mailer(port), SITE_URL="https://ff.example"):
+        assert worklists_tick() == 1
+        assert worklists_tick() == 1  # a rerun queues again ...
+    assert len(inbox.messages) == 1  # ... but the claim lets only one through
+    sender, rcpt, msg = inbox.messages[0]
+    assert rcpt == ["morgan@depot.example"]
+    assert msg["Subject"].startswith(f"fleetfuel work list, {site.name}, Mon 15 Jun 2026")
+    parts = {
+        p.get_content_type(): p.get_payload(decode=True).decode()
+        for p in msg.walk()
+        if not p.is_multipart()
+    }
+    assert set(parts) == {"text/plain", "text/html"}
+    for body in parts.values():
+        assert "OV-1" in body and "Overdue" in body.title()
+        assert "FL-1" in body and "relief" in body.lower()
+        assert f"https://ff.example{reverse('planning:due_list')}?site={site.pk}" in body
+    dispatch = WorkListDispatch.objects.get()
+    assert dispatch.status == WorkListDispatch.Status.SENT and dispatch.items >= 1
+
+
+@pytest.mark.django_db
+def test_tick_outside_the_chosen_hour_sends_nothing(
+    smtp: tuple[Inbox, int], subscribed: dict[str, Any], monkeypatch: Any
+) -> None:
+    inbox, port = smtp
+    monkeypatch.setattr(
+        "django.utils.timezone.now", lambda: datetime(2026, 6, 15, 9, 0, tzinfo=UTC)
+    )
+    with override_settings(MAILERS=smtp_mailer(port)):
+        assert worklists_tick() == 0
+    assert inbox.messages == []
+
+
+@pytest.mark.django_db
+def test_smtp_failure_is_retried_then_shown_on_the_managers_page(
+    subscribed: dict[str, Any], client: Any, monkeypatch: Any
+) -> None:
+    at = datetime(2026, 6, 15, 5, 10, tzinfo=UTC)
+    monkeypatch.setattr("django.utils.timezone.now", lambda: at)
+    dead = free_port()  # nothing listens here: connection refused
+    # In-process (eager) Celery runs the retries at once, without waiting out the backoff;
+    # with propagation off it runs the whole chain, as a worker would.
+    from fleetfuel.celery import app
+
+    monkeypatch.setitem(app.conf, "task_eager_propagates", False)
+    with override_settings(MAILERS=smtp_mailer(dead)):
+        worklists_tick()
+    dispatch = WorkListDispatch.objects.get()
+    assert dispatch.status == WorkListDispatch.Status.FAILED
+    assert dispatch.attempts == 4  # first try + 3 retries
+    assert "Connection refused" in dispatch.last_error or "Errno" in dispatch.last_error
+    client.force_login(subscribed["manager"])
+    page = client.get(reverse("planning:due_list")).content.decode()
+    assert "Failed after retries" in page and "attempts" in page
+
+
+@pytest.mark.django_db
+def test_send_now_button(smtp: tuple[Inbox, int], subscribed: dict[str, Any], client: Any) -> None:
+    inbox, port = smtp
+    client.force_login(subscribed["manager"])
+    with override_settings(MAILERS=smtp_mailer(port)):
+        response = client.post(reverse("planning:worklist_send_now"))
+        client.post(reverse("planning:worklist_send_now"))
+    assert response.status_code == 302
+    assert len(inbox.messages) == 2  # by hand, each press sends
+    assert WorkListDispatch.objects.filter(manual=True).count() == 2
