@@ -13,7 +13,7 @@ from django_htmx.http import HttpResponseClientRedirect, push_url
 
 from fleetfuel.accounts.access import role_required, site_ids_for_user, sites_for_user
 from fleetfuel.accounts.models import Role
-from fleetfuel.fleet.models import UnitClass
+from fleetfuel.fleet.models import Site, UnitClass
 
 from .orders import WorkOrderCreateError, work_orders_from_due_items
 from .selectors import DueFilterForm, due_item_for_user, due_page
@@ -28,7 +28,7 @@ def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     site_ids = site_ids_for_user(request.user)
     form = DueFilterForm(
         request.GET or None,
-        sites=sites_for_user(request.user),
+        sites=Site.objects.filter(pk__in=site_ids).order_by("name"),
         classes=UnitClass.objects.order_by("name"),
     )
     data = form.cleaned_data if form.is_valid() else {}

@@ -1,0 +1,206 @@
+"""The manager's due list: filters, sorts, the expanding row, work orders from items."""
+
+from __future__ import annotations
+
+from datetime import timedelta
+from typing import Any
+
+import pytest
+from django.urls import reverse
+from django.utils import timezone
+
+from fleetfuel.fleet.models import Unit
+from fleetfuel.planning.benchmark import synthetic_fleet_make
+from fleetfuel.planning.models import DueItem, UnitFlag
+from fleetfuel.workorders.models import WorkOrder
+from tests import factories as f
+
+
+def fleet_make(*, site: Any, unit_class: Any, n: int, prefix: str = "U") -> list[Unit]:
+    return synthetic_fleet_make(site=site, unit_class=unit_class, n=n, prefix=prefix)
+
+
+@pytest.fixture
+def small_fleet(site: Any, unit_class: Any) -> list[Unit]:
+    return fleet_make(site=site, unit_class=unit_class, n=4)
+
+
+def rows(response: Any) -> list[DueItem]:
+    return list(response.context["page"].items)
+
+
+def test_lists_every_item_by_due_date_with_counts(as_manager: Any, small_fleet: list[Unit]) -> None:
+    response = as_manager.get(reverse("planning:due_list"))
+    assert response.status_code == 200
+    items = rows(response)
+    assert len(items) == 12
+    assert [i.due_on for i in items] == sorted(i.due_on for i in items)
+    counts = response.context["page"].counts
+    assert sum(counts.values()) == 12 and counts["overdue"] == 3
+    assert response["Vary"].count("HX-Request") == 1
+
+
+@pytest.mark.parametrize(
+    "params,check",
+    [
+        ({"status": "overdue"}, lambda i: i.status == "overdue"),
+        ({"task": "fine_filter"}, lambda i: i.task == "fine_filter"),
+        ({"within_days": "2"}, lambda i: i.due_on <= timezone.localdate() + timedelta(days=2)),
+        ({"within_hours": "20"}, lambda i: i.hours_left <= 20),
+        ({"q": "u-00002"}, lambda i: i.unit.fleet_number == "U-00002"),
+    ],
+)
+def test_each_filter_narrows_the_list(
+    as_manager: Any, small_fleet: list[Unit], params: dict[str, str], check: Any
+) -> None:
+    items = rows(as_manager.get(reverse("planning:due_list"), params))
+    assert items and all(check(i) for i in items)
+    assert len(items) < 12
+
+
+def test_site_class_and_flag_filters(
+    as_manager: Any, site: Any, other_site: Any, unit_class: Any
+) -> None:
+    here = fleet_make(site=site, unit_class=unit_class, n=2, prefix="H")
+    other_class = f.unit_class_make(name="Other class")
+    fleet_make(site=other_site, unit_class=other_class, n=2, prefix="T")
+    UnitFlag.objects.create(
+        unit=here[0],
+        code="relief_valve_repeat",
+        title="Relief valve opening repeatedly",
+        reason="4 openings in 6 days",
+        checks=["a"],
+        since=timezone.now(),
+        computed_at=timezone.now(),
+    )
+    url = reverse("planning:due_list")
+    assert {i.unit.site_id for i in rows(as_manager.get(url, {"site": other_site.pk}))} == {
+        other_site.pk
+    }
+    assert {
+        i.unit.unit_class_id for i in rows(as_manager.get(url, {"unit_class": other_class.pk}))
+    } == {other_class.pk}
+    flagged = as_manager.get(url, {"flagged": "on"})
+    assert {i.unit_id for i in rows(flagged)} == {here[0].pk}
+    # The flag's reason is shown in words, not colour alone.
+    assert "Relief valve opening repeatedly" in flagged.content.decode()
+
+
+@pytest.mark.parametrize(
+    "sort,key",
+    [
+        ("unit", lambda i: i.unit.fleet_number),
+        ("task", lambda i: i.task),
+        ("status", lambda i: i.rank),
+        ("due", lambda i: i.due_on),
+    ],
+)
+def test_sorts(as_manager: Any, small_fleet: list[Unit], sort: str, key: Any) -> None:
+    items = rows(as_manager.get(reverse("planning:due_list"), {"sort": sort}))
+    assert [key(i) for i in items] == sorted(key(i) for i in items)
+
+
+def test_bad_filter_value_says_what_is_wrong(as_manager: Any, small_fleet: list[Unit]) -> None:
+    response = as_manager.get(reverse("planning:due_list"), {"within_days": "-4"})
+    assert response.status_code == 200
+    assert "greater than or equal to 0" in response.content.decode()
+
+
+def test_htmx_request_gets_only_the_table_and_pushes_the_url(
+    as_manager: Any, small_fleet: list[Unit]
+) -> None:
+    response = as_manager.get(
+        reverse("planning:due_list"), {"status": "due"}, headers={"HX-Request": "true"}
+    )
+    body = response.content.decode()
+    assert 'id="due-results"' in body and "<html" not in body
+    assert response["HX-Push-Url"].endswith("status=due")
+
+
+def test_paging_fetches_one_extra_row_instead_of_counting(
+    as_manager: Any, site: Any, unit_class: Any
+) -> None:
+    fleet_make(site=site, unit_class=unit_class, n=20)  # 60 items, pages of 50
+    first = as_manager.get(reverse("planning:due_list"))
+    second = as_manager.get(reverse("planning:due_list"), {"page": 2})
+    assert first.context["page"].has_next and not second.context["page"].has_next
+    assert len(rows(first)) == 50 and len(rows(second)) == 10
+    assert not {i.pk for i in rows(first)} & {i.pk for i in rows(second)}
+
+
+def test_row_expands_to_its_explanation(as_manager: Any, small_fleet: list[Unit]) -> None:
+    item = DueItem.objects.order_by("pk").first()
+    assert item is not None
+    url = reverse("planning:due_item_detail", args=[item.pk])
+    fragment = as_manager.get(url, headers={"HX-Request": "true"}).content.decode()
+    assert "Explained 0-0" in fragment and "<html" not in fragment and "Due between" in fragment
+    page = as_manager.get(url).content.decode()  # without JavaScript: a whole page
+    assert "<html" in page and "Explained 0-0" in page
+
+
+def test_two_items_on_one_unit_make_one_work_order_with_two_tasks(
+    as_manager: Any, small_fleet: list[Unit], site: Any
+) -> None:
+    mechanic = f.user_make("mechanic", username="mo", sites=[site])
+    unit = small_fleet[1]
+    picked = list(DueItem.objects.filter(unit=unit).order_by("pk")[:2])
+    other = DueItem.objects.filter(unit=small_fleet[2]).first()
+    response = as_manager.post(
+        reverse("planning:work_orders_create"), {"item": [picked[0].pk, picked[1].pk, other.pk]}
+    )
+    assert response.status_code == 302
+    orders = WorkOrder.objects.order_by("pk")
+    assert orders.count() == 2
+    mine = orders.get(unit=unit)
+    assert mine.tasks.count() == 2 and mine.assigned_to == mechanic
+    assert {t.due_item_id for t in mine.tasks.all()} == {p.pk for p in picked}
+    assert mine.due_on == max(timezone.localdate(), min(p.due_on for p in picked))
+    # The items now show as in a work order, and cannot be put in a second one.
+    listing = as_manager.get(reverse("planning:due_list"), {"q": unit.fleet_number})
+    assert "In a work order" in listing.content.decode()
+    as_manager.post(reverse("planning:work_orders_create"), {"item": [picked[0].pk]})
+    assert WorkOrder.objects.count() == 2
+
+
+def test_mechanic_and_auditor_cannot_create_work_orders(
+    as_mechanic: Any, small_fleet: list[Unit], auditor: Any, client: Any
+) -> None:
+    item = DueItem.objects.first()
+    assert (
+        as_mechanic.post(reverse("planning:work_orders_create"), {"item": [item.pk]}).status_code
+        == 403
+    )
+    client.force_login(auditor)
+    assert (
+        client.post(reverse("planning:work_orders_create"), {"item": [item.pk]}).status_code == 403
+    )
+    assert WorkOrder.objects.count() == 0
+
+
+def test_a_manager_limited_to_one_site_sees_only_it(
+    client: Any, site: Any, other_site: Any, unit_class: Any
+) -> None:
+    fleet_make(site=site, unit_class=unit_class, n=1, prefix="A")
+    theirs = fleet_make(site=other_site, unit_class=unit_class, n=1, prefix="B")
+    boss = f.user_make("manager", sites=[site])
+    client.force_login(boss)
+    assert {i.unit.site_id for i in rows(client.get(reverse("planning:due_list")))} == {site.pk}
+    foreign = DueItem.objects.filter(unit=theirs[0]).first()
+    assert client.get(reverse("planning:due_item_detail", args=[foreign.pk])).status_code == 404
+
+
+@pytest.mark.parametrize("size", [10, 1000])
+def test_query_count_does_not_grow_with_the_fleet(
+    as_manager: Any, site: Any, unit_class: Any, django_assert_num_queries: Any, size: int
+) -> None:
+    fleet_make(site=site, unit_class=unit_class, n=size)
+    # 1 session, 2 user, 3 user's groups (role), 4 sites assigned to the user (exists),
+    # 5 all sites' ids, 6 counts by status, 7 one page of items (+1, with unit, site, class,
+    # component and the open-work-order flag), 8 flags of the units on the page,
+    # 9 the manager's recent work-list emails, 10 site choices, 11 class choices,
+    # 12 the manager's profile (work-list subscription).
+    with django_assert_num_queries(12):
+        response = as_manager.get(
+            reverse("planning:due_list"), {"status": "overdue", "sort": "unit"}
+        )
+    assert response.status_code == 200 and len(rows(response)) == min(50, size * 3 // 4)
