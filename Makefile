@@ -51,7 +51,7 @@ migrations-check: $(STAMP)
 
 check-deploy: $(STAMP)
 	SECRET_KEY=$$(openssl rand -hex 32 2>/dev/null || echo x-not-secret-but-long-enough-for-the-deploy-check-0123456789) \
-	ALLOWED_HOSTS=fleetfuel.example.com $(PY) manage.py check --deploy --fail-level WARNING
+	ALLOWED_HOSTS=fleetfuel.example.com EMAIL_HOST=smtp.example.com $(PY) manage.py check --deploy --fail-level WARNING
 
 benchmark: $(STAMP)
 	$(PY) manage.py benchmark

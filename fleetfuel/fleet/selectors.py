@@ -100,8 +100,9 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
     hours_chart = Chart(title="Engine hours with forecast", y_label="engine hours (h)")
     hours_chart.series.append(Series(points=engine, css="series", label="recorded"))
     if forecast is not None and due_items:
+        # Up to the furthest due item, and at least a month ahead so the line reads.
         horizon = max(d.latest_on for d in due_items)
-        days = max(1, (horizon - now.date()).days)
+        days = max(30, (horizon - now.date()).days)
         steps = [now + timedelta(days=days * i / 10) for i in range(11)]
         base = forecast.current_hours
         hours_chart.series.append(

@@ -16,8 +16,8 @@ from .selectors import unit_page, units_for_list
 ALL_ROLES = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
 
 
-@require_GET
 @role_required(*ALL_ROLES)
+@require_GET
 def unit_list(request: HttpRequest) -> HttpResponse:
     q = request.GET.get("q", "").strip()[:30]
     paginator = Paginator(units_for_list(site_ids=site_ids_for_user(request.user), q=q), 50)
@@ -25,8 +25,8 @@ def unit_list(request: HttpRequest) -> HttpResponse:
     return render(request, "fleet/unit_list.html", {"page": page, "q": q})
 
 
-@require_GET
 @role_required(*ALL_ROLES)
+@require_GET
 def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
     unit = unit_for_user(request.user, pk)
     page = unit_page(unit=unit, now=timezone.now())

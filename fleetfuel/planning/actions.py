@@ -16,6 +16,7 @@ from .models import DueItem, ProjectionRun, UnitFlag
 STATUS_RANK = {DueStatus.OVERDUE: 0, DueStatus.DUE: 1, DueStatus.SOON: 2, DueStatus.OK: 3}
 DUE_FIELDS = [
     "unit",
+    "site",
     "status",
     "rank",
     "basis",
@@ -54,6 +55,7 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             items.append(
                 DueItem(
                     unit_id=result.unit_id,
+                    site_id=result.site_id,
                     component_id=cp.component_id,
                     task=p.task.value,
                     status=p.status.value,

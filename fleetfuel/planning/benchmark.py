@@ -60,6 +60,7 @@ def synthetic_fleet_make(
             items.append(
                 DueItem(
                     unit_id=primary.unit_id,
+                    site_id=site.pk,
                     component=comp,
                     task=task,
                     status=status,

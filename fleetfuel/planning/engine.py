@@ -32,6 +32,7 @@ class ComponentProjection:
 @dataclass(frozen=True)
 class UnitResult:
     unit_id: int
+    site_id: int
     projections: list[ComponentProjection]
     flags: list[rules.UnitFlag]
     skipped: list[str]  # why a task could not be projected (no plan, no filter fitted)
@@ -104,6 +105,9 @@ def measured_burn(b: UnitInputs, now: datetime) -> float | None:
 def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
     unit = b.unit
     forecast = unit_forecast(b, now)
+    if unit.disposed_on is not None and unit.disposed_on <= now.date():
+        # A disposed unit is no longer serviced: no items, no flags (its history stays).
+        return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0)
     burn = measured_burn(b, now)
     samples = [
         fq.Sample(
@@ -231,7 +235,9 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
         lifetime_relief_openings=b.lifetime_relief_openings,
         now=now,
     )
-    return UnitResult(unit.pk, results, flags, skipped, forecast.current_hours, forecast.rate)
+    return UnitResult(
+        unit.pk, unit.site_id, results, flags, skipped, forecast.current_hours, forecast.rate
+    )
 
 
 def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> intervals.FilterPlan:

@@ -24,6 +24,9 @@ class DueItem(models.Model):
         OK = "ok", "OK"
 
     unit = models.ForeignKey("fleet.Unit", on_delete=models.CASCADE, related_name="due_items")
+    # The unit's site, copied at projection time so the due list filters and sorts on one
+    # table's index (a unit that moves site gets its items moved by the next recompute).
+    site = models.ForeignKey("fleet.Site", on_delete=models.CASCADE, related_name="+")
     component = models.ForeignKey(
         "fleet.Component", on_delete=models.CASCADE, related_name="due_items"
     )
@@ -52,8 +55,8 @@ class DueItem(models.Model):
             ),
         ]
         indexes = [
-            models.Index(fields=["due_on", "id"], name="dueitem_due_on"),
-            models.Index(fields=["status", "due_on"], name="dueitem_status_due"),
+            models.Index(fields=["site", "due_on", "id"], name="dueitem_site_due"),
+            models.Index(fields=["site", "status", "due_on", "id"], name="dueitem_site_status_due"),
             models.Index(fields=["unit", "due_on"], name="dueitem_unit_due"),
         ]
 

@@ -21,7 +21,7 @@ from .models import DueItem, UnitFlag
 
 PAGE_SIZE = 50
 SORTS = {
-    "due": ["due_on", "rank", "unit__fleet_number", "task", "id"],
+    "due": ["due_on", "id"],  # walks the (site, [status,] due_on, id) index
     "unit": ["unit__fleet_number", "due_on", "task", "id"],
     "task": ["task", "due_on", "unit__fleet_number", "id"],
     "status": ["rank", "due_on", "unit__fleet_number", "id"],
@@ -73,9 +73,10 @@ class DuePage:
 def due_items_filtered(
     *, site_ids: list[int], data: dict[str, Any], today: date
 ) -> QuerySet[DueItem]:
-    qs = DueItem.objects.filter(unit__site_id__in=site_ids, unit__disposed_on__isnull=True)
+    # Disposed units have no due items: the recompute skips them and clears their rows.
+    qs = DueItem.objects.filter(site_id__in=site_ids)
     if data.get("site"):
-        qs = qs.filter(unit__site=data["site"])
+        qs = qs.filter(site_id=data["site"].pk)
     if data.get("unit_class"):
         qs = qs.filter(unit__unit_class=data["unit_class"])
     if data.get("task"):
@@ -127,5 +128,5 @@ def due_item_for_user(*, site_ids: list[int], pk: int) -> DueItem:
     return get_object_or_404(
         DueItem.objects.select_related("unit", "unit__site", "component"),
         pk=pk,
-        unit__site_id__in=site_ids,
+        site_id__in=site_ids,
     )

@@ -17,6 +17,7 @@ from fleetfuel.fleet.models import (
     FuelSample,
     MeterReading,
     MeterReplacement,
+    Unit,
 )
 from fleetfuel.ledger.models import ServiceEvent
 
@@ -60,6 +61,12 @@ def _flush() -> None:
 @receiver(post_save, sender=ServiceEvent)
 def _unit_input_saved(sender: Any, instance: Any, **kwargs: Any) -> None:
     unit_recompute_enqueue([instance.unit_id])
+
+
+@receiver(post_save, sender=Unit)
+def _unit_saved(sender: Any, instance: Unit, **kwargs: Any) -> None:
+    # Moved to another site, disposed of, or a new unit: its items follow.
+    unit_recompute_enqueue([instance.pk])
 
 
 @receiver(post_save, sender=FilterPressureReading)

@@ -44,7 +44,7 @@ def recompute_all(after_id: int = 0, run_id: int | None = None) -> dict[str, int
     if run_id is None:
         run_id = ProjectionRun.objects.create(started_at=now, trigger="nightly").pk
     ids = list(
-        Unit.objects.filter(pk__gt=after_id, disposed_on__isnull=True)
+        Unit.objects.filter(pk__gt=after_id)
         .order_by("pk")
         .values_list("pk", flat=True)[: settings.PLANNING_BATCH_SIZE]
     )

@@ -20,9 +20,9 @@ from .selectors import DueFilterForm, due_item_for_user, due_page
 from .worklists import recent_dispatches
 
 
+@role_required(Role.MANAGER)
 @require_GET
 @vary_on_headers("HX-Request")
-@role_required(Role.MANAGER)
 def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     """The manager's home: every due item across their sites, filterable."""
     site_ids = site_ids_for_user(request.user)
@@ -44,8 +44,8 @@ def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     return render(request, "planning/due_list.html", context)
 
 
-@require_GET
 @role_required(Role.MANAGER)
+@require_GET
 def due_item_detail(request, pk: int) -> HttpResponse:  # type: ignore[no-untyped-def]
     """The explanation of one row, expanded in place."""
     item = due_item_for_user(site_ids=site_ids_for_user(request.user), pk=pk)
@@ -53,8 +53,8 @@ def due_item_detail(request, pk: int) -> HttpResponse:  # type: ignore[no-untype
     return render(request, template, {"item": item})
 
 
-@require_POST
 @role_required(Role.MANAGER)
+@require_POST
 def work_orders_create(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     ids = [int(v) for v in request.POST.getlist("item") if v.isdigit()]
     try:
@@ -82,8 +82,8 @@ def work_orders_create(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     return redirect(target)
 
 
-@require_POST
 @role_required(Role.MANAGER)
+@require_POST
 def worklist_send_now(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     """Email today's work list for each of the manager's sites now (on top of the daily one)."""
     from .tasks import worklist_send

@@ -42,7 +42,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
     """What the email lists (three queries)."""
     days = user.profile.work_list_days_ahead
     items = list(
-        DueItem.objects.filter(unit__site=site, unit__disposed_on__isnull=True)
+        DueItem.objects.filter(site=site)
         .filter(Q(status=DueItem.Status.OVERDUE) | Q(due_on__lte=today + timedelta(days=days)))
         .select_related("unit")
         .order_by("unit__fleet_number", "due_on", "task")

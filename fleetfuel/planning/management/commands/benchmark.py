@@ -70,6 +70,9 @@ class Command(BaseCommand):
             user.groups.add(Group.objects.get(name=Role.MANAGER))
             profile, _ = Profile.objects.get_or_create(user=user)
             profile.sites.set([site])
+        if connection.vendor == "postgresql":
+            with connection.cursor() as cursor:  # as autovacuum would, after a bulk load
+                cursor.execute("ANALYZE")
         client = Client()
         client.force_login(user)
         url = reverse("planning:due_list")
