@@ -68,8 +68,17 @@ def test_home_sends_each_role_to_its_page(request: Any, fixture: str, expected: 
     assert response["Location"] == reverse(expected)
 
 
-def test_mechanic_and_auditor_cannot_open_the_due_list(as_mechanic: Any, as_auditor: Any) -> None:
-    assert as_mechanic.get(reverse("planning:due_list")).status_code == 403
+@pytest.mark.parametrize("fixture", ["as_mechanic", "as_auditor"])
+@pytest.mark.parametrize("name", ["planning:due_list", "planning:due_item_detail"])
+def test_manager_pages_refuse_other_roles(request: Any, fixture: str, name: str) -> None:
+    client = request.getfixturevalue(fixture)
+    kwargs = {"pk": 1} if name.endswith("detail") else {}
+    assert client.get(reverse(name, kwargs=kwargs)).status_code == 403
+
+
+@pytest.mark.parametrize("name", ["planning:work_orders_create", "planning:worklist_send_now"])
+def test_auditor_writes_nothing_in_planning(as_auditor: Any, name: str) -> None:
+    assert as_auditor.post(reverse(name), {"item": [1]}).status_code == 403
 
 
 def test_login_page_renders_and_logs_in(client: Any, manager: Any) -> None:

@@ -172,3 +172,13 @@ def test_repeated_relief_valve_openings_flag_the_unit(fleet: dict[str, Any]) -> 
     # Events go away (outside the window) -> the flag goes on the next recompute.
     due_items_recompute(unit_ids=[unit.pk], now=NOW + timedelta(days=30))
     assert not UnitFlag.objects.filter(unit=unit, code="relief_valve_repeat").exists()
+
+
+def test_a_disposed_unit_leaves_the_due_list(fleet: dict[str, Any]) -> None:
+    unit = fleet["clean"]
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)
+    assert DueItem.objects.filter(unit=unit).count() == 3
+    unit.disposed_on = NOW.date()
+    unit.save()
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)
+    assert not DueItem.objects.filter(unit=unit).exists()
