@@ -362,15 +362,22 @@ def filter_projection(
         f"{percent_used:.0f} % of the filter's contaminant budget is used since the change "
         f"at {fmt_hours(last_change_hours)} on {last_change_at.date().isoformat()}.",
     ]
-    dirty = sorted(
-        (ld for ld in since if ld.concentration_per_ml > ref_conc),
-        key=lambda ld: ld.concentration_per_ml,
-        reverse=True,
-    )[:3]
+    # The dirtiest fuel, grouped by where it came from (a label names the source and sample).
+    groups: dict[tuple[str, float], list[Loading]] = {}
+    for ld in since:
+        if ld.concentration_per_ml > ref_conc:
+            groups.setdefault((ld.label, ld.concentration_per_ml), []).append(ld)
+    dirty = sorted(groups.items(), key=lambda kv: kv[0][1], reverse=True)[:3]
     if dirty:
-        parts = [
-            f"{ld.label} ({ld.concentration_per_ml / ref_conc:.1f}x the reference)" for ld in dirty
-        ]
+        parts = []
+        for (label, conc), loads in dirty:
+            litres = sum(ld.litres for ld in loads)
+            first, last = min(ld.at for ld in loads).date(), max(ld.at for ld in loads).date()
+            when = f"on {first.isoformat()}" if first == last else f"{first} to {last}"
+            parts.append(
+                f"{litres:,.0f} L in {len(loads)} fueling{'s' if len(loads) > 1 else ''} {when}, "
+                f"{label} ({conc / ref_conc:.1f}x the reference)"
+            )
         explanation.append("Dirtiest fuel since the change: " + "; ".join(parts) + ".")
     elif since:
         explanation.append("All fuel since the change was at or cleaner than the plan's reference.")

@@ -488,7 +488,7 @@ class DemoBuilder:
         for days_ago in (300, 210, 140):
             ev("KQ-H04", _at(self.anchor - timedelta(days=days_ago), 12), 5571, 0, relief, 2)
         # Water-in-fuel alarms on Mill Lane units after the wet delivery.
-        for key, d in [("ML-H01", 17), ("ML-H02", 15), ("ML-L01", 14), ("ML-G01", 16)]:
+        for key, d in [("ML-H01", 1), ("ML-H02", 15), ("ML-L01", 14), ("ML-G01", 16)]:
             ev(key, _at(self.anchor - timedelta(days=d), 8), 97, 0, EngineEvent.Kind.WATER_IN_FUEL)
         # A filter differential-pressure warning at Kestrel after the dirty delivery.
         ev(
@@ -524,7 +524,10 @@ class DemoBuilder:
                 )
             }
             interval = 500 * self.rng.uniform(0.85, 1.0)
-            for at, engine, hours in log:
+            class_key = next(k for k, v in self.classes.items() if v.pk == unit.unit_class_id)
+            gaps = [3] if CLASSES[class_key].works_weekends else [5, 6]
+            wet = key.startswith("ML-")
+            for index, (at, engine, hours) in enumerate(log):
                 if engine - last_filter_hours >= interval:
                     last_filter_hours = engine
                     for kind, comp in filters.items():
@@ -542,12 +545,15 @@ class DemoBuilder:
                         comp.installed_on = at.date()
                         comp.installed_hours = hours
                 drain_gap = (at.date() - last_drain_day).days
-                if at.date() > self.anchor - timedelta(days=120) and drain_gap >= self.rng.choice(
-                    [6, 7, 8]
+                # Drained on a regular round; the dry depots also had a round yesterday,
+                # while the wet depot's bowls are filling again after its last round.
+                final_round = index == len(log) - 1 and not wet
+                if at.date() > self.anchor - timedelta(days=120) and (
+                    drain_gap >= self.rng.choice(gaps) or (final_round and drain_gap >= 1)
                 ):
                     last_drain_day = at.date()
                     water = round(self.rng.uniform(5, 40))
-                    if key.startswith("ML-") and at.date() > self.wet_on:
+                    if wet and at.date() > self.wet_on:
                         water = round(self.rng.uniform(120, 190))
                     service_event_append(
                         unit=unit,

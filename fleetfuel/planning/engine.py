@@ -162,10 +162,8 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
             if fueling.at < last_at:
                 continue
             conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
-            label = (
-                f"{fueling.litres:.0f} L from {source_names[int(fueling.ref)]} "
-                f"on {fueling.at:%Y-%m-%d}, "
-                + (quality.label if quality else "no sample: reference fuel assumed")
+            label = f"from {source_names[int(fueling.ref)]}, " + (
+                quality.label if quality else "no sample: reference fuel assumed"
             )
             loadings.append(
                 intervals.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
