@@ -36,6 +36,21 @@ class WorkOrder(models.Model):
     created_at = models.DateTimeField()
     hour_meter = models.FloatField("hour meter at the job", null=True, blank=True)
     meter_replaced = models.BooleanField("hour meter was replaced at this job", default=False)
+    meter_old_final = models.FloatField(
+        "old meter's final reading", null=True, blank=True, help_text="When the meter was replaced."
+    )
+    meter_new_start = models.FloatField(
+        "new meter's reading when fitted",
+        null=True,
+        blank=True,
+        help_text="When the meter was replaced.",
+    )
+    job_saved_at = models.DateTimeField(
+        "job fields last saved",
+        null=True,
+        blank=True,
+        help_text="Draft of the hour meter and notes.",
+    )
     notes = models.TextField(blank=True)
     closed_at = models.DateTimeField(null=True, blank=True)
     closed_by = models.ForeignKey(
@@ -53,6 +68,14 @@ class WorkOrder(models.Model):
         null=True,
         blank=True,
         related_name="overridden_work_orders",
+    )
+    follow_up_of = models.ForeignKey(
+        "self",
+        on_delete=models.SET_NULL,
+        null=True,
+        blank=True,
+        related_name="follow_ups",
+        help_text="The work order whose out-of-limit measurement created this one.",
     )
 
     class Meta:

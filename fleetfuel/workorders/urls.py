@@ -1,2 +1,15 @@
+from django.urls import path
+
+from . import views
+
 app_name = "workorders"
-urlpatterns: list = []
+urlpatterns = [
+    path("", views.my_work, name="my_work"),
+    path("all/", views.work_order_list, name="list"),
+    path("<int:pk>/", views.detail, name="detail"),
+    path("<int:pk>/job/", views.job_save, name="job_save"),
+    path("<int:pk>/tasks/add/", views.task_add, name="task_add"),
+    path("<int:pk>/close/", views.close, name="close"),
+    path("<int:pk>/override/", views.override, name="override"),
+    path("tasks/<int:pk>/save/", views.task_save, name="task_save"),
+]

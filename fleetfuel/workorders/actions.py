@@ -1,0 +1,194 @@
+"""Writes of the work-order app before the close: drafts saved as the mechanic goes and tasks
+added on the page. The close itself is in closing.py.
+
+Every write locks the work order row first (``select_for_update``), so a draft save, a task
+added and a close on the same work order queue up: nothing lands on a closed work order.
+What a refused writer entered is appended to the work order's notes, never thrown away.
+"""
+
+from __future__ import annotations
+
+import json
+from datetime import datetime
+from typing import Any
+from zoneinfo import ZoneInfo
+
+from django.db import transaction
+from django.utils import timezone
+
+from fleetfuel.fleet.models import Unit
+
+from .forms import JobEntry, NewTask, TaskEntry
+from .models import WorkOrder, WorkOrderTask
+
+
+class WorkOrderNotOpen(Exception):
+    """A write reached a work order that is no longer open."""
+
+    def __init__(self, work_order: WorkOrder) -> None:
+        self.work_order = work_order
+        who = work_order.closed_by.get_username() if work_order.closed_by else "someone"
+        when = work_order.closed_at
+        super().__init__(
+            f"Work order {work_order.number} was {work_order.get_status_display().lower()} "
+            f"by {who}" + (f" at {when:%Y-%m-%d %H:%M} UTC" if when else "") + "."
+        )
+
+
+def person_name(user: Any) -> str:
+    return (user.get_full_name() or user.get_username()) if user else "someone"
+
+
+def local_time(dt: datetime, unit: Unit) -> datetime:
+    return timezone.localtime(dt, ZoneInfo(unit.site.time_zone))
+
+
+def note_append(work_order: WorkOrder, text: str) -> None:
+    work_order.notes = f"{work_order.notes.rstrip()}\n\n{text}" if work_order.notes else text
+    work_order.save(update_fields=["notes"])
+
+
+def lost_entry_note(
+    *, work_order: WorkOrder, user: Any, now: datetime, what: str, entered: str
+) -> str:
+    unit = work_order.unit
+    closed = (
+        f"after {person_name(work_order.closed_by)} had closed it at "
+        f"{local_time(work_order.closed_at, unit):%Y-%m-%d %H:%M}"
+        if work_order.closed_at
+        else f"after it was {work_order.get_status_display().lower()}"
+    )
+    return (
+        f"[{local_time(now, unit):%Y-%m-%d %H:%M}] {person_name(user)} tried to {what} {closed}. "
+        f"Not recorded; what they entered is kept here: {entered or '(nothing entered)'}"
+    )
+
+
+# --------------------------------------------------------------------------- drafts
+
+
+def work_order_locked(work_order_id: int) -> WorkOrder:
+    """The work order row, locked until the transaction ends, read after the lock is granted.
+
+    Related rows are loaded by separate queries after the lock, never joined into the locking
+    query: PostgreSQL re-reads only the locked row when it waited for the lock, so a joined
+    user (closed_by) would be the stale one from before the other tablet's commit.
+    """
+    wo = WorkOrder.objects.select_for_update().get(pk=work_order_id)
+    wo.unit = Unit.objects.select_related("site", "unit_class").get(pk=wo.unit_id)
+    return wo
+
+
+def _lock_open(
+    work_order_id: int, *, user: Any, now: datetime, what: str, entered: str
+) -> WorkOrder | None:
+    """Lock the work order; if it is no longer open, note the refused entry and return None.
+
+    Call inside a transaction. The note is written in that transaction, which the caller
+    lets commit before raising WorkOrderNotOpen.
+    """
+    wo = work_order_locked(work_order_id)
+    if wo.status == WorkOrder.Status.OPEN:
+        return wo
+    note_append(wo, lost_entry_note(work_order=wo, user=user, now=now, what=what, entered=entered))
+    return None
+
+
+def task_draft_save(
+    *, task_id: int, user: Any, entry: TaskEntry, entered: str, now: datetime | None = None
+) -> WorkOrderTask:
+    """Save what the mechanic has entered so far on one task (a draft, not yet a record).
+
+    Raises WorkOrderNotOpen when the work order closed meanwhile; the entry is then appended
+    to the work order's notes.
+    """
+    now = now or timezone.now()
+    task = WorkOrderTask.objects.get(pk=task_id)
+    with transaction.atomic():
+        wo = _lock_open(
+            task.work_order_id,
+            user=user,
+            now=now,
+            what=f"save task “{task.description}”",
+            entered=entered,
+        )
+        if wo is not None:
+            task.record = entry.record
+            task.cylinder = entry.cylinder
+            task.component_id = entry.component_id
+            task.draft_saved_at = now
+            task.save(update_fields=["record", "cylinder", "component", "draft_saved_at"])
+            return task
+    raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=task.work_order_id))
+
+
+def job_draft_save(
+    *, work_order_id: int, user: Any, job: JobEntry, entered: str, now: datetime | None = None
+) -> WorkOrder:
+    """Save the work order's own fields (hour meter, meter replacement, notes) as a draft."""
+    now = now or timezone.now()
+    with transaction.atomic():
+        wo = _lock_open(
+            work_order_id, user=user, now=now, what="save the job fields", entered=entered
+        )
+        if wo is not None:
+            job_apply(wo, job, now)
+            wo.save(update_fields=JOB_FIELDS)
+            return wo
+    raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=work_order_id))
+
+
+JOB_FIELDS = [
+    "hour_meter",
+    "meter_replaced",
+    "meter_old_final",
+    "meter_new_start",
+    "notes",
+    "job_saved_at",
+]
+
+
+def job_apply(wo: WorkOrder, job: JobEntry, now: datetime) -> None:
+    if "hour_meter" not in job.errors:
+        wo.hour_meter = job.hour_meter
+    wo.meter_replaced = job.meter_replaced
+    if "meter_old_final" not in job.errors:
+        wo.meter_old_final = job.meter_old_final
+    if "meter_new_start" not in job.errors:
+        wo.meter_new_start = job.meter_new_start
+    if job.notes is not None:
+        wo.notes = job.notes
+    wo.job_saved_at = now
+
+
+def task_add(*, work_order_id: int, user: Any, new: NewTask) -> WorkOrderTask:
+    """Add a task the mechanic found necessary (e.g. a connector on cylinder 3)."""
+    with transaction.atomic():
+        wo = _lock_open(
+            work_order_id,
+            user=user,
+            now=timezone.now(),
+            what="add a task",
+            entered=new.description,
+        )
+        if wo is not None:
+            record: dict[str, Any] = {"added_by": user.get_username()}
+            if new.limit_id is not None:
+                record["limit_id"] = new.limit_id
+            return WorkOrderTask.objects.create(
+                work_order=wo,
+                kind=new.kind,
+                cylinder=new.cylinder,
+                component_id=new.component_id,
+                description=new.description,
+                record=record,
+            )
+    raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=work_order_id))
+
+
+def snapshot_text(data: dict[str, Any]) -> str:
+    """A tablet's entries (field: value) as one line for the notes."""
+    try:
+        return json.dumps(data, ensure_ascii=False, sort_keys=True)[:4000]
+    except (TypeError, ValueError):
+        return ""

@@ -1,0 +1,143 @@
+"""Reads of the work-order app: one place per query shape, a fixed number of queries each."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from django.db.models import Count, OuterRef, Q, QuerySet, Subquery
+from django.db.models.functions import Coalesce
+from django.shortcuts import get_object_or_404
+
+from fleetfuel.accounts.access import site_ids_for_user, user_role
+from fleetfuel.accounts.models import Role
+from fleetfuel.fleet.models import Component, MeasurementLimit, MeterReading
+from fleetfuel.planning.models import DueItem, UnitFlag
+
+from .forms import TaskContext
+from .models import WorkOrder, WorkOrderTask
+
+
+def work_orders_visible(user: Any) -> QuerySet[WorkOrder]:
+    """Every work order at the sites the user may see."""
+    return WorkOrder.objects.filter(unit__site_id__in=site_ids_for_user(user))
+
+
+def work_order_for_user(user: Any, pk: int) -> WorkOrder:
+    """The work order if the user may see it; 404 otherwise (no hint that it exists)."""
+    return get_object_or_404(
+        work_orders_visible(user).select_related(
+            "unit__site", "unit__unit_class", "assigned_to", "closed_by", "override_by"
+        ),
+        pk=pk,
+    )
+
+
+def task_for_user(user: Any, pk: int) -> WorkOrderTask:
+    return get_object_or_404(
+        WorkOrderTask.objects.select_related("work_order__unit__site", "component").filter(
+            work_order__unit__site_id__in=site_ids_for_user(user)
+        ),
+        pk=pk,
+    )
+
+
+def _with_counts(qs: QuerySet[WorkOrder]) -> QuerySet[WorkOrder]:
+    flags = (
+        UnitFlag.objects.filter(unit_id=OuterRef("unit_id"))
+        .order_by()
+        .values("unit_id")
+        .annotate(n=Count("pk"))
+        .values("n")
+    )
+    return qs.select_related("unit__site", "assigned_to").annotate(
+        task_count=Count("tasks", distinct=True),
+        hp_task_count=Count(
+            "tasks",
+            filter=Q(
+                tasks__kind__in=[
+                    WorkOrderTask.Kind.INJECTOR_REPLACE,
+                    WorkOrderTask.Kind.CONNECTOR_REPLACE,
+                    WorkOrderTask.Kind.RELIEF_VALVE_REPLACE,
+                ]
+            ),
+            distinct=True,
+        ),
+        flag_count=Coalesce(Subquery(flags[:1]), 0),
+    )
+
+
+def my_work_for_user(user: Any) -> list[WorkOrder]:
+    """Open work orders at the user's sites, most urgent first, then by due date.
+
+    A mechanic sees those assigned to them and those not yet assigned to anyone; a manager
+    sees every open work order at their sites. One query.
+    """
+    qs = work_orders_visible(user).filter(status=WorkOrder.Status.OPEN)
+    if user_role(user) == Role.MECHANIC:
+        qs = qs.filter(Q(assigned_to=user) | Q(assigned_to__isnull=True))
+    return list(_with_counts(qs).order_by("priority", "due_on", "number"))
+
+
+LIST_STATUSES = [("open", "Open"), ("closed", "Closed"), ("cancelled", "Cancelled"), ("", "All")]
+
+
+def work_order_list(user: Any, *, status: str) -> QuerySet[WorkOrder]:
+    qs = work_orders_visible(user)
+    if status:
+        qs = qs.filter(status=status)
+    order = ["priority", "due_on", "number"] if status == "open" else ["-due_on", "number"]
+    return _with_counts(qs).select_related("closed_by").order_by(*order)
+
+
+def measurement_limits_for_class(unit_class_id: int) -> dict[int, MeasurementLimit]:
+    return {
+        lim.pk: lim
+        for lim in MeasurementLimit.objects.filter(plan__unit_class_id=unit_class_id)
+        .select_related("plan")
+        .order_by("plan__component_kind", "name")
+    }
+
+
+def task_context(work_order: WorkOrder) -> TaskContext:
+    unit = work_order.unit
+    return TaskContext(
+        system=unit.site.unit_system,
+        cylinders=unit.cylinders,
+        limits=measurement_limits_for_class(unit.unit_class_id),
+        components=list(
+            Component.objects.filter(unit_id=unit.pk, removed_on__isnull=True).order_by(
+                "kind", "position"
+            )
+        ),
+    )
+
+
+def last_meter_reading(unit_id: int) -> MeterReading | None:
+    return MeterReading.objects.filter(unit_id=unit_id).order_by("-taken_at", "-pk").first()
+
+
+@dataclass
+class PageData:
+    tasks: list[WorkOrderTask]
+    flags: list[UnitFlag]
+    due_items: list[DueItem]
+    last_reading: MeterReading | None
+    ctx: TaskContext
+    follow_ups: list[WorkOrder]
+
+
+def work_order_page(work_order: WorkOrder) -> PageData:
+    unit_id = work_order.unit_id
+    return PageData(
+        tasks=list(work_order.tasks.select_related("component").order_by("id")),
+        flags=list(UnitFlag.objects.filter(unit_id=unit_id).order_by("code")),
+        due_items=list(
+            DueItem.objects.filter(unit_id=unit_id)
+            .select_related("component")
+            .order_by("rank", "due_on", "task")
+        ),
+        last_reading=last_meter_reading(unit_id),
+        ctx=task_context(work_order),
+        follow_ups=list(work_order.follow_ups.order_by("pk")),
+    )

@@ -1,0 +1,328 @@
+"""The mechanic's tablet: my work, the work-order list, the work-order page and its writes.
+
+Thin views: parse, check the role (fleetfuel.accounts.access), call one selector or action,
+render. Every write answers an auditor with 403 (``role_required`` before ``require_POST``).
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import uuid
+from collections.abc import Iterable
+from typing import Any
+
+from django.contrib import messages
+from django.core.paginator import Paginator
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils import timezone
+from django.utils.cache import patch_vary_headers
+from django.views.decorators.http import require_POST
+from django_htmx.middleware import HtmxDetails
+
+from fleetfuel.accounts.access import require_write, role_required, user_role
+from fleetfuel.accounts.models import Role
+
+from . import actions, closing, selectors
+from .forms import ADD_KINDS, FILTER_CHOICES, job_entry_clean, new_task_clean, task_entry_clean
+from .models import WorkOrder
+from .presenters import CAUTION_TITLE, CAUTIONS, task_view
+
+log = logging.getLogger(__name__)
+
+ALL_ROLES = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
+WRITERS = (Role.MANAGER, Role.MECHANIC)
+
+
+class HtmxHttpRequest(HttpRequest):
+    htmx: HtmxDetails
+
+
+def _vary(response: HttpResponse) -> HttpResponse:
+    patch_vary_headers(response, ["HX-Request"])
+    return response
+
+
+# --------------------------------------------------------------------------- lists
+
+
+@role_required(Role.MANAGER, Role.MECHANIC)
+def my_work(request: HtmxHttpRequest) -> HttpResponse:
+    work_orders = selectors.my_work_for_user(request.user)
+    return render(
+        request,
+        "workorders/my_work.html",
+        {"work_orders": work_orders, "today": timezone.localdate()},
+    )
+
+
+@role_required(Role.MANAGER, Role.AUDITOR)
+def work_order_list(request: HtmxHttpRequest) -> HttpResponse:
+    status = request.GET.get("status", "open")
+    if status not in dict(selectors.LIST_STATUSES):
+        status = "open"
+    page = Paginator(selectors.work_order_list(request.user, status=status), 50).get_page(
+        request.GET.get("page")
+    )
+    return render(
+        request,
+        "workorders/list.html",
+        {"page": page, "status": status, "statuses": selectors.LIST_STATUSES},
+    )
+
+
+# --------------------------------------------------------------------------- the page
+
+
+def _page_context(
+    request: HttpRequest,
+    wo: WorkOrder,
+    *,
+    outcome: closing.CloseOutcome | None = None,
+    token: str | None = None,
+    add_error: str = "",
+    server_error: str = "",
+) -> dict[str, Any]:
+    data = selectors.work_order_page(wo)
+    role = user_role(request.user)
+    editable = wo.status == WorkOrder.Status.OPEN and role in WRITERS
+    last = data.last_reading
+    return {
+        "wo": wo,
+        "unit": wo.unit,
+        "site_tz": wo.unit.site.time_zone,
+        "system": data.ctx.system,
+        "task_views": [task_view(t, data.ctx) for t in data.tasks],
+        "flags": data.flags,
+        "due_items": data.due_items,
+        "last_reading": last,
+        "meter_backwards": _meter_backwards(wo, last),
+        "follow_ups": data.follow_ups,
+        "editable": editable,
+        "can_override": editable and role == Role.MANAGER,
+        "token": token or uuid.uuid4().hex,
+        "outcome": outcome,
+        "add_error": add_error,
+        "server_error": server_error,
+        "add_kinds": ADD_KINDS,
+        "filters": [c for c in data.ctx.components if c.kind in FILTER_CHOICES],
+        "limits": list(data.ctx.limits.values()),
+        "cylinder_range": range(1, wo.unit.cylinders + 1),
+        "caution_title": CAUTION_TITLE,
+        "cautions": CAUTIONS,
+        "task_keys": [f"fleetfuel:task:{t.pk}" for t in data.tasks],
+    }
+
+
+@role_required(*ALL_ROLES)
+def detail(request: HtmxHttpRequest, pk: int) -> HttpResponse:
+    wo = selectors.work_order_for_user(request.user, pk)
+    return render(request, "workorders/detail.html", _page_context(request, wo))
+
+
+# --------------------------------------------------------------------------- drafts
+
+
+def _not_saved(exc: actions.WorkOrderNotOpen) -> str:
+    return f"Not saved: {exc} What you entered was added to its notes."
+
+
+def _flash(request: HttpRequest, save_error: str, errors: Iterable[str], success: str) -> None:
+    """Messages for a plain (no-JavaScript) form post."""
+    problems = [save_error] if save_error else []
+    problems += list(errors)
+    for problem in problems:
+        messages.error(request, problem)
+    if not problems:
+        messages.success(request, success)
+
+
+def _meter_backwards(wo: WorkOrder, last: Any) -> bool:
+    return (
+        wo.hour_meter is not None
+        and last is not None
+        and wo.hour_meter < last.hours
+        and not wo.meter_replaced
+    )
+
+
+def _posted(request: HttpRequest) -> dict[str, str]:
+    return {k: v for k, v in request.POST.items() if k not in {"csrfmiddlewaretoken", "snapshot"}}
+
+
+@role_required(*WRITERS)
+@require_POST
+def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
+    require_write(request.user)
+    task = selectors.task_for_user(request.user, pk)
+    wo = selectors.work_order_for_user(request.user, task.work_order_id)
+    ctx = selectors.task_context(wo)
+    entry = task_entry_clean(task, request.POST, ctx)
+    status = 200
+    save_error = ""
+    try:
+        task = actions.task_draft_save(
+            task_id=task.pk,
+            user=request.user,
+            entry=entry,
+            entered=actions.snapshot_text(_posted(request)),
+        )
+    except actions.WorkOrderNotOpen as exc:
+        status, save_error = 409, _not_saved(exc)
+    if not request.htmx:
+        _flash(request, save_error, entry.errors.values(), f"Saved “{task.description}”.")
+        return redirect(reverse("workorders:detail", args=[wo.pk]) + f"#task-{task.pk}")
+    tv = task_view(task, ctx, entry.errors)
+    response = render(
+        request,
+        "workorders/detail.html#task-status",
+        {"tv": tv, "site_tz": wo.unit.site.time_zone, "save_error": save_error},
+        status=status,
+    )
+    return _vary(response)
+
+
+@role_required(*WRITERS)
+@require_POST
+def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
+    require_write(request.user)
+    wo = selectors.work_order_for_user(request.user, pk)
+    job = job_entry_clean(request.POST)
+    status = 200
+    save_error = ""
+    try:
+        wo = actions.job_draft_save(
+            work_order_id=wo.pk,
+            user=request.user,
+            job=job,
+            entered=actions.snapshot_text(_posted(request)),
+        )
+    except actions.WorkOrderNotOpen as exc:
+        status, save_error = 409, _not_saved(exc)
+    wo = selectors.work_order_for_user(request.user, pk)
+    if not request.htmx:
+        _flash(request, save_error, job.errors.values(), "Saved the job fields.")
+        return redirect(reverse("workorders:detail", args=[wo.pk]) + "#job")
+    last = selectors.last_meter_reading(wo.unit_id)
+    response = render(
+        request,
+        "workorders/detail.html#job-status",
+        {
+            "wo": wo,
+            "site_tz": wo.unit.site.time_zone,
+            "save_error": save_error,
+            "job_errors": list(job.errors.values()),
+            "last_reading": last,
+            "meter_backwards": _meter_backwards(wo, last),
+        },
+        status=status,
+    )
+    return _vary(response)
+
+
+@role_required(*WRITERS)
+@require_POST
+def task_add(request: HtmxHttpRequest, pk: int) -> HttpResponse:
+    require_write(request.user)
+    wo = selectors.work_order_for_user(request.user, pk)
+    new, error = new_task_clean(request.POST, selectors.task_context(wo))
+    if new is None:
+        context = _page_context(request, wo, add_error=error)
+        return render(request, "workorders/detail.html", context, status=422)
+    try:
+        task = actions.task_add(work_order_id=wo.pk, user=request.user, new=new)
+    except actions.WorkOrderNotOpen as exc:
+        messages.error(request, f"Task not added: {exc} It was noted on the work order.")
+        return redirect("workorders:detail", pk=wo.pk)
+    messages.success(request, f"Task added: {task.description}.")
+    return redirect(reverse("workorders:detail", args=[wo.pk]) + f"#task-{task.pk}")
+
+
+# --------------------------------------------------------------------------- close
+
+
+def _snapshot(request: HttpRequest) -> str:
+    raw = request.POST.get("snapshot", "")
+    try:
+        data = json.loads(raw) if raw else {}
+    except ValueError:
+        return raw[:4000]
+    return actions.snapshot_text(data) if data else ""
+
+
+def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
+    require_write(request.user)
+    wo = selectors.work_order_for_user(request.user, pk)
+    token = request.POST.get("token", "")
+    job = job_entry_clean(request.POST)
+    try:
+        outcome = closing.work_order_close(
+            work_order_id=wo.pk,
+            user=request.user,
+            token=token,
+            job=job,
+            override=override,
+            override_reason=request.POST.get("override_reason", ""),
+            snapshot=_snapshot(request),
+        )
+    except ValueError as exc:
+        context = _page_context(request, wo, server_error=str(exc))
+        return render(request, "workorders/detail.html", context, status=400)
+    except Exception:
+        # Nothing was closed (the transaction rolled back); the drafts are on the server.
+        log.exception("closing work order %s failed", wo.pk)
+        wo = selectors.work_order_for_user(request.user, pk)
+        context = _page_context(
+            request,
+            wo,
+            token=token,
+            server_error=(
+                "The server could not close the work order: an error occurred on our side and "
+                "nothing was recorded. Your entries are saved as drafts on the server. Tap "
+                "“Close work order” again to retry; it is safe to retry."
+            ),
+        )
+        return render(request, "workorders/detail.html", context, status=500)
+
+    if outcome.result == "closed":
+        if not outcome.replay:
+            text = outcome.message
+            if outcome.follow_up is not None:
+                text += (
+                    f" A measurement was outside its limits: follow-up work order "
+                    f"{outcome.follow_up.number} was created."
+                )
+            messages.success(request, text)
+        return redirect("workorders:detail", pk=wo.pk)
+    wo = selectors.work_order_for_user(request.user, pk)
+    if outcome.result == "closed_by_other":
+        messages.warning(request, outcome.message)
+        return redirect("workorders:detail", pk=wo.pk)
+    status = 403 if outcome.forbidden else 200
+    context = _page_context(request, wo, outcome=outcome, token=token)
+    return render(request, "workorders/detail.html", context, status=status)
+
+
+@role_required(*WRITERS)
+@require_POST
+def close(request: HtmxHttpRequest, pk: int) -> HttpResponse:
+    return _close(request, pk, override=False)
+
+
+@role_required(*WRITERS)
+@require_POST
+def override(request: HtmxHttpRequest, pk: int) -> HttpResponse:
+    """Close despite overridable rules, with a written reason. Only a manager may: a
+    mechanic's attempt reaches the rules (which refuse it) and is answered 403."""
+    if user_role(request.user) != Role.MANAGER:
+        wo = selectors.work_order_for_user(request.user, pk)
+        context = _page_context(
+            request,
+            wo,
+            token=request.POST.get("token") or None,
+            server_error="Only a manager may override a closing rule. Nothing was recorded.",
+        )
+        return render(request, "workorders/detail.html", context, status=403)
+    return _close(request, pk, override=True)

@@ -1,0 +1,173 @@
+"""The mechanic's tablet in a real browser (portrait 768x1024, and the pages at 1024x768)."""
+
+from __future__ import annotations
+
+from datetime import timedelta
+from typing import Any
+
+import pytest
+from django.utils import timezone
+
+from fleetfuel.fleet.models import ComponentKind, MeterReading
+from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.planning.actions import due_items_recompute
+from fleetfuel.planning.models import DueItem, UnitFlag
+from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
+from tests.browser.conftest import screenshot
+from tests.workorders.conftest import limits, task_make, work_order_make  # noqa: F401
+
+pytestmark = pytest.mark.browser
+K = WorkOrderTask.Kind
+
+
+@pytest.fixture
+def job(transactional_db: Any, unit: Any, manager: Any, mechanic: Any) -> WorkOrder:
+    MeterReading.objects.create(
+        unit=unit,
+        taken_at=timezone.now() - timedelta(days=2),
+        hours=1_990.0,
+        source=MeterReading.Source.TELEMATICS,
+    )
+    due_items_recompute(unit_ids=[unit.pk], now=timezone.now())
+    wo = work_order_make(
+        unit=unit,
+        created_by=manager,
+        assigned_to=mechanic,
+        number="WO-0300",
+        priority=WorkOrder.Priority.HIGH,
+    )
+    task_make(wo, K.INJECTOR_REPLACE, cylinder=3, description="Replace injector, cylinder 3")
+    task_make(
+        wo,
+        K.FILTER_CHANGE,
+        component=unit.components.get(kind=ComponentKind.PRIMARY_FILTER),
+        description="Change primary filter",
+    )
+    return wo
+
+
+def test_mechanic_closes_after_adding_the_missing_connector(
+    login_page: Any, job: WorkOrder, unit: Any, mechanic: Any
+) -> None:
+    from playwright.sync_api import expect
+
+    injector = job.tasks.get(kind=K.INJECTOR_REPLACE)
+    filter_task = job.tasks.get(kind=K.FILTER_CHANGE)
+    primary_due = DueItem.objects.get(unit=unit, task=DueItem.Task.PRIMARY_FILTER)
+    assert primary_due.status == DueItem.Status.OVERDUE
+
+    page = login_page(mechanic, width=768, height=1024)
+    # Home for a mechanic is their work list.
+    expect(page.locator("h1")).to_have_text("My work")
+    screenshot(page, "mechanic-my-work-768x1024")
+    page.click("text=WO-0300")
+    expect(page.locator("h1")).to_have_text("Work order WO-0300")
+    expect(page.locator(f"#task-{injector.pk} .caution")).to_contain_text("Never feel for leaks")
+
+    page.fill("#hour_meter", "2012")
+    page.press("#hour_meter", "Tab")
+    expect(page.locator("#job-status .saved-note")).to_contain_text("Saved")
+
+    page.fill(f"#t{injector.pk}-new_serial", "INJ-NEW-3")
+    page.press(f"#t{injector.pk}-new_serial", "Tab")
+    expect(page.locator(f"#task-{injector.pk}-status .saved-note")).to_contain_text("Saved")
+
+    # A save that cannot reach the server says so, keeps the entry on the tablet, and puts it
+    # back (and saves it) when the page is opened again.
+    save_url = f"**/work/tasks/{filter_task.pk}/save/"
+    page.route(save_url, lambda route: route.abort("internetdisconnected"))
+    page.fill(f"#t{filter_task.pk}-part_number", "PF-100")
+    page.press(f"#t{filter_task.pk}-part_number", "Tab")
+    expect(page.locator(f"#task-{filter_task.pk}-status .saved-note")).to_contain_text(
+        "Not saved: no connection"
+    )
+    filter_task.refresh_from_db()
+    assert filter_task.record.get("part_number") is None
+    page.unroute(save_url)
+    page.reload()
+    expect(page.locator(f"#t{filter_task.pk}-part_number")).to_have_value("PF-100")
+    expect(page.locator(f"#task-{filter_task.pk}-status .saved-note")).to_contain_text("Saved")
+    filter_task.refresh_from_db()
+    assert filter_task.record["part_number"] == "PF-100"
+    screenshot(page, "mechanic-work-order-768x1024")
+
+    page.click("button.close-btn")
+    refusal = page.locator("#refusal")
+    expect(refusal).to_contain_text(
+        "Injector replaced on cylinder 3 without a new high-pressure connector on cylinder 3."
+    )
+    screenshot(page, "mechanic-close-refused-768x1024")
+    assert WorkOrder.objects.get(pk=job.pk).status == WorkOrder.Status.OPEN
+
+    page.select_option("#add-kind", K.CONNECTOR_REPLACE)
+    page.select_option("#add-cylinder", "3")
+    page.click("button:has-text('Add task')")
+    expect(page.locator(".task h3", has_text="connector replaced, cylinder 3")).to_be_visible()
+    connector = job.tasks.get(kind=K.CONNECTOR_REPLACE)
+    expect(page.locator(f"#task-{connector.pk} .caution")).to_be_visible()
+
+    page.click("button.close-btn")
+    expect(page.locator(".closed-box")).to_contain_text(f"Closed by {mechanic.username}")
+    due_row = page.locator(".due-table tr.due-primary_filter")
+    expect(due_row.locator(".badge")).to_have_text("OK")
+    screenshot(page, "mechanic-closed-768x1024")
+
+    job.refresh_from_db()
+    assert job.status == WorkOrder.Status.CLOSED and job.hour_meter == 2_012.0
+    kinds = set(ServiceEvent.objects.filter(work_order=job).values_list("kind", flat=True))
+    assert kinds == {"injector_replaced", "connector_replaced", "filter_changed"}
+    primary_due.refresh_from_db()
+    assert primary_due.status == DueItem.Status.OK
+
+
+def test_pages_at_landscape_size(
+    login_page: Any,
+    job: WorkOrder,
+    unit: Any,
+    manager: Any,
+    limits: Any,  # noqa: F811
+) -> None:
+    """Screenshots of the manager's view in landscape, with a flag and a measurement."""
+    from playwright.sync_api import expect
+
+    UnitFlag.objects.create(
+        unit=unit,
+        code="relief_valve_repeat",
+        title="Rail pressure relief valve opening repeatedly",
+        reason="4 relief-valve openings in the last 7 days.",
+        checks=[
+            "Check the fuel metering actuator's circuit and connector first.",
+            "Check the rail pressure sensor, its connector and its circuit.",
+        ],
+        since=timezone.now(),
+        high_pressure=True,
+        computed_at=timezone.now(),
+    )
+    task_make(
+        job,
+        K.MEASUREMENT,
+        description="Supply pressure under load",
+        record={"limit_id": limits["load"].pk, "value": 3.2},
+    )
+    task_make(job, K.SEPARATOR_DRAIN, description="Drain water separator")
+    page = login_page(manager, width=1024, height=768)
+    page.goto("/work/")
+    screenshot(page, "manager-my-work-1024x768")
+    page.goto(f"/work/{job.pk}/")
+    expect(page.locator(".verdict")).to_contain_text("Outside limits")
+    expect(page.locator("#override_reason")).to_be_visible()
+    screenshot(page, "manager-work-order-1024x768")
+    page.goto("/work/all/")
+    expect(page.locator("table.wo-table")).to_contain_text("WO-0300")
+    screenshot(page, "manager-list-1024x768")
+    # Every control on the work-order page is at least 44 px tall (touch targets).
+    page.goto(f"/work/{job.pk}/")
+    controls = "main input:not([type=hidden]), main select, main button, main textarea, main a.btn"
+    small = page.evaluate(
+        """(sel) => [...document.querySelectorAll(sel)]
+              .filter(el => el.offsetParent !== null && el.type !== 'checkbox')
+              .filter(el => el.getBoundingClientRect().height < 44)
+              .map(el => el.outerHTML.slice(0, 80))""",
+        controls,
+    )
+    assert small == []
