@@ -236,6 +236,11 @@ CELERY_BEAT_SCHEDULE = {
         "schedule": crontab(hour=2, minute=15),
         "options": {"expires": 6 * 3600},
     },
+    "ledger-checkpoints": {
+        "task": "fleetfuel.ledger.tasks.checkpoint_heads",
+        "schedule": crontab(minute="*/15"),
+        "options": {"expires": 14 * 60},
+    },
     "work-lists": {
         "task": "fleetfuel.planning.tasks.worklists_tick",
         "schedule": crontab(minute=0),

@@ -92,3 +92,27 @@ def chain_verify(entries: Iterable[ChainEntry]) -> ChainBreak | None:
         expected_prev = entry.hash
         expected_seq += 1
     return None
+
+
+def canonical_value(value: object) -> object:
+    """One value as it appears in the canonical JSON (what exports write for hashed fields)."""
+    return _canonical_value(value)
+
+
+# 49 CFR 396.3(c): records are kept for 1 year, and for 6 months after the vehicle leaves the
+# carrier's control. fleetfuel keeps a disposed unit's history at least this long after disposal.
+RETENTION_MONTHS_AFTER_DISPOSAL = 18
+
+
+def months_add(day: date, months: int) -> date:
+    """The same day of the month ``months`` later, clamped to the month's last day."""
+    index = day.month - 1 + months
+    year, month = day.year + index // 12, index % 12 + 1
+    next_first = date(year + month // 12, month % 12 + 1, 1)
+    last_day = (next_first - date.resolution).day
+    return date(year, month, min(day.day, last_day))
+
+
+def retention_ends_on(*, disposed_on: date) -> date:
+    """The first day a disposed unit's history is past its retention period."""
+    return months_add(disposed_on, RETENTION_MONTHS_AFTER_DISPOSAL)

@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
-from datetime import datetime
+from datetime import date, datetime
 from typing import Any
 
+from django.core.exceptions import ValidationError
 from django.db import transaction
 from django.utils import timezone
 
 from fleetfuel.fleet.models import Unit
-from services.ledger import GENESIS, entry_hash
+from services.ledger import GENESIS, entry_hash, retention_ends_on
 
 from .models import ServiceEvent
 
@@ -103,3 +104,76 @@ def service_event_append(
         event.hash = entry_hash(content=event_content(event), prev_hash=prev_hash)
         event.save(force_insert=True)
         return event
+
+
+# What a correction may restate: the hashed fields less the unit, the chain fields, the author,
+# the work order and the correction's own fields. A correction is about what was done and measured.
+_FIXED_ON_CORRECTION = frozenset(
+    {"unit_id", "seq", "kind", "recorded_at", "recorded_by_id", "work_order_id", "corrects_id",
+     "reason"}
+)  # fmt: skip
+CORRECTABLE_FIELDS = tuple(
+    name.removesuffix("_id") for name in CONTENT_FIELDS if name not in _FIXED_ON_CORRECTION
+)
+
+
+def service_event_correct(
+    *, event: ServiceEvent, reason: str, recorded_by: Any, **changed_fields: Any
+) -> ServiceEvent:
+    """Record a correction of ``event`` as a new entry at the head of the unit's chain.
+
+    The new entry (kind CORRECTION, ``corrects`` = event) restates the entry in full: the
+    event's own values with ``changed_fields`` put over them. The corrected entry stays as
+    it was, so the history shows both and why.
+    """
+    reason = (reason or "").strip()
+    if not reason:
+        raise ValidationError({"reason": "Say why the entry is being corrected."})
+    unknown = sorted(set(changed_fields) - set(CORRECTABLE_FIELDS))
+    if unknown:
+        raise ValidationError(f"These fields cannot be corrected: {', '.join(unknown)}.")
+    values = {name: getattr(event, name) for name in CORRECTABLE_FIELDS}
+    changed = {k: v for k, v in changed_fields.items() if v != values[k]}
+    if not changed:
+        raise ValidationError("Nothing to correct: give at least one value that differs.")
+    values.update(changed)
+    return service_event_append(
+        unit=event.unit,
+        kind=ServiceEvent.Kind.CORRECTION,
+        recorded_by=recorded_by,
+        corrects=event,
+        reason=reason,
+        work_order=event.work_order,
+        **values,
+    )
+
+
+class RetentionError(Exception):
+    """A purge of service history that fleetfuel refuses, with the reason in words."""
+
+
+def unit_history_purge(*, unit: Unit, today: date) -> None:
+    """Refuse, always: fleetfuel does not purge service history.
+
+    49 CFR 396.3(c) asks for the records to be kept 1 year, and 6 months after the unit leaves
+    the operator's control; fleetfuel keeps a disposed unit's history at least 18 months after
+    disposal, and after that still refuses: the history is append-only and hash-chained, and a
+    removed entry would break the chain. Export the unit's history and archive it instead.
+    """
+    if unit.disposed_on is None:
+        raise RetentionError(
+            f"{unit.fleet_number} is still in service: its history must be kept "
+            "(49 CFR 396.3(c): 1 year, and 6 months after the unit leaves your control)."
+        )
+    ends_on = retention_ends_on(disposed_on=unit.disposed_on)
+    if today < ends_on:
+        raise RetentionError(
+            f"{unit.fleet_number} was disposed of on {unit.disposed_on:%Y-%m-%d}: its history "
+            f"must be kept until {ends_on:%Y-%m-%d} (1 year and 6 months after disposal, "
+            "49 CFR 396.3(c)). Purging is refused."
+        )
+    raise RetentionError(
+        f"The retention period of {unit.fleet_number} ended on {ends_on:%Y-%m-%d}, but fleetfuel "
+        "does not purge service history: it is append-only and hash-chained. Export the unit's "
+        "history (CSV or XLSX with its manifest) to archive it."
+    )

@@ -93,7 +93,8 @@ class ServiceEvent(models.Model):
         ]
         indexes = [
             models.Index(fields=["unit", "performed_at"], name="ledger_unit_at"),
-            models.Index(fields=["performed_at"], name="ledger_at"),
+            # The history page reads newest first by (performed_at, id), a keyset.
+            models.Index(fields=["performed_at", "id"], name="ledger_at_id"),
         ]
 
     def __str__(self) -> str:
@@ -108,3 +109,83 @@ class ServiceEvent(models.Model):
 
     def delete(self, *args: object, **kwargs: object) -> tuple[int, dict[str, int]]:
         raise LedgerImmutableError("Service events cannot be deleted.")
+
+    @property
+    def component_kind_label(self) -> str:
+        from fleetfuel.fleet.models import ComponentKind
+
+        if self.component_kind in ComponentKind.values:
+            return str(ComponentKind(self.component_kind).label)
+        return self.component_kind
+
+
+class ChainCheckpoint(models.Model):
+    """A signed note of one unit's chain head at a moment (written by a beat task).
+
+    A rewrite of a whole chain inside the database recomputes consistently, so the chain alone
+    would not show it; the checkpoint, signed with a key the database does not hold
+    (HMAC-SHA256 keyed from SECRET_KEY), still names the old head, and verify_ledger compares.
+    """
+
+    unit = models.ForeignKey("fleet.Unit", on_delete=models.PROTECT, related_name="checkpoints")
+    seq = models.PositiveIntegerField()
+    head_hash = models.CharField(max_length=64)
+    recorded_at = models.DateTimeField()
+    signature = models.CharField(max_length=64)
+
+    class Meta:
+        ordering = ["unit", "-seq"]
+        constraints = [
+            models.UniqueConstraint(fields=["unit", "seq"], name="checkpoint_one_per_unit_seq"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.unit_id}#{self.seq} {self.head_hash[:12]}"
+
+
+class ExportLog(models.Model):
+    """One export of the service history: who, when, what, and the digest of the data file.
+
+    Created when the export starts; ``row_count``, ``sha256`` and ``finished_at`` are filled
+    when the data file is complete (for a streamed CSV, when the last byte has been sent).
+    ``manifest`` holds what is known at the start (filters, units, chain heads, due items).
+    """
+
+    class Format(models.TextChoices):
+        CSV = "csv", "CSV"
+        XLSX = "xlsx", "Excel (XLSX)"
+        PRINT = "print", "Printable record (HTML)"
+
+    class Via(models.TextChoices):
+        WEB = "web", "Web"
+        COMMAND = "command", "Command line"
+
+    requested_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="ledger_exports",
+    )
+    requested_at = models.DateTimeField()
+    via = models.CharField(max_length=10, choices=Via.choices)
+    format = models.CharField(max_length=10, choices=Format.choices)
+    filters = models.JSONField(default=dict)
+    file_name = models.CharField(max_length=200)
+    manifest = models.JSONField(default=dict)
+    row_count = models.PositiveIntegerField(null=True, blank=True)
+    sha256 = models.CharField("data file SHA-256", max_length=64, blank=True)
+    finished_at = models.DateTimeField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["-requested_at", "-id"]
+        indexes = [
+            models.Index(fields=["requested_by", "-requested_at"], name="export_by_user"),
+        ]
+
+    def __str__(self) -> str:
+        return f"Export {self.pk} ({self.format})"
+
+    @property
+    def finished(self) -> bool:
+        return self.finished_at is not None

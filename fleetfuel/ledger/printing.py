@@ -1,0 +1,32 @@
+"""The printable per-unit record: identification, scheduled tasks and entries, unit by unit."""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Mapping
+from typing import Any
+
+from .models import ExportLog, ServiceEvent
+from .selectors import HistoryScope
+
+PRINT_MAX_ROWS = 5000  # a printed record longer than this is a CSV's job
+
+
+def print_context(log: ExportLog, scope: HistoryScope, heads: Mapping[int, int]) -> dict[str, Any]:
+    """The units of the manifest, each with its entries (up to its head when the export began)."""
+    by_unit: dict[int, list[ServiceEvent]] = defaultdict(list)
+    events = (
+        scope.events(with_kind=False)
+        .select_related("recorded_by", "work_order")
+        .order_by("unit_id", "seq")
+    )
+    for event in events.iterator(chunk_size=PRINT_MAX_ROWS):
+        if event.seq <= heads.get(event.unit_id, 0):
+            by_unit[event.unit_id].append(event)
+    units = [{**unit, "events": by_unit.get(unit["unit_id"], [])} for unit in log.manifest["units"]]
+    return {
+        "log": log,
+        "units": units,
+        "filters": log.filters,
+        "row_count": sum(len(u["events"]) for u in units),
+    }
