@@ -13,7 +13,7 @@ ROOT = Path(__file__).resolve().parents[1]
 
 
 def settings_error(**env: str) -> str:
-    clean = {k: v for k, v in os.environ.items() if k not in {"FLEETFUEL_TESTING", "DEBUG"}}
+    clean = {k: v for k, v in os.environ.items() if k not in {"FLEETFUEL_TESTING", "DEBUG", "DJANGO_ALLOW_ASYNC_UNSAFE"}}
     result = subprocess.run(
         [sys.executable, "-c", "import fleetfuel.settings"],
         cwd=ROOT,
@@ -45,7 +45,7 @@ def test_defaults_need_nothing_but_debug() -> None:
 
 
 def test_deploy_check_is_clean_with_production_variables() -> None:
-    env = {k: v for k, v in os.environ.items() if k not in {"FLEETFUEL_TESTING", "DEBUG"}}
+    env = {k: v for k, v in os.environ.items() if k not in {"FLEETFUEL_TESTING", "DEBUG", "DJANGO_ALLOW_ASYNC_UNSAFE"}}
     env.update(
         SECRET_KEY="k" * 20 + "-production-like-secret-key-0123456789-abcdef",
         ALLOWED_HOSTS="fleetfuel.example.com",
