@@ -10,10 +10,16 @@ from pathlib import Path
 import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
+# Set by the test run itself (or by the browser tests), never in production.
+TEST_ONLY = {"FLEETFUEL_TESTING", "DEBUG", "DJANGO_ALLOW_ASYNC_UNSAFE"}
+
+
+def production_like_env() -> dict[str, str]:
+    return {k: v for k, v in os.environ.items() if k not in TEST_ONLY}
 
 
 def settings_error(**env: str) -> str:
-    clean = {k: v for k, v in os.environ.items() if k not in {"FLEETFUEL_TESTING", "DEBUG", "DJANGO_ALLOW_ASYNC_UNSAFE"}}
+    clean = production_like_env()
     result = subprocess.run(
         [sys.executable, "-c", "import fleetfuel.settings"],
         cwd=ROOT,
@@ -45,7 +51,7 @@ def test_defaults_need_nothing_but_debug() -> None:
 
 
 def test_deploy_check_is_clean_with_production_variables() -> None:
-    env = {k: v for k, v in os.environ.items() if k not in {"FLEETFUEL_TESTING", "DEBUG", "DJANGO_ALLOW_ASYNC_UNSAFE"}}
+    env = production_like_env()
     env.update(
         SECRET_KEY="k" * 20 + "-production-like-secret-key-0123456789-abcdef",
         ALLOWED_HOSTS="fleetfuel.example.com",

@@ -2,6 +2,7 @@ from __future__ import annotations
 
 import zoneinfo
 
+from django import forms
 from django.contrib import messages
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
@@ -12,7 +13,7 @@ from django.views.decorators.vary import vary_on_headers
 from django_htmx.http import HttpResponseClientRedirect, push_url
 
 from fleetfuel.accounts.access import role_required, site_ids_for_user, sites_for_user
-from fleetfuel.accounts.models import Role
+from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.fleet.models import Site, UnitClass
 
 from .orders import WorkOrderCreateError, work_orders_from_due_items
@@ -38,6 +39,8 @@ def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     context = {"form": form, "page": page, "query": query.urlencode()}
     if not request.htmx:
         context["dispatches"] = recent_dispatches(user=request.user)
+        profile = getattr(request.user, "profile", None)
+        context["settings_form"] = WorkListSettingsForm(instance=profile or Profile())
     if request.htmx and not request.htmx.boosted:
         response = render(request, "planning/due_list.html#due-results", context)
         return push_url(response, request.get_full_path())
@@ -99,3 +102,24 @@ def worklist_send_now(request) -> HttpResponse:  # type: ignore[no-untyped-def]
         worklist_send.delay(request.user.pk, site.pk, local.isoformat(), True)
     messages.success(request, f"Work list queued for {len(sites)} site(s) to {request.user.email}.")
     return redirect("planning:due_list")
+
+
+class WorkListSettingsForm(forms.ModelForm):
+    class Meta:
+        model = Profile
+        fields = ["work_list_subscribed", "work_list_hour", "work_list_days_ahead"]
+
+
+@role_required(Role.MANAGER)
+@require_POST
+def worklist_settings(request) -> HttpResponse:  # type: ignore[no-untyped-def]
+    """The manager's own work-list preferences (subscribed, local hour, days ahead)."""
+    profile, _ = Profile.objects.get_or_create(user=request.user)
+    form = WorkListSettingsForm(request.POST, instance=profile)
+    if form.is_valid():
+        form.save()
+        messages.success(request, "Work-list settings saved.")
+    else:
+        errors = "; ".join(f"{form.fields[f].label}: {' '.join(e)}" for f, e in form.errors.items())
+        messages.error(request, f"Settings not saved. {errors}")
+    return redirect(reverse("planning:due_list") + "#work-lists")

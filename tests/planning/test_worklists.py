@@ -165,3 +165,30 @@ def test_send_now_button(smtp: tuple[Inbox, int], subscribed: dict[str, Any], cl
     assert response.status_code == 302
     assert len(inbox.messages) == 2  # by hand, each press sends
     assert WorkListDispatch.objects.filter(manual=True).count() == 2
+
+
+@pytest.mark.django_db
+def test_manager_sets_their_own_work_list_preferences(
+    client: Any, subscribed: dict[str, Any]
+) -> None:
+    manager = subscribed["manager"]
+    client.force_login(manager)
+    url = reverse("planning:worklist_settings")
+    ok = client.post(
+        url, {"work_list_subscribed": "on", "work_list_hour": "5", "work_list_days_ahead": "3"}
+    )
+    assert ok.status_code == 302
+    manager.profile.refresh_from_db()
+    assert (manager.profile.work_list_hour, manager.profile.work_list_days_ahead) == (5, 3)
+    bad = client.post(url, {"work_list_hour": "25", "work_list_days_ahead": "3"}, follow=True)
+    assert "Settings not saved" in bad.content.decode() and "23" in bad.content.decode()
+    manager.profile.refresh_from_db()
+    assert manager.profile.work_list_hour == 5 and manager.profile.work_list_subscribed
+
+
+@pytest.mark.django_db
+def test_auditor_cannot_change_work_list_settings(as_auditor: Any) -> None:
+    assert (
+        as_auditor.post(reverse("planning:worklist_settings"), {"work_list_hour": "5"}).status_code
+        == 403
+    )
