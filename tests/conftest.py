@@ -82,3 +82,17 @@ def as_mechanic(client: Any, mechanic: Any) -> Any:
 def as_auditor(client: Any, auditor: Any) -> Any:
     client.force_login(auditor)
     return client
+
+
+@pytest.fixture(scope="session", autouse=True)
+def _close_stray_connections(django_db_setup: Any, django_db_blocker: Any) -> Any:
+    """Threads in the concurrency tests and the live server may leave a session open on the
+    test database; end them before pytest-django drops it, so the drop never fails."""
+    yield
+    if connection.vendor != "postgresql":
+        return
+    with django_db_blocker.unblock(), connection.cursor() as cursor:
+        cursor.execute(
+            "SELECT pg_terminate_backend(pid) FROM pg_stat_activity "
+            "WHERE datname = current_database() AND pid <> pg_backend_pid()"
+        )
