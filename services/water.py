@@ -28,7 +28,7 @@ from dataclasses import dataclass
 from datetime import datetime, timedelta
 
 from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
-from services.intervals import (
+from services.schedule import (
     due_status,
     earliest_due,
     fmt_hours,

@@ -20,15 +20,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
-from services.intervals import (
-    DpReading,
-    FilterPlan,
-    Loading,
-    dp_fit,
-    due_status,
-    filter_projection,
-    forecast_dates,
-)
+from services.intervals import DpReading, FilterPlan, Loading, dp_fit, filter_projection
+from services.schedule import due_status, forecast_dates
 
 CODE_18_UPPER = 2_500.0  # ISO 4406:1999 Table 1: code 18 is >1,300 and <=2,500 per mL
 CODE_20_UPPER = 10_000.0  # ISO 4406:1999 Table 1: code 20 is >5,000 and <=10,000 per mL
