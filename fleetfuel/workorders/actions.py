@@ -1,5 +1,5 @@
-"""Writes of the work-order app before the close: drafts saved as the mechanic goes and tasks
-added on the page. The close itself is in closing.py.
+"""Writes of the work-order app before the close: drafts saved as the mechanic goes, tasks
+added on the page and tasks marked not done (and undone). The close itself is in closing.py.
 
 Every write locks the work order row first (``select_for_update``), so a draft save, a task
 added and a close on the same work order queue up: nothing lands on a closed work order.
@@ -184,6 +184,68 @@ def task_add(*, work_order_id: int, user: Any, new: NewTask) -> WorkOrderTask:
                 record=record,
             )
     raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=work_order_id))
+
+
+# --------------------------------------------------------------------------- not done
+
+
+def task_not_done_mark(
+    *, task_id: int, user: Any, reason: str, now: datetime | None = None
+) -> WorkOrderTask:
+    """Mark a task as not done at this job, with the written reason (already cleaned by
+    ``forms.not_done_reason_clean``). Its draft entries are kept, for an undo.
+
+    Raises WorkOrderNotOpen when the work order closed meanwhile; the reason is then appended
+    to the work order's notes.
+    """
+    now = now or timezone.now()
+    task = WorkOrderTask.objects.get(pk=task_id)
+    with transaction.atomic():
+        wo = _lock_open(
+            task.work_order_id,
+            user=user,
+            now=now,
+            what=f"mark task “{task.description}” not done",
+            entered=f"reason: {reason}",
+        )
+        if wo is not None:
+            task.not_done_reason = reason
+            task.not_done_by = user
+            task.not_done_at = now
+            task.save(update_fields=NOT_DONE_FIELDS)
+            return task
+    raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=task.work_order_id))
+
+
+def task_not_done_undo(*, task_id: int, user: Any, now: datetime | None = None) -> WorkOrderTask:
+    """The task is to be done after all: clear its reason; its fields are required again."""
+    now = now or timezone.now()
+    task = WorkOrderTask.objects.get(pk=task_id)
+    with transaction.atomic():
+        wo = _lock_open(
+            task.work_order_id,
+            user=user,
+            now=now,
+            what=f"undo “not done” on task “{task.description}”",
+            entered="",
+        )
+        if wo is not None:
+            task.not_done_reason = ""
+            task.not_done_by = None
+            task.not_done_at = None
+            task.save(update_fields=NOT_DONE_FIELDS)
+            return task
+    raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=task.work_order_id))
+
+
+NOT_DONE_FIELDS = ["not_done_reason", "not_done_by", "not_done_at"]
+
+
+def not_done_note(*, task: WorkOrderTask) -> str:
+    """The line a close appends to the work order's notes for a task not done."""
+    return (
+        f"Not done: {task.description} — {task.not_done_reason} ({person_name(task.not_done_by)})"
+    )
 
 
 def snapshot_text(data: dict[str, Any]) -> str:

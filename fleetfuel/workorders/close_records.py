@@ -1,6 +1,6 @@
 """What a close writes, inside the close's transaction: the hour-meter reading (and a meter
-replacement), one service event per task through the ledger, the renewed components, and the
-follow-up work order.
+replacement), one service event per task done through the ledger, the renewed components, and
+the follow-up work order. Tasks marked not done are never passed in (closing.py).
 
 Follow-ups: a measurement outside its limits creates ONE new open work order for the same
 unit (priority High, due the next day, same assignee, ``follow_up_of`` pointing back), with a
@@ -122,7 +122,8 @@ def close_records_write(
         if comp is not None and kind in COMPONENT_REPLACING:
             _component_renew(comp, task, today=today, hours=hours)
 
-    WorkOrderTask.objects.filter(work_order=wo).update(done=True)
+    # Tasks marked not done stay not done: their due items remain due.
+    WorkOrderTask.objects.filter(pk__in=[t.pk for t in tasks]).update(done=True)
     descriptions = rules.follow_ups(tasks=closed)
     if not descriptions:
         return None

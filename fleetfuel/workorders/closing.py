@@ -4,6 +4,14 @@ and the race between two tablets. What a close writes is in close_records.py.
 Of two tablets closing at once exactly one wins (the row lock); the other is told who closed
 it and when, and what it entered is appended to the notes. A retried POST with the same
 client token records nothing twice and gets the same outcome back.
+
+Tasks marked not done (``WorkOrderTask.not_done_at``, with a written reason) are left out of
+the close: they need no fields, take no part in the rules, write no service event and keep
+``done`` False, so their due items stay due and can go on a later work order. The close
+appends one line per such task to the work order's notes ("Not done: <task> — <reason>
+(<who>)"); the task keeps its reason, who and when. A work order whose every task is marked
+not done still closes: the visit happened, so its hour-meter reading is recorded (nothing
+else is). Only a work order with no task at all is refused.
 """
 
 from __future__ import annotations
@@ -27,6 +35,7 @@ from .actions import (
     job_apply,
     local_time,
     lost_entry_note,
+    not_done_note,
     note_append,
     person_name,
     work_order_locked,
@@ -54,6 +63,7 @@ class CloseOutcome:
     replay: bool = False
     forbidden: bool = False  # an override asked for by someone who may not override
     follow_up: WorkOrder | None = None
+    not_done: list[WorkOrderTask] = field(default_factory=list)  # left out, still due
 
 
 def closed_task(task: WorkOrderTask, ctx: TaskContext) -> rules.ClosedTask:
@@ -183,11 +193,13 @@ def work_order_close(
 
         unit = wo.unit
         ctx = task_context(wo)
-        tasks = list(wo.tasks.select_related("component").order_by("id"))
+        every = list(wo.tasks.select_related("component", "not_done_by").order_by("id"))
+        tasks = every
+        not_done = [t for t in every if t.is_not_done]
         last = last_meter_reading(unit.pk)
         problems = [m for t in tasks for m in task_missing(t, ctx)]
         problems += _meter_problems(wo, last)
-        if not tasks:
+        if not every:
             problems.append("There is nothing recorded on this work order: add a task first.")
         closed = [closed_task(t, ctx) for t in tasks]
         violations = rules.close_violations(
@@ -224,6 +236,8 @@ def work_order_close(
         follow_up = close_records_write(
             wo=wo, user=user, token=token, tasks=tasks, ctx=ctx, closed=closed, last=last, now=now
         )
+        if not_done:
+            note_append(wo, "\n".join(not_done_note(task=t) for t in not_done))
         if overridden:
             wo.override_reason = override_reason.strip()
             wo.override_by = user
@@ -259,6 +273,7 @@ def work_order_close(
             violations=overridden,
             message=f"Work order {wo.number} closed.",
             follow_up=follow_up,
+            not_done=not_done,
         )
 
 
@@ -269,4 +284,5 @@ def _replay(wo: WorkOrder) -> CloseOutcome:
         message=f"Work order {wo.number} closed.",
         replay=True,
         follow_up=wo.follow_ups.order_by("pk").first(),
+        not_done=list(wo.tasks.filter(not_done_at__isnull=False).order_by("id")),
     )

@@ -230,7 +230,10 @@ def task_entry_clean(task: WorkOrderTask, data: Mapping[str, Any], ctx: TaskCont
 
 
 def task_missing(task: WorkOrderTask, ctx: TaskContext) -> list[str]:
-    """What a task still needs before the work order can close (plain sentences)."""
+    """What a task still needs before the work order can close (plain sentences). A task
+    marked not done needs nothing."""
+    if task.is_not_done:
+        return []
     missing: list[str] = []
     rec = task.record
     for spec in TASK_FIELDS.get(task.kind, ()):
@@ -253,6 +256,33 @@ def task_missing(task: WorkOrderTask, ctx: TaskContext) -> list[str]:
         if not ok:
             missing.append(f"{task.description}: fill in “{spec.label}”.")
     return missing
+
+
+# --------------------------------------------------------------------------- not done
+
+NOT_DONE_MIN = 10  # characters of a written reason
+NOT_DONE_MAX = 500
+
+
+def not_done_reason_clean(*, raw: str) -> tuple[str, str]:
+    """Why a task cannot be done, as one line: ``(reason, "")`` or ``("", what is wrong)``.
+
+    Runs of spaces and line breaks count once, so a reason is at least ten characters of
+    words, not of padding.
+    """
+    reason = " ".join(str(raw).split())
+    if len(reason) >= NOT_DONE_MIN:
+        return reason[:NOT_DONE_MAX], ""
+    example = "e.g. “Filter not in stock, ordered for Tuesday”"
+    if not reason:
+        return (
+            "",
+            f"Write why this task cannot be done ({NOT_DONE_MIN} characters or more), {example}.",
+        )
+    return "", (
+        f"Say a little more about why this task cannot be done: {NOT_DONE_MIN} characters or "
+        f"more (you wrote {len(reason)}), {example}."
+    )
 
 
 # --------------------------------------------------------------------------- job fields

@@ -126,9 +126,35 @@ class WorkOrderTask(models.Model):
     record = models.JSONField(default=dict, blank=True)
     done = models.BooleanField(default=False)
     draft_saved_at = models.DateTimeField(null=True, blank=True)
+    # A task that could not be done at this job (part not in stock, unit needed back, the due
+    # item did not apply): it needs no fields, writes no service event at close and its due
+    # item stays due. Cleared again by "undo" while the work order is open.
+    not_done_reason = models.TextField("why it was not done", blank=True)
+    not_done_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.PROTECT,
+        null=True,
+        blank=True,
+        related_name="+",
+    )
+    not_done_at = models.DateTimeField("marked not done at", null=True, blank=True)
 
     class Meta:
         ordering = ["work_order", "id"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(not_done_at__isnull=True, not_done_by__isnull=True, not_done_reason="")
+                | (
+                    Q(not_done_at__isnull=False, not_done_by__isnull=False, done=False)
+                    & ~Q(not_done_reason="")
+                ),
+                name="wotask_not_done_has_reason_who_when",
+            ),
+        ]
 
     def __str__(self) -> str:
         return f"{self.work_order.number}: {self.description}"
+
+    @property
+    def is_not_done(self) -> bool:
+        return self.not_done_at is not None

@@ -53,6 +53,8 @@ class TaskView:
     limit_text: str
     passed: bool | None
     missing: list[str]
+    not_done_error: str = ""  # why "mark not done" was refused
+    not_done_typed: str = ""  # the reason as typed, kept for a retry
 
 
 def task_is_high_pressure(task: WorkOrderTask) -> bool:

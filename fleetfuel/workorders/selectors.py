@@ -35,9 +35,9 @@ def work_order_for_user(user: Any, pk: int) -> WorkOrder:
 
 def task_for_user(user: Any, pk: int) -> WorkOrderTask:
     return get_object_or_404(
-        WorkOrderTask.objects.select_related("work_order__unit__site", "component").filter(
-            work_order__unit__site_id__in=site_ids_for_user(user)
-        ),
+        WorkOrderTask.objects.select_related(
+            "work_order__unit__site", "component", "not_done_by"
+        ).filter(work_order__unit__site_id__in=site_ids_for_user(user)),
         pk=pk,
     )
 
@@ -113,6 +113,15 @@ def task_context(work_order: WorkOrder) -> TaskContext:
     )
 
 
+def tasks_not_done(*, work_order: WorkOrder) -> list[WorkOrderTask]:
+    """The work order's tasks marked not done, with who marked them. One query."""
+    return list(
+        work_order.tasks.filter(not_done_at__isnull=False)
+        .select_related("not_done_by")
+        .order_by("id")
+    )
+
+
 def last_meter_reading(unit_id: int) -> MeterReading | None:
     return MeterReading.objects.filter(unit_id=unit_id).order_by("-taken_at", "-pk").first()
 
@@ -130,7 +139,7 @@ class PageData:
 def work_order_page(work_order: WorkOrder) -> PageData:
     unit_id = work_order.unit_id
     return PageData(
-        tasks=list(work_order.tasks.select_related("component").order_by("id")),
+        tasks=list(work_order.tasks.select_related("component", "not_done_by").order_by("id")),
         flags=list(UnitFlag.objects.filter(unit_id=unit_id).order_by("code")),
         due_items=list(
             DueItem.objects.filter(unit_id=unit_id)

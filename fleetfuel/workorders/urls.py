@@ -1,6 +1,6 @@
 from django.urls import path
 
-from . import views
+from . import not_done_views, views
 
 app_name = "workorders"
 urlpatterns = [
@@ -12,4 +12,10 @@ urlpatterns = [
     path("<int:pk>/close/", views.close, name="close"),
     path("<int:pk>/override/", views.override, name="override"),
     path("tasks/<int:pk>/save/", views.task_save, name="task_save"),
+    path("tasks/<int:pk>/not-done/", not_done_views.task_not_done, name="task_not_done"),
+    path(
+        "tasks/<int:pk>/not-done/undo/",
+        not_done_views.task_not_done_undo,
+        name="task_not_done_undo",
+    ),
 ]

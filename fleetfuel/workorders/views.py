@@ -113,6 +113,7 @@ def _page_context(
         "caution_title": CAUTION_TITLE,
         "cautions": CAUTIONS,
         "task_keys": [f"fleetfuel:task:{t.pk}" for t in data.tasks],
+        "not_done_tasks": [t for t in data.tasks if t.is_not_done],
     }
 
 
@@ -294,6 +295,9 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
                     f" A measurement was outside its limits: follow-up work order "
                     f"{outcome.follow_up.number} was created."
                 )
+            if outcome.not_done:
+                names = "; ".join(t.description for t in outcome.not_done)
+                text += f" Not done, so still due on the unit: {names}."
             messages.success(request, text)
         return redirect("workorders:detail", pk=wo.pk)
     wo = selectors.work_order_for_user(request.user, pk)

@@ -83,8 +83,12 @@
     say(form, "Saving…", "pending");
   });
 
+  // The form that sent the request, even when the answer swapped it out of the page (htmx
+  // then fires afterRequest again on a parent still in the page).
+  function sender(e) { return (e.detail.requestConfig && e.detail.requestConfig.elt) || e.detail.elt; }
+
   document.addEventListener("htmx:afterRequest", function (e) {
-    var form = e.detail.elt;
+    var form = sender(e);
     if (!form || !form.dataset || !form.dataset.storeKey) { return; }
     inflight = Math.max(0, inflight - 1);
     var xhr = e.detail.xhr;
@@ -114,6 +118,48 @@
     failed.add(form);
     say(form, "Not saved: no connection. What you entered is kept on this tablet and will be " +
       "saved when the connection returns.", "err");
+  });
+
+  // "Not done" and its undo (forms with data-not-done): the answer replaces the task's card.
+  // They count as saves in flight, so a close tapped meanwhile waits for them. One that does
+  // not reach the server keeps the typed reason in its field and says to tap again.
+  function notDoneSay(form, text) {
+    var el = form.querySelector(".not-done-status");
+    if (!el) { return; }
+    el.textContent = text;
+    el.className = "not-done-status small" + (text ? " err" : "");
+    if (text) { el.setAttribute("role", "alert"); } else { el.removeAttribute("role"); }
+  }
+  function isNotDone(form) { return form && form.dataset && form.dataset.notDone; }
+  document.addEventListener("htmx:beforeRequest", function (e) {
+    var form = e.detail.elt;
+    if (!isNotDone(form)) { return; }
+    inflight += 1;
+    form.dataset.sending = "1";
+    notDoneSay(form, "");
+    var button = form.querySelector("button[type=submit]");
+    if (button) { button.disabled = true; }
+  });
+  document.addEventListener("htmx:afterRequest", function (e) {
+    var form = sender(e);
+    if (!isNotDone(form) || form.dataset.sending !== "1") { return; }
+    form.dataset.sending = "";
+    inflight = Math.max(0, inflight - 1);
+    var button = form.querySelector("button[type=submit]");
+    if (button) { button.disabled = false; }
+    var code = e.detail.xhr ? e.detail.xhr.status : 0;
+    if (code >= 500) {
+      notDoneSay(form, "Not sent: the server answered with an error (HTTP " + code + "). " +
+        "Nothing was changed. Tap the button again.");
+    } else if (!code) {
+      notDoneSay(form, "Not sent: no connection. Nothing was changed; what you typed is still " +
+        "here. Tap the button again when the connection is back.");
+    }
+    document.dispatchEvent(new CustomEvent("fleetfuel:saves-settled"));
+  });
+  // A task marked not done loses its draft form: stop retrying a form no longer on the page.
+  document.addEventListener("htmx:afterSwap", function () {
+    failed.forEach(function (form) { if (!document.body.contains(form)) { failed.delete(form); } });
   });
 
   document.addEventListener("fleetfuel:online", retryFailed);
