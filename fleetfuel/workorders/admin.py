@@ -35,6 +35,7 @@ class WorkOrderAdmin(admin.ModelAdmin):
     list_select_related = ("unit", "assigned_to", "closed_by")
     raw_id_fields = ("unit", "follow_up_of")
     readonly_fields = (
+        "status",  # opened by the planner or a person, closed only through the close rules
         "closed_at",
         "closed_by",
         "close_token",

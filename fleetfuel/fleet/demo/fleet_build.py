@@ -70,6 +70,9 @@ class FleetBuilder:
                 DEMO_PASSWORD,
                 first_name=first,
                 last_name=last,
+                # The manager records readings, fuel, samples and plans in the admin, with
+                # the manager group's permissions (no deletes; the ledger stays read-only).
+                is_staff=role == Role.MANAGER,
             )
             user.groups.add(Group.objects.get(name=role.value))
             Profile.objects.create(user=user, work_list_subscribed=role == Role.MANAGER)
