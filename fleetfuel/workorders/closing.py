@@ -194,7 +194,7 @@ def work_order_close(
         unit = wo.unit
         ctx = task_context(wo)
         every = list(wo.tasks.select_related("component", "not_done_by").order_by("id"))
-        tasks = every
+        tasks = [t for t in every if not t.is_not_done]
         not_done = [t for t in every if t.is_not_done]
         last = last_meter_reading(unit.pk)
         problems = [m for t in tasks for m in task_missing(t, ctx)]

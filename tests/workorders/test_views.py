@@ -28,6 +28,8 @@ def write_urls(wo: WorkOrder, task: WorkOrderTask) -> list[str]:
         reverse("workorders:task_save", args=[task.pk]),
         reverse("workorders:close", args=[wo.pk]),
         reverse("workorders:override", args=[wo.pk]),
+        reverse("workorders:task_not_done", args=[task.pk]),
+        reverse("workorders:task_not_done_undo", args=[task.pk]),
     ]
 
 
@@ -65,6 +67,7 @@ def test_auditor_post_to_every_write_url_is_forbidden(
         "cylinder": "3",
         "new_serial": "X",
         "override_reason": "An auditor trying to override",
+        "reason": "An auditor says this was not done",
     }
     for url in write_urls(wo, task):
         assert as_auditor.post(url, data).status_code == 403, url
@@ -72,6 +75,7 @@ def test_auditor_post_to_every_write_url_is_forbidden(
     task.refresh_from_db()
     assert (wo.status, wo.hour_meter, wo.notes) == (WorkOrder.Status.OPEN, None, "")
     assert task.record == {} and wo.tasks.count() == 1
+    assert (task.not_done_at, task.not_done_reason) == (None, "")
 
 
 def test_auditor_reads_without_forms(as_auditor: Any, wo: WorkOrder, task: WorkOrderTask) -> None:
