@@ -11,8 +11,20 @@ from .models import WorkOrder, WorkOrderTask
 class WorkOrderTaskInline(admin.TabularInline):
     model = WorkOrderTask
     extra = 0
-    fields = ("kind", "description", "cylinder", "component", "done", "draft_saved_at", "record")
-    readonly_fields = ("draft_saved_at",)
+    fields = (
+        "kind",
+        "description",
+        "cylinder",
+        "component",
+        "done",
+        "draft_saved_at",
+        "record",
+        "not_done_reason",
+        "not_done_by",
+        "not_done_at",
+    )
+    # "Not done" is set and undone on the tablet only (it has its reason, who and when).
+    readonly_fields = ("draft_saved_at", "not_done_reason", "not_done_by", "not_done_at")
     raw_id_fields = ("component", "due_item")
     show_change_link = False
 

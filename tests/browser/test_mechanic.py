@@ -171,3 +171,85 @@ def test_pages_at_landscape_size(
         controls,
     )
     assert small == []
+
+
+def test_mechanic_marks_a_task_not_done_undoes_it_and_closes_without_it(
+    login_page: Any, job: WorkOrder, unit: Any, mechanic: Any
+) -> None:
+    """The primary filter is not in stock: the mechanic marks that task not done (a reason is
+    required), changes their mind once (undo), marks it again and closes. The filter stays
+    due; the injector and its connector are recorded."""
+    from playwright.sync_api import expect
+
+    injector = job.tasks.get(kind=K.INJECTOR_REPLACE)
+    filter_task = job.tasks.get(kind=K.FILTER_CHANGE)
+    primary_due = DueItem.objects.get(unit=unit, task=DueItem.Task.PRIMARY_FILTER)
+    WorkOrderTask.objects.filter(pk=filter_task.pk).update(due_item=primary_due)
+    reason = "Primary filter element not in stock, ordered for Tuesday"
+
+    page = login_page(mechanic, width=768, height=1024)
+    page.goto(f"/work/{job.pk}/")
+    page.fill("#hour_meter", "2012")
+    page.press("#hour_meter", "Tab")
+    expect(page.locator("#job-status .saved-note")).to_contain_text("Saved")
+    page.fill(f"#t{injector.pk}-new_serial", "INJ-NEW-3")
+    page.press(f"#t{injector.pk}-new_serial", "Tab")
+    expect(page.locator(f"#task-{injector.pk}-status .saved-note")).to_contain_text("Saved")
+    page.select_option("#add-kind", K.CONNECTOR_REPLACE)
+    page.select_option("#add-cylinder", "3")
+    page.click("button:has-text('Add task')")
+    expect(page.locator(".task h3", has_text="connector replaced, cylinder 3")).to_be_visible()
+
+    card = page.locator(f"#task-{filter_task.pk}")
+    card.locator("summary.not-done-btn").click()
+    page.fill(f"#t{filter_task.pk}-reason", "no stock")
+    card.locator("button.not-done-go").click()
+    expect(card.locator("p.error")).to_contain_text("(you wrote 8)")
+    expect(page.locator(f"#t{filter_task.pk}-reason")).to_have_value("no stock")
+    expect(page.locator(f"#t{filter_task.pk}-reason")).to_be_focused()
+    screenshot(page, "mechanic-task-not-done-reason-refused-768x1024")
+    filter_task.refresh_from_db()
+    assert not filter_task.is_not_done
+
+    page.fill(f"#t{filter_task.pk}-reason", reason)
+    card.locator("button.not-done-go").click()
+    expect(card.locator(".not-done-note")).to_contain_text(reason)
+    expect(page.locator("#not-done-summary")).to_contain_text("Change primary filter")
+    screenshot(page, "mechanic-task-not-done-768x1024")
+
+    # Undo: the fields come back and save as drafts again.
+    card.locator("button.undo-btn").click()
+    expect(page.locator(f"#t{filter_task.pk}-part_number")).to_be_visible()
+    expect(page.locator("#not-done-summary .not-done-summary")).to_have_count(0)
+    page.fill(f"#t{filter_task.pk}-part_number", "PF-100")
+    page.press(f"#t{filter_task.pk}-part_number", "Tab")
+    expect(page.locator(f"#task-{filter_task.pk}-status .saved-note")).to_contain_text("Saved")
+
+    # Without a connection nothing changes, the reason stays typed, and a second tap sends it.
+    card.locator("summary.not-done-btn").click()
+    page.fill(f"#t{filter_task.pk}-reason", reason)
+    mark_url = f"**/work/tasks/{filter_task.pk}/not-done/"
+    page.route(mark_url, lambda route: route.abort("internetdisconnected"))
+    card.locator("button.not-done-go").click()
+    expect(card.locator(".not-done-status")).to_contain_text("Not sent: no connection")
+    expect(page.locator(f"#t{filter_task.pk}-reason")).to_have_value(reason)
+    filter_task.refresh_from_db()
+    assert not filter_task.is_not_done
+    page.unroute(mark_url)
+    card.locator("button.not-done-go").click()
+    expect(card.locator(".not-done-note")).to_contain_text(reason)
+    page.click("button.close-btn")
+    closed = page.locator(".closed-box")
+    expect(closed).to_contain_text(f"Closed by {mechanic.username}")
+    expect(closed.locator(".not-done-list")).to_contain_text(reason)
+    due_row = page.locator(".due-table tr.due-primary_filter")
+    expect(due_row.locator(".badge")).to_have_text("Overdue")
+    screenshot(page, "mechanic-closed-with-task-not-done-768x1024")
+
+    job.refresh_from_db()
+    assert job.status == WorkOrder.Status.CLOSED
+    assert f"Not done: Change primary filter — {reason}" in job.notes
+    kinds = set(ServiceEvent.objects.filter(work_order=job).values_list("kind", flat=True))
+    assert kinds == {"injector_replaced", "connector_replaced"}
+    primary_due.refresh_from_db()
+    assert primary_due.status == DueItem.Status.OVERDUE
