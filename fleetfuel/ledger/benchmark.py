@@ -1,8 +1,12 @@
-"""Benchmark of the CSV export: rows per second and peak Python memory, against PostgreSQL's
-COPY of the same rows (on PostgreSQL). Called by ``manage.py benchmark``.
+"""Benchmark of the CSV export: rows per second and peak Python memory of the Python path
+(csv module) and, on PostgreSQL, of the COPY path (csv_copy.py) against a plain COPY of the
+same query. Called by ``manage.py benchmark``.
 
 The rows are made for the run inside a transaction that is rolled back at the end, so the
 database is left as it was (the append-only trigger does not stand in the way of a rollback).
+On PostgreSQL they are made by one INSERT ... SELECT over generate_series: linked (each
+prev_hash is the previous hash) but not sealed (each hash is a digest of the row's number,
+not of its content), which the export neither checks nor needs.
 """
 
 from __future__ import annotations
@@ -22,6 +26,7 @@ from fleetfuel.fleet.models import Site, Unit, UnitClass
 from services.ledger import GENESIS, entry_hash
 
 from .actions import event_content
+from .csv_copy import copy_csv_stream
 from .exports import _LOOKUPS, csv_stream, export_rows
 from .models import ServiceEvent
 from .selectors import HistoryScope
@@ -49,10 +54,34 @@ def _chain_fill(*, unit: Unit, user: Any, rows: int) -> None:
     ServiceEvent.objects.bulk_create(batch)
 
 
-def _measure(run: Callable[[], int], rows: int) -> dict[str, float | int]:
+def _sql_fill(*, unit: Unit, user: Any, rows: int) -> None:
+    """``rows`` entries like _chain_fill's, made by PostgreSQL in one statement."""
+    table = ServiceEvent._meta.db_table
+    digest = "encode(sha256(convert_to(%s || ':' || {n}, 'UTF8')), 'hex')"
+    blank = ("component_kind", "part_number", "old_serial", "new_serial", "measurement_name",
+             "parts_used", "reason")  # fmt: skip
+    sql = (
+        f"INSERT INTO {table} (unit_id, recorded_by_id, kind, performed_at, recorded_at, "
+        f"hour_meter, water_ml, water_appearance, notes, seq, prev_hash, hash, {', '.join(blank)})"
+        " SELECT %s, %s, %s, t, t, 1000 + g::float8 / 10, mod(g, 40)::float8, 'clear', "
+        f"'benchmark entry ' || g, g, "
+        f"CASE WHEN g = 1 THEN %s ELSE {digest.format(n='(g - 1)')} END, {digest.format(n='g')}, "
+        f"{', '.join(repr('') for _ in blank)} "
+        "FROM generate_series(1, %s) AS g, "
+        "LATERAL (SELECT %s::timestamptz + g * interval '1 minute') AS at(t)"
+    )
+    tag = unit.serial_number
+    params = [unit.pk, user.pk, ServiceEvent.Kind.SEPARATOR_DRAINED, GENESIS, tag, tag, rows,
+              datetime(2020, 1, 1, tzinfo=UTC)]  # fmt: skip
+    with connection.cursor() as cursor:
+        cursor.execute(sql, params)
+        cursor.execute(f"ANALYZE {table}")
+
+
+def _measure(run: Callable[[], tuple[int, str]], rows: int) -> dict[str, Any]:
     """Time one pass; measure peak traced memory on a second pass (tracing slows Python)."""
     started = time.perf_counter()
-    size = run()
+    size, sha256 = run()
     seconds = time.perf_counter() - started
     tracemalloc.start()
     try:
@@ -65,20 +94,33 @@ def _measure(run: Callable[[], int], rows: int) -> dict[str, float | int]:
         "rows_per_s": round(rows / seconds) if seconds else 0,
         "peak_mib": round(peak / 2**20, 2),
         "bytes": size,
+        "sha256": sha256,
     }
 
 
-def _csv_run(scope: HistoryScope, heads: dict[int, int]) -> int:
-    size = 0
+def _csv_run(scope: HistoryScope, heads: dict[int, int]) -> tuple[int, str]:
+    size, digest = 0, hashlib.sha256()
     for chunk in csv_stream(
         export_rows(events=scope.events(with_kind=False), heads=heads),
         on_done=lambda count, digest: None,
     ):
         size += len(chunk)
-    return size
+        digest.update(chunk)
+    return size, digest.hexdigest()
 
 
-def _copy_run(scope: HistoryScope) -> int:
+def _csv_copy_run(scope: HistoryScope, heads: dict[int, int]) -> tuple[int, str]:
+    size, done = 0, []
+    for chunk in copy_csv_stream(
+        events=scope.events(with_kind=False),
+        heads=heads,
+        on_done=lambda count, digest: done.append(digest),
+    ):
+        size += len(chunk)
+    return size, done[0]
+
+
+def _copy_run(scope: HistoryScope) -> tuple[int, str]:
     """COPY (the same query) TO STDOUT as CSV, read in the chunks psycopg hands over."""
     query = scope.events(with_kind=False).order_by("unit_id", "seq").values(*_LOOKUPS).query
     sql, params = query.sql_with_params()
@@ -90,11 +132,12 @@ def _copy_run(scope: HistoryScope) -> int:
             for data in copy:
                 digest.update(data)
                 size += len(data)
-    return size
+    return size, digest.hexdigest()
 
 
 def export_benchmark(*, rows: int) -> dict[str, Any]:
-    """Export ``rows`` entries as CSV (the app's stream) and, on PostgreSQL, by COPY."""
+    """Export ``rows`` entries as CSV by the Python path and, on PostgreSQL, by the COPY path
+    and by a plain COPY of the unformatted query (the yardstick)."""
     tag = uuid.uuid4().hex[:8]
     with transaction.atomic():
         site = Site.objects.create(name=f"Benchmark {tag}", code=f"bench-{tag}")
@@ -106,17 +149,16 @@ def export_benchmark(*, rows: int) -> dict[str, Any]:
             model="BM", serial_number=tag, year=2020, cylinders=6, in_service_on=date(2020, 1, 1),
         )  # fmt: skip
         user = get_user_model().objects.create_user(f"bench-{tag}")
-        _chain_fill(unit=unit, user=user, rows=rows)
+        postgres = connection.vendor == "postgresql"
+        (_sql_fill if postgres else _chain_fill)(unit=unit, user=user, rows=rows)
         scope = HistoryScope(allowed_site_ids=None, site=site)
+        heads = {unit.pk: rows}
         result: dict[str, Any] = {
             "rows": rows,
             "database": connection.vendor,
-            "csv_stream": _measure(lambda: _csv_run(scope, {unit.pk: rows}), rows),
-            "postgres_copy": (
-                _measure(lambda: _copy_run(scope), rows)
-                if connection.vendor == "postgresql"
-                else None
-            ),
+            "csv_stream": _measure(lambda: _csv_run(scope, heads), rows),
+            "csv_copy": _measure(lambda: _csv_copy_run(scope, heads), rows) if postgres else None,
+            "postgres_copy": _measure(lambda: _copy_run(scope), rows) if postgres else None,
         }
         transaction.set_rollback(True)
     return result

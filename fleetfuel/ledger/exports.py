@@ -14,6 +14,7 @@ import hashlib
 import io
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from datetime import date, datetime
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -92,6 +93,23 @@ def cell_escape(text: str) -> str:
     return "'" + text if text.startswith(FORMULA_TRIGGERS) else text
 
 
+def float_format(*, value: float) -> str:
+    """A float cell: whole values as integer digits, others in shortest round-trip form.
+
+    Written as PostgreSQL's float8 output writes them (the COPY export, csv_copy.py, must give
+    the same bytes). The two differ from Python's ``repr`` only from 1e15 to 1e16, where
+    PostgreSQL switches to an exponent one decade earlier (``1.0000000000000005e+15``, not
+    ``1000000000000000.5``); there the digits are repr's, in the exponent form. Either text
+    parses back to the same float, so the hash check reads both alike.
+    """
+    if value.is_integer():
+        return str(int(value))
+    text = repr(value)
+    if 1e15 <= abs(value) < 1e16 and "e" not in text:
+        return f"{Decimal(text):e}"
+    return text
+
+
 def cell_text(value: object) -> str:
     """A CSV cell: canonical numbers and times, true/false, empty for none, escaped text.
 
@@ -105,7 +123,7 @@ def cell_text(value: object) -> str:
     if kind is int:
         return str(value)
     if kind is float:
-        return str(int(value)) if value.is_integer() else repr(value)
+        return float_format(value=value)
     if kind is bool:
         return "true" if value else "false"
     if isinstance(value, str):

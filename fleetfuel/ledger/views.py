@@ -37,7 +37,8 @@ from fleetfuel.accounts.models import Role
 from fleetfuel.fleet.models import Site
 
 from .actions import service_event_correct
-from .exports import csv_stream, export_rows, file_sha256, xlsx_write
+from .csv_copy import history_csv_stream
+from .exports import export_rows, file_sha256, xlsx_write
 from .forms import CorrectionForm, ExportForm, HistoryFilterForm
 from .manifest import export_finish, export_start, manifest_bytes
 from .models import ExportLog, ServiceEvent
@@ -166,15 +167,15 @@ def export(request: HttpRequest) -> HttpResponse:
         )
         return redirect("ledger:history")
     log, heads = export_start(scope=scope, fmt=fmt, via=ExportLog.Via.WEB, user=user)
-    rows = export_rows(events=scope.events(with_kind=False), heads=heads)
+    events = scope.events(with_kind=False)
     if fmt == ExportLog.Format.CSV:
         response: HttpResponse | StreamingHttpResponse = StreamingHttpResponse(
-            csv_stream(rows, on_done=partial(_finish, log.pk)),
+            history_csv_stream(events=events, heads=heads, on_done=partial(_finish, log.pk)),
             content_type="text/csv; charset=utf-8",
         )
         response["Content-Disposition"] = f'attachment; filename="{log.file_name}"'
     elif fmt == ExportLog.Format.XLSX:
-        response = _xlsx_response(log, rows)
+        response = _xlsx_response(log, export_rows(events=events, heads=heads))
     else:
         context = print_context(log, scope, heads)
         data = render_to_string("ledger/print.html", context, request).encode("utf-8")

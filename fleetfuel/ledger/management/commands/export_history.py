@@ -10,7 +10,8 @@ from django.core.management.base import BaseCommand, CommandError, CommandParser
 from django.db.models import Q
 
 from fleetfuel.fleet.models import Site
-from fleetfuel.ledger.exports import csv_stream, export_rows, file_sha256, xlsx_write
+from fleetfuel.ledger.csv_copy import history_csv_stream
+from fleetfuel.ledger.exports import export_rows, file_sha256, xlsx_write
 from fleetfuel.ledger.manifest import export_finish, export_start, manifest_bytes
 from fleetfuel.ledger.models import ExportLog
 from fleetfuel.ledger.selectors import HistoryScope
@@ -71,16 +72,17 @@ class Command(BaseCommand):
             user=None,
             file_name=out.name,
         )
-        rows = export_rows(events=scope.events(with_kind=False), heads=heads)
+        events = scope.events(with_kind=False)
         if options["format"] == "csv":
             with out.open("wb") as handle:
-                for chunk in csv_stream(
-                    rows, on_done=lambda n, digest: export_finish(
+                for chunk in history_csv_stream(
+                    events=events, heads=heads, on_done=lambda n, digest: export_finish(
                         log_id=log.pk, row_count=n, sha256=digest
                     ),
                 ):  # fmt: skip
                     handle.write(chunk)
         else:
+            rows = export_rows(events=events, heads=heads)
             count = xlsx_write(path=out, rows=rows, units=log.manifest["units"])
             export_finish(log_id=log.pk, row_count=count, sha256=file_sha256(out))
         log.refresh_from_db()
