@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 from django.db import transaction
 
@@ -29,6 +30,36 @@ DUE_FIELDS = [
     "inputs",
     "computed_at",
 ]
+
+
+FLAG_FIELDS = ["title", "reason", "checks", "since", "high_pressure", "computed_at"]
+
+
+def rows_replace(
+    *,
+    model: Any,
+    unit_ids: list[int],
+    rows: list[Any],
+    key: tuple[str, str],
+    update_fields: list[str],
+) -> None:
+    """Make the units' rows exactly ``rows``: delete the ones no longer produced, upsert the
+    rest on ``key`` (so a row keeps its id, and whatever points at it stays linked)."""
+    keep = {tuple(getattr(r, k) for k in key) for r in rows}
+    stale = [
+        pk
+        for pk, *values in model.objects.filter(unit_id__in=unit_ids).values_list("pk", *key)
+        if tuple(values) not in keep
+    ]
+    if stale:
+        model.objects.filter(pk__in=stale).delete()
+    if rows:
+        model.objects.bulk_create(
+            rows,
+            update_conflicts=True,
+            unique_fields=[k.removesuffix("_id") for k in key],
+            update_fields=update_fields,
+        )
 
 
 @dataclass(frozen=True)
@@ -91,47 +122,20 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             )
     ids = [b.unit.pk for b in batch.units]
     with transaction.atomic():
-        keep = {(i.component_id, i.task) for i in items}
-        stale = [
-            pk
-            for pk, comp, task in DueItem.objects.filter(unit_id__in=ids).values_list(
-                "pk", "component_id", "task"
-            )
-            if (comp, task) not in keep
-        ]
-        if stale:
-            DueItem.objects.filter(pk__in=stale).delete()
-        if items:
-            DueItem.objects.bulk_create(
-                items,
-                update_conflicts=True,
-                unique_fields=["component", "task"],
-                update_fields=DUE_FIELDS,
-            )
-        flag_keys = {(f.unit_id, f.code) for f in flags}
-        stale_flags = [
-            pk
-            for pk, unit_id, code in UnitFlag.objects.filter(unit_id__in=ids).values_list(
-                "pk", "unit_id", "code"
-            )
-            if (unit_id, code) not in flag_keys
-        ]
-        if stale_flags:
-            UnitFlag.objects.filter(pk__in=stale_flags).delete()
-        if flags:
-            UnitFlag.objects.bulk_create(
-                flags,
-                update_conflicts=True,
-                unique_fields=["unit", "code"],
-                update_fields=[
-                    "title",
-                    "reason",
-                    "checks",
-                    "since",
-                    "high_pressure",
-                    "computed_at",
-                ],
-            )
+        rows_replace(
+            model=DueItem,
+            unit_ids=ids,
+            rows=items,
+            key=("component_id", "task"),
+            update_fields=DUE_FIELDS,
+        )
+        rows_replace(
+            model=UnitFlag,
+            unit_ids=ids,
+            rows=flags,
+            key=("unit_id", "code"),
+            update_fields=FLAG_FIELDS,
+        )
     return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))
 
 
