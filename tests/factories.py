@@ -9,8 +9,8 @@ from typing import Any
 from django.contrib.auth.models import Group, User
 
 from fleetfuel.accounts.models import Profile
+from fleetfuel.fleet.actions import unit_fuel_system_fit
 from fleetfuel.fleet.models import (
-    Component,
     ComponentKind,
     FuelSource,
     ServicePlan,
@@ -105,53 +105,12 @@ def unit_make(
         cylinders=cylinders,
         in_service_on=date(2020, 1, 1),
     )
-    installed = installed_on or date(2026, 1, 1)
-    rows = [
-        Component(
-            unit=unit,
-            kind=ComponentKind.PRIMARY_FILTER,
-            rating_um=10,
-            installed_on=installed,
-            installed_hours=1000,
-        ),
-        Component(
-            unit=unit,
-            kind=ComponentKind.FINE_FILTER,
-            rating_um=4,
-            installed_on=installed,
-            installed_hours=1000,
-        ),
-        Component(
-            unit=unit, kind=ComponentKind.RELIEF_VALVE, installed_on=installed, installed_hours=0
-        ),
-        Component(
-            unit=unit,
-            kind=ComponentKind.HIGH_PRESSURE_PUMP,
-            installed_on=installed,
-            installed_hours=0,
-        ),
-    ]
-    for cyl in range(1, cylinders + 1):
-        rows.append(
-            Component(
-                unit=unit,
-                kind=ComponentKind.INJECTOR,
-                position=cyl,
-                serial=f"I{n}-{cyl}",
-                installed_on=installed,
-                installed_hours=0,
-            )
-        )
-        rows.append(
-            Component(
-                unit=unit,
-                kind=ComponentKind.HP_CONNECTOR,
-                position=cyl,
-                installed_on=installed,
-                installed_hours=0,
-            )
-        )
-    Component.objects.bulk_create(rows)
+    unit_fuel_system_fit(
+        unit=unit,
+        installed_on=installed_on or date(2026, 1, 1),
+        filters_installed_hours=1000,
+        serial=lambda kind, cyl: f"I{n}-{cyl}" if kind == ComponentKind.INJECTOR else "",
+    )
     return unit
 
 

@@ -172,3 +172,35 @@ def test_site_time_zone_is_checked(db: Any) -> None:
     site.time_zone = "Mars/Olympus"
     with pytest.raises(ValidationError, match="time zone"):
         site.full_clean()
+
+
+def test_fitting_a_unit_gives_every_part_once_and_per_cylinder_parts_per_cylinder(
+    site: Any, unit_class: Any
+) -> None:
+    from fleetfuel.fleet.actions import unit_fuel_system_fit
+
+    unit = Unit.objects.create(
+        site=site,
+        unit_class=unit_class,
+        fleet_number="FIT-1",
+        make="M",
+        model="X",
+        serial_number="S",
+        year=2020,
+        cylinders=8,
+        in_service_on=date(2020, 1, 1),
+    )
+    parts = unit_fuel_system_fit(
+        unit=unit,
+        installed_on=date(2020, 1, 1),
+        filters_installed_on=date(2026, 5, 1),
+        filters_installed_hours=4200,
+    )
+    kinds = [p.kind for p in parts]
+    # Nine single parts plus an injector and a high-pressure connector per cylinder.
+    assert len(parts) == 9 + 2 * 8 == len({(p.kind, p.position) for p in parts})
+    assert kinds.count(ComponentKind.INJECTOR) == kinds.count(ComponentKind.HP_CONNECTOR) == 8
+    fine = next(p for p in parts if p.kind == ComponentKind.FINE_FILTER)
+    rail = next(p for p in parts if p.kind == ComponentKind.RAIL)
+    assert (fine.installed_on, fine.installed_hours) == (date(2026, 5, 1), 4200)
+    assert (rail.installed_on, rail.installed_hours) == (date(2020, 1, 1), 0)

@@ -9,8 +9,8 @@ from django.contrib.auth.models import Group, User
 
 from fleetfuel.accounts.models import Profile, Role
 
+from ..actions import unit_fuel_system_fit
 from ..models import (
-    Component,
     ComponentKind,
     Fueling,
     FuelSample,
@@ -28,6 +28,7 @@ from .scenario import (
     CLASSES,
     DEMO_PASSWORD,
     HISTORY_DAYS,
+    PART_NUMBERS,
     PREFIX,
     SEED,
     SITES,
@@ -186,67 +187,23 @@ class FleetBuilder:
                     self._components(unit, class_key)
 
     def _components(self, unit: Unit, class_key: str) -> None:
-        start = self.start
-        rows = [
-            Component(
-                unit=unit,
-                kind=ComponentKind.PRIMARY_FILTER,
-                part_number="HV-PF10",
-                rating_um=10,
-                installed_on=start,
-                installed_hours=0,
-            ),
-            Component(
-                unit=unit,
-                kind=ComponentKind.FINE_FILTER,
-                part_number="HV-FF04",
-                rating_um=4,
-                installed_on=start,
-                installed_hours=0,
-            ),
-        ]
-        for kind in (
-            ComponentKind.LIFT_PUMP,
-            ComponentKind.LOW_PRESSURE_PUMP,
-            ComponentKind.METERING_ACTUATOR,
-            ComponentKind.HIGH_PRESSURE_PUMP,
-            ComponentKind.RAIL,
-            ComponentKind.RELIEF_VALVE,
-            ComponentKind.DRAIN_CHECK_VALVE,
-        ):
-            rows.append(
-                Component(
-                    unit=unit,
-                    kind=kind,
-                    part_number=f"HV-{kind[:3].upper()}1",
-                    serial=f"S{self.rng.randrange(10**6, 10**7)}",
-                    installed_on=unit.in_service_on,
-                    installed_hours=0,
-                )
-            )
-        for cyl in range(1, unit.cylinders + 1):
-            rows.append(
-                Component(
-                    unit=unit,
-                    kind=ComponentKind.INJECTOR,
-                    position=cyl,
-                    part_number="HV-INJ7",
-                    serial=f"INJ{self.rng.randrange(10**6, 10**7)}",
-                    installed_on=unit.in_service_on,
-                    installed_hours=0,
-                )
-            )
-            rows.append(
-                Component(
-                    unit=unit,
-                    kind=ComponentKind.HP_CONNECTOR,
-                    position=cyl,
-                    part_number="HV-HPC2",
-                    installed_on=unit.in_service_on,
-                    installed_hours=0,
-                )
-            )
-        Component.objects.bulk_create(rows)
+        def serial(kind: str, cylinder: int | None) -> str:
+            if kind in {
+                ComponentKind.PRIMARY_FILTER,
+                ComponentKind.FINE_FILTER,
+                ComponentKind.HP_CONNECTOR,
+            }:
+                return ""
+            prefix = "INJ" if kind == ComponentKind.INJECTOR else "S"
+            return f"{prefix}{self.rng.randrange(10**6, 10**7)}"
+
+        unit_fuel_system_fit(
+            unit=unit,
+            installed_on=unit.in_service_on,
+            filters_installed_on=self.start,
+            part_numbers=PART_NUMBERS,
+            serial=serial,
+        )
 
     # ---- fuel quality ---------------------------------------------------------------
     def samples(self) -> None:

@@ -71,3 +71,19 @@ CLASS_LETTER = {"hauler": "H", "loader": "L", "excavator": "X", "genset": "G", "
 
 def at_utc(day: date, hour: int, minute: int = 0) -> datetime:
     return datetime.combine(day, time(hour, minute), tzinfo=UTC)
+
+
+# Invented part numbers of the demo's parts supplier.
+PART_NUMBERS = {
+    "primary_filter": "HV-PF10",
+    "fine_filter": "HV-FF04",
+    "lift_pump": "HV-LIF1",
+    "low_pressure_pump": "HV-LOW1",
+    "metering_actuator": "HV-MET1",
+    "high_pressure_pump": "HV-HIG1",
+    "rail": "HV-RAI1",
+    "relief_valve": "HV-REL1",
+    "injector": "HV-INJ7",
+    "hp_connector": "HV-HPC2",
+    "drain_check_valve": "HV-DRA1",
+}
