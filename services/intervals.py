@@ -241,7 +241,7 @@ def filter_projection(
 
     # Explanation, most important first.
     explanation = [
-        _governs_sentence(basis, due, plan, plan_hours, calendar),
+        _governs_sentence(basis, due, plan, plan_hours, calendar, percent_used),
         _band_sentence(due),
         f"{percent_used:.0f} % of the filter's contaminant budget is used since the change "
         f"at {fmt_hours(last_change_hours)} on {last_change_at.date().isoformat()}.",
@@ -320,10 +320,20 @@ def filter_projection(
 
 
 def _governs_sentence(
-    basis: Basis, due: DueDate, plan: FilterPlan, plan_hours: float, calendar: date
+    basis: Basis,
+    due: DueDate,
+    plan: FilterPlan,
+    plan_hours: float,
+    calendar: date,
+    percent_used: float,
 ) -> str:
     at = fmt_hours(due.hours) if due.hours is not None else ""
     interval = f"the plan's {fmt_hours(plan.interval_hours)} interval ({fmt_hours(plan_hours)})"
+    if basis is Basis.CONTAMINANT_BUDGET and percent_used >= 100:
+        return (
+            f"Due at {at} by contaminant loading: the filter has already taken the dirt it is "
+            f"rated for ({percent_used:.0f} % of its budget), before {interval}."
+        )
     if basis is Basis.CONTAMINANT_BUDGET:
         return f"Due at {at} by contaminant loading, before {interval}."
     if basis is Basis.FUEL_VOLUME:

@@ -474,3 +474,15 @@ def test_never_later_than_the_plan(current: float, past: float, **kw: object) ->
     assert p.due.earliest <= p.due.on <= p.due.latest
     if p.due.hours is not None:
         assert p.due.hours <= CHANGED_HOURS + 500.0
+
+
+def test_exhausted_budget_says_so_in_words() -> None:
+    # Plan budget: 500 h x 30 L/h = 15,000 reference-litres. 4,000 L at 4x the reference
+    # (two ISO 4406 steps, Table 1) = 16,000 -> 107 % used: the filter is due now.
+    p = project(
+        loadings=[reference_loading(litres=4_000.0, conc=4 * CODE_18_UPPER)],
+        current_concentration_per_ml=4 * CODE_18_UPPER,
+    )
+    assert p.basis is Basis.CONTAMINANT_BUDGET
+    assert "already taken the dirt it is rated for (107 % of its budget)" in p.explanation[0]
+    assert p.status is DueStatus.OVERDUE
