@@ -12,7 +12,7 @@ from services.common import DueStatus
 
 from .engine import unit_compute
 from .inputs import batch_inputs_load
-from .models import DueItem, ProjectionRun, UnitFlag
+from .models import DueItem, UnitFlag
 
 STATUS_RANK = {DueStatus.OVERDUE: 0, DueStatus.DUE: 1, DueStatus.SOON: 2, DueStatus.OK: 3}
 DUE_FIELDS = [
@@ -137,7 +137,3 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             update_fields=FLAG_FIELDS,
         )
     return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))
-
-
-def projection_run_start(*, now: datetime, trigger: str) -> ProjectionRun:
-    return ProjectionRun.objects.create(started_at=now, trigger=trigger)

@@ -10,9 +10,8 @@ from __future__ import annotations
 from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
-from typing import Any
 
-from django.db.models import OuterRef, Subquery
+from django.db.models import OuterRef, Subquery, Sum
 
 from fleetfuel.fleet.models import (
     Component,
@@ -60,7 +59,7 @@ class BatchInputs:
 
 
 def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
-    """Eleven queries for any number of units (each named below)."""
+    """Twelve queries for any number of units (each named below)."""
     since = now - timedelta(days=LOOKBACK_DAYS)
     window_start = now - timedelta(days=FORECAST_WINDOW_DAYS)
     latest = MeterReading.objects.filter(unit_id=OuterRef("pk")).order_by("-taken_at")
@@ -91,9 +90,7 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
         bundles[comp.unit_id].filters[comp.kind] = comp
     # 3. service plans of the classes in the batch
     plans_by_class: dict[int, dict[str, ServicePlan]] = defaultdict(dict)
-    for plan in ServicePlan.objects.filter(
-        unit_class_id__in={u.unit_class_id for u in units}
-    ).prefetch_related(None):
+    for plan in ServicePlan.objects.filter(unit_class_id__in={u.unit_class_id for u in units}):
         plans_by_class[plan.unit_class_id][plan.component_kind] = plan
     for b in bundles.values():
         b.plans = plans_by_class.get(b.unit.unit_class_id, {})
@@ -145,8 +142,6 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     ).order_by("unit_id", "occurred_at"):
         bundles[e.unit_id].events.append(e)
     # 10. lifetime relief-valve openings per unit
-    from django.db.models import Sum
-
     for unit_id, total in (
         EngineEvent.objects.filter(
             unit_id__in=ids, kind=EngineEvent.Kind.RELIEF_VALVE_OPENED, occurred_at__lte=now
@@ -169,7 +164,3 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     return BatchInputs(
         units=[bundles[i] for i in ids], source_samples=source_samples, sources=sources
     )
-
-
-def units_values(**filters: Any) -> list[int]:
-    return list(Unit.objects.filter(**filters).order_by("pk").values_list("pk", flat=True))

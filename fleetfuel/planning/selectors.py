@@ -13,6 +13,7 @@ from typing import Any
 
 from django import forms
 from django.db.models import Count, Exists, OuterRef, QuerySet
+from django.shortcuts import get_object_or_404
 
 from fleetfuel.fleet.models import Site, UnitClass
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
@@ -123,8 +124,6 @@ def due_page(*, site_ids: list[int], data: dict[str, Any], today: date) -> DuePa
 
 
 def due_item_for_user(*, site_ids: list[int], pk: int) -> DueItem:
-    from django.shortcuts import get_object_or_404
-
     return get_object_or_404(
         DueItem.objects.select_related("unit", "unit__site", "component"),
         pk=pk,
