@@ -52,3 +52,14 @@ def test_demo_contaminated_deliveries_lead_the_due_list(db: Any, client: Any) ->
     client.force_login(User.objects.get(username="manager"))
     first = client.get(reverse("planning:due_list")).context["page"].items[:10]
     assert all(i.site.code in {"kestrel", "mill-lane"} for i in first)
+
+
+def test_demo_ledger_verifies_against_its_checkpoints(db: Any) -> None:
+    from io import StringIO
+
+    call_command("seed_demo")
+    out = StringIO()
+    call_command("verify_ledger", stdout=out)
+    # Every unit with history has a signed checkpoint of its head from the start.
+    assert "48 unit chain(s)" in out.getvalue()
+    assert "0 agree with their signed checkpoint" not in out.getvalue()

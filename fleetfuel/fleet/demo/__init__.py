@@ -30,6 +30,7 @@ def demo_seed(*, anchor: date) -> bool:
     """Build the demo fleet unless it is already there. Returns True when it built it."""
     if Site.objects.filter(code="kestrel").exists():
         return False
+    from fleetfuel.ledger.checkpoints import chain_checkpoints_record
     from fleetfuel.planning.actions import due_items_recompute
 
     with transaction.atomic():
@@ -40,4 +41,7 @@ def demo_seed(*, anchor: date) -> bool:
             unit_ids=[u.pk for u in builder.units.values()],
             now=datetime.combine(anchor, time(6, 0), tzinfo=UTC),
         )
+        # The beat would checkpoint every chain head within 15 minutes; the demo starts with
+        # them, so verify_ledger has signed heads to compare against from the first run.
+        chain_checkpoints_record(now=datetime.combine(anchor, time(6, 0), tzinfo=UTC))
     return True
