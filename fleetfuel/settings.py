@@ -92,6 +92,8 @@ INSTALLED_APPS = [
     "fleetfuel.planning",
     "fleetfuel.workorders",
     "fleetfuel.ledger",
+    "fleetfuel.pages",
+    "fleetfuel.demo",
 ]
 
 MIDDLEWARE = [
@@ -153,6 +155,9 @@ AUTH_PASSWORD_VALIDATORS = [
     {"NAME": "django.contrib.auth.password_validation.CommonPasswordValidator"},
     {"NAME": "django.contrib.auth.password_validation.NumericPasswordValidator"},
 ]
+if TESTING:
+    # Django's default hasher is deliberately slow (about 1.7 s a user here); tests make many.
+    PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
 LOGIN_URL = "accounts:login"
 LOGIN_REDIRECT_URL = "accounts:home"
 LOGOUT_REDIRECT_URL = "accounts:login"

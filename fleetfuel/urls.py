@@ -3,6 +3,8 @@ from django.urls import include, path
 
 urlpatterns = [
     path("", include("fleetfuel.accounts.urls")),
+    # Composed pages first: they own some paths under /due/, /fleet/ and /history/.
+    path("", include("fleetfuel.pages.urls")),
     path("due/", include("fleetfuel.planning.urls")),
     path("fleet/", include("fleetfuel.fleet.urls")),
     path("work/", include("fleetfuel.workorders.urls")),
