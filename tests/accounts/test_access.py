@@ -41,7 +41,7 @@ def named_patterns() -> list[tuple[str, list[str]]]:
 
 def test_our_apps_have_urls() -> None:
     names = {n for n, _ in named_patterns()}
-    assert {"accounts:home", "planning:due_list", "fleet:unit_list"} <= names
+    assert {"accounts:home", "planning:due_list", "pages:unit_list"} <= names
 
 
 @pytest.mark.django_db
