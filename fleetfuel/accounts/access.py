@@ -28,6 +28,7 @@ ViewFunc = TypeVar("ViewFunc", bound=Callable[..., HttpResponse])
 
 READERS = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
 WRITERS = (Role.MANAGER, Role.MECHANIC)
+EXPORTERS = (Role.MANAGER, Role.AUDITOR)
 
 
 def model_get(app_label: str, name: str) -> Any:
@@ -174,7 +175,7 @@ def export_log_for_user(user: Any, pk: int) -> Any:
     """An export of the history, to those who export (managers and auditors; 403 for a
     mechanic). A manager may have every export; anyone else only their own (404 otherwise).
     An export spans the sites its maker could see when it was made, so no site rule applies."""
-    role_check(user, (Role.MANAGER, Role.AUDITOR), refusal="Your role does not export.")
+    role_check(user, EXPORTERS, refusal="Your role does not export.")
     log = get_object_or_404(model_get("ledger", "ExportLog"), pk=pk)
     if user_role(user) != Role.MANAGER and log.requested_by_id != user.pk:
         raise Http404("No such export.")
