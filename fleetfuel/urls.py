@@ -6,7 +6,6 @@ urlpatterns = [
     # Composed pages first: they own some paths under /due/, /fleet/ and /history/.
     path("", include("fleetfuel.pages.urls")),
     path("due/", include("fleetfuel.planning.urls")),
-    path("fleet/", include("fleetfuel.fleet.urls")),
     path("work/", include("fleetfuel.workorders.urls")),
     path("history/", include("fleetfuel.ledger.urls")),
     path("admin/", admin.site.urls),

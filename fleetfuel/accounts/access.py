@@ -3,6 +3,10 @@
 A person's role is the Django group they belong to (manager, mechanic or auditor).
 Managers and auditors see every site unless their profile names some; mechanics see
 only the sites they are assigned to.
+
+Each ``*_for_user`` helper returns one object if the person may have it, and says its rule:
+403 when the person's role may not have such an object at all, 404 when the object is at a
+site they may not see (the answer gives no hint that it exists).
 """
 
 from __future__ import annotations
@@ -11,14 +15,31 @@ from collections.abc import Callable
 from functools import wraps
 from typing import Any, TypeVar
 
+from django.apps import apps
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db.models import QuerySet
-from django.http import HttpRequest, HttpResponse
+from django.http import Http404, HttpRequest, HttpResponse
+from django.shortcuts import get_object_or_404
 
 from .models import Role
 
 ViewFunc = TypeVar("ViewFunc", bound=Callable[..., HttpResponse])
+
+READERS = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
+WRITERS = (Role.MANAGER, Role.MECHANIC)
+EXPORTERS = (Role.MANAGER, Role.AUDITOR)
+
+
+def model_get(app_label: str, name: str) -> Any:
+    """A model of a higher app, named by its label and looked up when a request is served.
+
+    accounts is the lowest app and imports no other app of the project (a lower app never
+    imports a higher one). Its helpers still return units, work orders and due items, so they
+    name those models through Django's app registry, as Django's auth names the user model
+    through ``get_user_model()``: at call time, when every app is loaded.
+    """
+    return apps.get_model(app_label, name)
 
 
 def user_role(user: Any) -> str | None:
@@ -34,6 +55,12 @@ def user_role(user: Any) -> str | None:
     return role
 
 
+def role_check(user: Any, roles: tuple[str, ...], *, refusal: str) -> None:
+    """403 (with ``refusal`` as the reason) unless the user has one of ``roles``."""
+    if user_role(user) not in roles:
+        raise PermissionDenied(refusal)
+
+
 def role_required(*roles: str) -> Callable[[ViewFunc], ViewFunc]:
     """Login required; then 403 unless the user has one of ``roles``."""
 
@@ -41,8 +68,7 @@ def role_required(*roles: str) -> Callable[[ViewFunc], ViewFunc]:
         @login_required
         @wraps(view)
         def wrapped(request: HttpRequest, *args: Any, **kwargs: Any) -> HttpResponse:
-            if user_role(request.user) not in roles:
-                raise PermissionDenied("Your role does not give access to this page.")
+            role_check(request.user, roles, refusal="Your role does not give access to this page.")
             return view(request, *args, **kwargs)
 
         return wrapped  # type: ignore[return-value]
@@ -50,21 +76,26 @@ def role_required(*roles: str) -> Callable[[ViewFunc], ViewFunc]:
     return decorator
 
 
+def require_write(user: Any) -> None:
+    """Auditors read; they never write."""
+    role_check(user, WRITERS, refusal="Your role is read-only.")
+
+
 def sites_for_user(user: Any) -> QuerySet[Any]:
     """The sites a person may see."""
-    from fleetfuel.fleet.models import Site
-
+    site = model_get("fleet", "Site")
     role = user_role(user)
     if role is None:
-        return Site.objects.none()
-    assigned = Site.objects.filter(staff__user=user)
+        return site.objects.none()  # type: ignore[no-any-return]
+    assigned = site.objects.filter(staff__user=user)
     if role == Role.MECHANIC:
-        return assigned
+        return assigned  # type: ignore[no-any-return]
     # Managers and auditors: their named sites, or all when none are named.
-    return assigned if assigned.exists() else Site.objects.all()
+    return assigned if assigned.exists() else site.objects.all()  # type: ignore[no-any-return]
 
 
 def site_ids_for_user(user: Any) -> list[int]:
+    """The ids of the sites a person may see. Cached on the user object for the request."""
     cached = getattr(user, "_fleetfuel_site_ids", None)
     if cached is None:
         cached = list(sites_for_user(user).values_list("id", flat=True))
@@ -72,20 +103,80 @@ def site_ids_for_user(user: Any) -> list[int]:
     return cached  # type: ignore[no-any-return]
 
 
+def _access_check(user: Any, *, write: bool) -> None:
+    if write:
+        require_write(user)
+    else:
+        role_check(user, READERS, refusal="Your account has no role yet; ask a fleet manager.")
+
+
 def unit_for_user(user: Any, pk: int) -> Any:
-    """The unit, if the user may see it: 404 otherwise (no hint that it exists)."""
-    from django.shortcuts import get_object_or_404
-
-    from fleetfuel.fleet.models import Unit
-
+    """The unit, to any role, at a site the user may see: 404 otherwise."""
+    _access_check(user, write=False)
+    unit = model_get("fleet", "Unit")
     return get_object_or_404(
-        Unit.objects.select_related("site", "unit_class"),
+        unit.objects.select_related("site", "unit_class"),
         pk=pk,
         site_id__in=site_ids_for_user(user),
     )
 
 
-def require_write(user: Any) -> None:
-    """Auditors read; they never write."""
-    if user_role(user) not in (Role.MANAGER, Role.MECHANIC):
-        raise PermissionDenied("Your role is read-only.")
+def work_order_for_user(user: Any, pk: int, *, write: bool = False) -> Any:
+    """The work order at a site the user may see (404 otherwise). Any role reads it; to write
+    (``write=True``) the role must be a manager's or a mechanic's (403 for an auditor)."""
+    _access_check(user, write=write)
+    work_order = model_get("workorders", "WorkOrder")
+    return get_object_or_404(
+        work_order.objects.select_related(
+            "unit__site", "unit__unit_class", "assigned_to", "closed_by", "override_by"
+        ),
+        pk=pk,
+        unit__site_id__in=site_ids_for_user(user),
+    )
+
+
+def task_for_user(user: Any, pk: int, *, write: bool = False) -> Any:
+    """A work-order task, under the rule of its work order (see ``work_order_for_user``)."""
+    _access_check(user, write=write)
+    task = model_get("workorders", "WorkOrderTask")
+    return get_object_or_404(
+        task.objects.select_related("work_order__unit__site", "component", "not_done_by"),
+        pk=pk,
+        work_order__unit__site_id__in=site_ids_for_user(user),
+    )
+
+
+def due_item_for_user(user: Any, pk: int) -> Any:
+    """A due item, to a manager (403 for other roles: the due list is the manager's planning;
+    mechanics and auditors see due items on the unit page and the work order), at a site the
+    manager may see (404 otherwise)."""
+    role_check(user, (Role.MANAGER,), refusal="Due items are planned by fleet managers.")
+    due_item = model_get("planning", "DueItem")
+    return get_object_or_404(
+        due_item.objects.select_related("unit", "unit__site", "component"),
+        pk=pk,
+        site_id__in=site_ids_for_user(user),
+    )
+
+
+def service_event_for_user(user: Any, pk: int) -> Any:
+    """An entry of the service history, to any role, for a unit at a site the user may see
+    (404 otherwise). Who may correct it is the correction view's rule (managers only)."""
+    _access_check(user, write=False)
+    event = model_get("ledger", "ServiceEvent")
+    return get_object_or_404(
+        event.objects.select_related("unit", "unit__site", "work_order"),
+        pk=pk,
+        unit__site_id__in=site_ids_for_user(user),
+    )
+
+
+def export_log_for_user(user: Any, pk: int) -> Any:
+    """An export of the history, to those who export (managers and auditors; 403 for a
+    mechanic). A manager may have every export; anyone else only their own (404 otherwise).
+    An export spans the sites its maker could see when it was made, so no site rule applies."""
+    role_check(user, EXPORTERS, refusal="Your role does not export.")
+    log = get_object_or_404(model_get("ledger", "ExportLog"), pk=pk)
+    if user_role(user) != Role.MANAGER and log.requested_by_id != user.pk:
+        raise Http404("No such export.")
+    return log

@@ -1,15 +1,19 @@
-"""Starting, finishing and describing an export: the ExportLog row and its manifest."""
+"""Starting, finishing and describing an export: the ExportLog row and its manifest.
+
+The manifest names each unit's scheduled tasks (49 CFR 396.3(b)(2): "the nature and due date
+of the various inspection and maintenance operations"). They are planning's due items, which
+the ledger does not read: the caller passes them in, as plain dicts (see ``export_start``).
+"""
 
 from __future__ import annotations
 
 import json
-from collections import defaultdict
+from collections.abc import Mapping
 from datetime import datetime
 from typing import Any
 
 from django.utils import timezone
 
-from fleetfuel.planning.models import DueItem
 from services.ledger import GENESIS
 
 from .actions import CONTENT_FIELDS
@@ -50,45 +54,24 @@ def _unit_entry(unit: Any, scheduled: list[dict[str, Any]]) -> dict[str, Any]:
     }
 
 
-def _scheduled_by_unit(scope: HistoryScope) -> dict[int, list[dict[str, Any]]]:
-    """49 CFR 396.3(b)(2): the nature and due date of each scheduled task, per unit."""
-    labels = dict(DueItem.Task.choices)
-    found: dict[int, list[dict[str, Any]]] = defaultdict(list)
-    rows = (
-        DueItem.objects.filter(unit__in=scope.units().values("pk"))
-        .order_by("unit_id", "due_on", "task")
-        .values("unit_id", "task", "component_id", "due_on", "due_hours", "status")
-    )
-    for row in rows.iterator(chunk_size=2000):
-        found[row["unit_id"]].append(
-            {
-                "task": row["task"],
-                "label": labels.get(row["task"], row["task"]),
-                "component_id": row["component_id"],
-                "due_on": row["due_on"].isoformat(),
-                "due_hours": row["due_hours"],
-                "status": row["status"],
-            }
-        )
-    return found
-
-
 def export_start(
     *,
     scope: HistoryScope,
     fmt: str,
     via: str,
     user: Any,
+    scheduled: Mapping[int, list[dict[str, Any]]],
     file_name: str = "",
     now: datetime | None = None,
 ) -> tuple[ExportLog, dict[int, int]]:
     """Log the export and note each unit's chain head; return the log and {unit id: head seq}.
 
     The rows exported stop at these heads, so entries appended during a long export do not
-    make the file disagree with its manifest.
+    make the file disagree with its manifest. ``scheduled`` maps a unit id to the unit's
+    scheduled tasks, each ``{"task", "label", "component_id", "due_on" (ISO date),
+    "due_hours", "status"}``, soonest first; a unit missing from it has none.
     """
     now = now or timezone.now()
-    scheduled = _scheduled_by_unit(scope)
     units = (
         units_with_heads(scope.units())
         .select_related("site")

@@ -10,6 +10,8 @@ from django.conf import settings
 from django.db import models
 from django.db.models import Q
 
+from fleetfuel.fleet.models import ComponentKind
+
 
 class LedgerImmutableError(Exception):
     """Raised on any attempt to change or remove a recorded service event."""
@@ -112,8 +114,6 @@ class ServiceEvent(models.Model):
 
     @property
     def component_kind_label(self) -> str:
-        from fleetfuel.fleet.models import ComponentKind
-
         if self.component_kind in ComponentKind.values:
             return str(ComponentKind(self.component_kind).label)
         return self.component_kind

@@ -8,6 +8,7 @@ from typing import Any
 
 from django.db.models import Exists, OuterRef, Q, QuerySet
 
+from fleetfuel.accounts.access import site_ids_for_user
 from fleetfuel.fleet.models import Site, Unit
 
 from .models import ExportLog, ServiceEvent
@@ -68,6 +69,12 @@ class HistoryScope:
         if with_kind and self.kind:
             events = events.filter(kind=self.kind)
         return events
+
+
+def filter_sites(*, user: Any) -> QuerySet[Site]:
+    """The sites a person may pick in the history's filters and exports, from the site ids
+    cached on the user for the request."""
+    return Site.objects.filter(pk__in=site_ids_for_user(user))
 
 
 def cursor_make(event: ServiceEvent) -> str:

@@ -1,3 +1,6 @@
+"""The service history, its corrections and the export log. The exports themselves and their
+manifests are composed above the ledger: see fleetfuel/pages/urls.py (history/exports/...)."""
+
 from django.urls import path
 
 from . import views
@@ -7,7 +10,5 @@ urlpatterns = [
     path("", views.history, name="history"),
     path("<int:pk>/correct/", views.correct, name="correct"),
     path("exports/", views.exports, name="exports"),
-    path("exports/new/", views.export, name="export"),
     path("exports/recent/", views.exports_recent, name="exports_recent"),
-    path("exports/<int:pk>/manifest/", views.export_manifest, name="export_manifest"),
 ]

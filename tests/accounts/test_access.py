@@ -2,10 +2,22 @@
 
 from __future__ import annotations
 
+from datetime import timedelta
 from typing import Any
 
 import pytest
+from django.core.exceptions import PermissionDenied
+from django.http import Http404
 from django.urls import URLPattern, URLResolver, get_resolver, reverse
+
+from fleetfuel.accounts import access
+from fleetfuel.ledger.models import ExportLog
+from fleetfuel.planning.actions import due_items_recompute
+from fleetfuel.planning.models import DueItem
+from fleetfuel.workorders.models import WorkOrderTask
+from tests import factories as f
+from tests.ledger.conftest import events_add
+from tests.workorders.conftest import task_make, work_order_make
 
 PUBLIC = {"accounts:login", "accounts:logout", "accounts:healthz"}
 
@@ -29,7 +41,7 @@ def named_patterns() -> list[tuple[str, list[str]]]:
 
 def test_our_apps_have_urls() -> None:
     names = {n for n, _ in named_patterns()}
-    assert {"accounts:home", "planning:due_list", "fleet:unit_list"} <= names
+    assert {"accounts:home", "planning:due_list", "pages:unit_list"} <= names
 
 
 @pytest.mark.django_db
@@ -96,3 +108,126 @@ def test_login_page_renders_and_logs_in(client: Any, manager: Any) -> None:
 def test_healthz_answers_without_login(client: Any, db: Any) -> None:
     response = client.get(reverse("accounts:healthz"))
     assert response.status_code == 200 and response.content == b"ok"
+
+
+# --- The per-object access helpers (fleetfuel/accounts/access.py), called directly. ---------
+# Their rules: 403 when the role may not have such an object, 404 when it is at a site the
+# person may not see. Mechanics see only the sites they are assigned to.
+
+
+@pytest.fixture
+def objects(unit: Any, other_site: Any, unit_class: Any, manager: Any) -> dict[str, Any]:
+    """One of each object at North Depot (``unit``) and one at South Depot (``other_site``)."""
+    found: dict[str, Any] = {"here": {}, "there": {}}
+    there = f.unit_make(site=other_site, unit_class=unit_class, fleet_number="S-001")
+    due_items_recompute(unit_ids=[unit.pk, there.pk], now=f.NOW)
+    for key, target in (("here", unit), ("there", there)):
+        order = work_order_make(
+            unit=target,
+            created_by=manager,
+            due_on=f.NOW.date() + timedelta(days=1),
+            created_at=f.NOW,
+        )
+        found[key] = {
+            "unit": target,
+            "work_order": order,
+            "task": task_make(order, WorkOrderTask.Kind.SEPARATOR_DRAIN),
+            "due_item": DueItem.objects.filter(unit=target).first(),
+            "service_event": events_add(target, manager, 1)[0],
+        }
+        assert found[key]["due_item"] is not None, "the recompute projects the unit's plans"
+    return found
+
+
+HELPERS = {
+    "unit": access.unit_for_user,
+    "work_order": access.work_order_for_user,
+    "task": access.task_for_user,
+    "due_item": access.due_item_for_user,
+    "service_event": access.service_event_for_user,
+}
+
+
+def outcome(call: Any) -> Any:
+    """What a view would answer: the object, 403 or 404."""
+    try:
+        return call()
+    except PermissionDenied:
+        return 403
+    except Http404:
+        return 404
+
+
+@pytest.mark.parametrize("kind", sorted(HELPERS))
+def test_another_sites_object_is_not_found(objects: dict[str, Any], site: Any, kind: str) -> None:
+    manager_here = f.user_make("manager", sites=[site])
+    mine, theirs = objects["here"][kind], objects["there"][kind]
+    assert outcome(lambda: HELPERS[kind](manager_here, mine.pk)) == mine
+    assert outcome(lambda: HELPERS[kind](manager_here, theirs.pk)) == 404
+    # A manager who names no site sees every site.
+    manager_everywhere = f.user_make("manager")
+    assert outcome(lambda: HELPERS[kind](manager_everywhere, theirs.pk)) == theirs
+
+
+@pytest.mark.parametrize("kind", ["unit", "work_order", "task", "service_event"])
+def test_mechanics_see_only_the_sites_they_are_assigned_to(
+    objects: dict[str, Any], site: Any, kind: str
+) -> None:
+    assigned = f.user_make("mechanic", sites=[site])
+    unassigned = f.user_make("mechanic")
+    mine, theirs = objects["here"][kind], objects["there"][kind]
+    assert outcome(lambda: HELPERS[kind](assigned, mine.pk)) == mine
+    assert outcome(lambda: HELPERS[kind](assigned, theirs.pk)) == 404
+    # Unlike a manager, a mechanic with no site named sees none.
+    assert outcome(lambda: HELPERS[kind](unassigned, mine.pk)) == 404
+
+
+def test_mechanic_site_ids_are_their_assignments(site: Any, other_site: Any) -> None:
+    assert access.site_ids_for_user(f.user_make("mechanic", sites=[site])) == [site.pk]
+    assert access.site_ids_for_user(f.user_make("mechanic")) == []
+    assert sorted(access.site_ids_for_user(f.user_make("auditor"))) == sorted(
+        [site.pk, other_site.pk]
+    )
+
+
+@pytest.mark.parametrize("kind", sorted(HELPERS))
+def test_a_person_without_a_role_is_refused(objects: dict[str, Any], kind: str) -> None:
+    nobody = f.user_make(None)
+    assert outcome(lambda: HELPERS[kind](nobody, objects["here"][kind].pk)) == 403
+
+
+@pytest.mark.parametrize("role", ["mechanic", "auditor"])
+def test_due_items_are_for_managers(objects: dict[str, Any], site: Any, role: str) -> None:
+    person = f.user_make(role, sites=[site])
+    item = objects["here"]["due_item"]
+    assert outcome(lambda: access.due_item_for_user(person, item.pk)) == 403
+
+
+@pytest.mark.parametrize("kind", ["work_order", "task"])
+def test_auditors_read_work_orders_but_never_write(
+    objects: dict[str, Any], site: Any, kind: str
+) -> None:
+    helper = HELPERS[kind]
+    auditor_here = f.user_make("auditor", sites=[site])
+    mechanic_here = f.user_make("mechanic", sites=[site])
+    mine, theirs = objects["here"][kind], objects["there"][kind]
+    assert outcome(lambda: helper(auditor_here, mine.pk)) == mine
+    assert outcome(lambda: helper(auditor_here, mine.pk, write=True)) == 403
+    assert outcome(lambda: helper(mechanic_here, mine.pk, write=True)) == mine
+    assert outcome(lambda: helper(mechanic_here, theirs.pk, write=True)) == 404
+
+
+def test_export_logs_are_the_makers_or_a_managers(
+    objects: dict[str, Any], auditor: Any, site: Any
+) -> None:
+    log = ExportLog.objects.create(
+        requested_by=auditor, requested_at=f.NOW, via="web", format="csv", file_name="x.csv"
+    )
+    other_auditor = f.user_make("auditor")
+    assert outcome(lambda: access.export_log_for_user(auditor, log.pk)) == log
+    assert outcome(lambda: access.export_log_for_user(other_auditor, log.pk)) == 404
+    # A manager has every export, even one made by a person of another site.
+    manager_here = f.user_make("manager", sites=[site])
+    assert outcome(lambda: access.export_log_for_user(manager_here, log.pk)) == log
+    mechanic_here = f.user_make("mechanic", sites=[site])
+    assert outcome(lambda: access.export_log_for_user(mechanic_here, log.pk)) == 403

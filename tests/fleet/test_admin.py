@@ -1,4 +1,4 @@
-"""The admin is the manager's door for fleet records: field-level errors, nothing half-saved."""
+"""The admin is the manager's door for the fleet's data: field-level errors, nothing half-saved."""
 
 from __future__ import annotations
 

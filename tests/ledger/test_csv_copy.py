@@ -196,7 +196,7 @@ def test_copy_export_gives_the_python_paths_bytes(
     ]
     checked = 0
     for n, scope in enumerate(scopes):
-        _, heads = export_start(scope=scope, fmt="csv", via="command", user=None)
+        _, heads = export_start(scope=scope, fmt="csv", via="command", user=None, scheduled={})
         # Appended after the heads were noted: left out both ways.
         service_event_append(unit=first, kind=ServiceEvent.Kind.INSPECTION, performed_at=f.NOW,
                              recorded_by=mechanic, notes=f"late {n}")  # fmt: skip
@@ -211,7 +211,7 @@ def test_copy_export_gives_the_python_paths_bytes(
         checked += len(rows) - 1
     assert checked > len(AWKWARD_FLOATS) * 2  # the scopes did select rows
 
-    _, heads = export_start(scope=scopes[0], fmt="csv", via="command", user=None)
+    _, heads = export_start(scope=scopes[0], fmt="csv", via="command", user=None, scheduled={})
     python_bytes, copy_bytes, _, _ = both_ways(scopes[0].events(with_kind=False), heads)
     assert copy_bytes == python_bytes
     # The awkward values did reach the file, as the csv module reads it back.
@@ -271,7 +271,7 @@ def test_web_and_command_exports_go_through_copy_on_postgres(
         return real(**kwargs)
 
     monkeypatch.setattr(csv_copy, "copy_csv_stream", spy)
-    response = as_auditor.post(reverse("ledger:export"), {"format": "csv"})
+    response = as_auditor.post(reverse("pages:export"), {"format": "csv"})
     web = b"".join(response.streaming_content)
     call_command("export_history", "--format", "csv", "--out", str(tmp_path / "x.csv"),
                  stdout=io.StringIO())  # fmt: skip
@@ -286,7 +286,7 @@ def test_copy_export_keeps_floats_exact_when_the_session_rounds_them(
     postgres: None, awkward_history: dict[str, Any]
 ) -> None:
     scope = HistoryScope(allowed_site_ids=None)
-    _, heads = export_start(scope=scope, fmt="csv", via="command", user=None)
+    _, heads = export_start(scope=scope, fmt="csv", via="command", user=None, scheduled={})
     python_bytes = b"".join(
         csv_stream(export_rows(events=scope.events(with_kind=False), heads=heads),
                    on_done=lambda n, digest: None)
@@ -309,7 +309,7 @@ def test_an_abandoned_copy_export_leaves_the_connection_usable(
     add_events(unit, mechanic, 5)
     monkeypatch.setattr(csv_copy, "FLUSH_BYTES", 1)  # a block per row
     scope = HistoryScope(allowed_site_ids=None)
-    log, heads = export_start(scope=scope, fmt="csv", via="command", user=None)
+    log, heads = export_start(scope=scope, fmt="csv", via="command", user=None, scheduled={})
     done: list[Any] = []
     stream = copy_csv_stream(
         events=scope.events(with_kind=False), heads=heads, on_done=lambda *a: done.append(a)

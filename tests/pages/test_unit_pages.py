@@ -22,7 +22,7 @@ def test_unit_list_query_count_is_flat(
     # 1 session, 2 user, 3 groups, 4 assigned sites (exists), 5 all site ids,
     # 6 paginator count, 7 one page of units with site, class and status counts.
     with django_assert_num_queries(7):
-        response = as_manager.get(reverse("fleet:unit_list"))
+        response = as_manager.get(reverse("pages:unit_list"))
     assert response.status_code == 200
     assert len(response.context["page"].object_list) == min(size, 50)
 
@@ -32,7 +32,7 @@ def test_unit_page_shows_flags_due_items_and_labelled_charts(as_manager: Any, un
     history_make(unit=unit, source=tank, days=40)
     sample_make(source=tank, at=f.NOW - timedelta(days=41), code="17/15/12", ref="S-1")
     due_items_recompute(unit_ids=[unit.pk], now=f.NOW)
-    page = as_manager.get(reverse("fleet:unit_detail", args=[unit.pk])).content.decode()
+    page = as_manager.get(reverse("pages:unit_detail", args=[unit.pk])).content.decode()
     for text in (
         "Due items",
         "Change pressure-side (fine) filter",
@@ -50,10 +50,10 @@ def test_unit_page_shows_flags_due_items_and_labelled_charts(as_manager: Any, un
 def test_unit_pages_follow_site_access(client: Any, unit: Any, other_site: Any) -> None:
     outsider = f.user_make("mechanic", sites=[other_site])
     client.force_login(outsider)
-    assert client.get(reverse("fleet:unit_detail", args=[unit.pk])).status_code == 404
-    listing = client.get(reverse("fleet:unit_list")).content.decode()
+    assert client.get(reverse("pages:unit_detail", args=[unit.pk])).status_code == 404
+    listing = client.get(reverse("pages:unit_list")).content.decode()
     assert unit.fleet_number not in listing
 
 
 def test_auditor_can_read_unit_pages(as_auditor: Any, unit: Any) -> None:
-    assert as_auditor.get(reverse("fleet:unit_detail", args=[unit.pk])).status_code == 200
+    assert as_auditor.get(reverse("pages:unit_detail", args=[unit.pk])).status_code == 200

@@ -1,8 +1,10 @@
-"""The fleet as the trade sees it: sites, units, fitted fuel-system components, service plans.
+"""The fleet as the trade sees it: sites, unit classes, units, fitted fuel-system components,
+service plans and the measurements a plan asks for.
 
 Everything is stored in SI units (bar gauge, litres, millilitres, degrees Celsius, engine
 hours) and converted for display by the site's preference (services.units).
-Readings, fuelings, samples and engine events live in fleet/records.py.
+What is observed of a unit over time (readings, fuelings, samples, engine events) lives in
+observations.py, which builds on this module.
 """
 
 from __future__ import annotations
@@ -14,6 +16,8 @@ from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.db.models import Q
 from django.db.models.functions import Coalesce
+
+from services.fuel_quality import parse_iso4406
 
 
 def validate_time_zone(value: str) -> None:
@@ -275,8 +279,6 @@ class ServicePlan(models.Model):
         return f"{self.unit_class}: {self.get_component_kind_display()}"
 
     def clean(self) -> None:
-        from services.fuel_quality import parse_iso4406
-
         try:
             parse_iso4406(self.reference_iso4406)
         except ValueError as exc:
@@ -317,32 +319,3 @@ class MeasurementLimit(models.Model):
 
     def __str__(self) -> str:
         return self.name
-
-
-# Records over time live in their own module; import them so Django registers them here.
-from .records import (  # noqa: E402
-    EngineEvent,
-    FilterPressureReading,
-    Fueling,
-    FuelSample,
-    FuelSource,
-    MeterReading,
-    MeterReplacement,
-)
-
-__all__ = [
-    "Component",
-    "ComponentKind",
-    "EngineEvent",
-    "FilterPressureReading",
-    "FuelSample",
-    "FuelSource",
-    "Fueling",
-    "MeasurementLimit",
-    "MeterReading",
-    "MeterReplacement",
-    "ServicePlan",
-    "Site",
-    "Unit",
-    "UnitClass",
-]

@@ -1,3 +1,5 @@
+"""The unit list and the unit page: thin views over pages/unit_page.py."""
+
 from __future__ import annotations
 
 from django.core.paginator import Paginator
@@ -6,26 +8,23 @@ from django.shortcuts import render
 from django.utils import timezone
 from django.views.decorators.http import require_GET
 
-from fleetfuel.accounts.access import role_required, site_ids_for_user, unit_for_user
-from fleetfuel.accounts.models import Role
+from fleetfuel.accounts.access import READERS, role_required, site_ids_for_user, unit_for_user
 from fleetfuel.fleet.models import HIGH_PRESSURE_KINDS
 
 from .charts import chart_svg
-from .selectors import unit_page, units_for_list
-
-ALL_ROLES = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
+from .unit_page import unit_page, units_for_list
 
 
-@role_required(*ALL_ROLES)
+@role_required(*READERS)
 @require_GET
 def unit_list(request: HttpRequest) -> HttpResponse:
     q = request.GET.get("q", "").strip()[:30]
     paginator = Paginator(units_for_list(site_ids=site_ids_for_user(request.user), q=q), 50)
     page = paginator.get_page(request.GET.get("page"))
-    return render(request, "fleet/unit_list.html", {"page": page, "q": q})
+    return render(request, "pages/unit_list.html", {"page": page, "q": q})
 
 
-@role_required(*ALL_ROLES)
+@role_required(*READERS)
 @require_GET
 def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
     unit = unit_for_user(request.user, pk)
@@ -33,7 +32,7 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
     charts = {name: chart_svg(chart) for name, chart in page.charts.items()}
     return render(
         request,
-        "fleet/unit_detail.html",
+        "pages/unit_detail.html",
         {
             "p": page,
             "unit": unit,

@@ -12,9 +12,10 @@ from django.db.models import Q
 from fleetfuel.fleet.models import Site
 from fleetfuel.ledger.csv_copy import history_csv_stream
 from fleetfuel.ledger.exports import export_rows, file_sha256, xlsx_write
-from fleetfuel.ledger.manifest import export_finish, export_start, manifest_bytes
+from fleetfuel.ledger.manifest import export_finish, manifest_bytes
 from fleetfuel.ledger.models import ExportLog
 from fleetfuel.ledger.selectors import HistoryScope
+from fleetfuel.pages.manifest import history_export_start
 
 
 def _date(text: str) -> date:
@@ -65,7 +66,7 @@ class Command(BaseCommand):
         out = Path(options["out"])
         if not out.parent.is_dir():
             raise CommandError(f"The folder {out.parent} does not exist.")
-        log, heads = export_start(
+        log, heads = history_export_start(
             scope=scope,
             fmt=options["format"],
             via=ExportLog.Via.COMMAND,

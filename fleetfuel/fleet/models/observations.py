@@ -1,4 +1,5 @@
-"""What happens to units over time: hour-meter readings, fuelings, fuel samples, engine events.
+"""What is observed of units over time: hour-meter readings and meter replacements, fuel
+sources and fuelings, fuel samples, engine events, filter differential pressures.
 
 These are the inputs of the interval engine. All are indexed for "by unit, by time" reads.
 """
@@ -10,7 +11,9 @@ from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.db.models import Q
 
-from .models import Component, Site, Unit
+from services.fuel_quality import codes_from_counts, format_iso4406, parse_iso4406
+
+from .assets import FILTER_KINDS, Component, Site, Unit
 
 
 class MeterReading(models.Model):
@@ -184,8 +187,6 @@ class FuelSample(models.Model):
         return f"{self.reference} ({self.iso4406 or 'counts'})"
 
     def clean(self) -> None:
-        from services.fuel_quality import codes_from_counts, format_iso4406, parse_iso4406
-
         counts = (self.count_4_per_ml, self.count_6_per_ml, self.count_14_per_ml)
         has_counts = self.count_6_per_ml is not None and self.count_14_per_ml is not None
         if self.iso4406.strip():
@@ -257,7 +258,5 @@ class FilterPressureReading(models.Model):
         return f"{self.component} {self.dp_bar:.2f} bar at {self.taken_at:%Y-%m-%d}"
 
     def clean(self) -> None:
-        from .models import FILTER_KINDS
-
         if self.component_id and self.component.kind not in FILTER_KINDS:
             raise ValidationError({"component": "Differential pressure is read across a filter."})

@@ -1,4 +1,5 @@
-"""Reads of the fleet app: the unit list and everything the unit page shows."""
+"""Reads for the unit list and the unit page, which show the fleet with its service history,
+due items and open work orders (ledger, planning and work orders, composed here)."""
 
 from __future__ import annotations
 
@@ -7,14 +8,7 @@ from datetime import datetime, timedelta
 
 from django.db.models import Count, Q, QuerySet
 
-from fleetfuel.ledger.models import ServiceEvent
-from fleetfuel.planning.models import DueItem, UnitFlag
-from fleetfuel.workorders.models import WorkOrder
-from services import usage
-from services.common import UsageForecast
-
-from .charts import Chart, Series
-from .models import (
+from fleetfuel.fleet.models import (
     FILTER_KINDS,
     Component,
     FilterPressureReading,
@@ -24,6 +18,13 @@ from .models import (
     MeterReplacement,
     Unit,
 )
+from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.planning.models import DueItem, UnitFlag
+from fleetfuel.workorders.models import WorkOrder
+from services import usage
+from services.common import UsageForecast
+
+from .charts import Chart, Series
 
 HISTORY_DAYS = 365
 
@@ -57,6 +58,7 @@ class UnitPage:
 
 
 def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
+    """Everything the unit page shows: a fixed number of queries, whatever the history."""
     since = now - timedelta(days=HISTORY_DAYS)
     components = list(unit.components.filter(removed_on__isnull=True).order_by("kind", "position"))
     flags = list(UnitFlag.objects.filter(unit=unit).order_by("code"))
@@ -73,6 +75,18 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
             "assigned_to"
         )
     )
+    engine, forecast = _hours_and_forecast(unit=unit, since=since, now=now)
+    charts = {"hours": _hours_chart(engine=engine, forecast=forecast, due_items=due_items, now=now)}
+    charts.update(_dp_charts(unit=unit, components=components, since=since))
+    charts["water"] = _drains_chart(unit=unit, since=since)
+    charts.update(_fuel_sample_charts(unit=unit, since=since))
+    return UnitPage(unit, components, flags, due_items, events, open_orders, forecast, charts)
+
+
+def _hours_and_forecast(
+    *, unit: Unit, since: datetime, now: datetime
+) -> tuple[list[tuple[datetime, float]], UsageForecast | None]:
+    """Engine hours over the chart's year (meter replacements applied) and the usage forecast."""
     readings = list(
         MeterReading.objects.filter(unit=unit, taken_at__gte=since, taken_at__lte=now)
         .order_by("taken_at")
@@ -96,7 +110,16 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
             now=now,
             class_rate=unit.unit_class.typical_hours_per_day,
         )
-    charts: dict[str, Chart] = {}
+    return engine, forecast
+
+
+def _hours_chart(
+    *,
+    engine: list[tuple[datetime, float]],
+    forecast: UsageForecast | None,
+    due_items: list[DueItem],
+    now: datetime,
+) -> Chart:
     hours_chart = Chart(title="Engine hours with forecast", y_label="engine hours (h)")
     hours_chart.series.append(Series(points=engine, css="series", label="recorded"))
     if forecast is not None and due_items:
@@ -122,7 +145,11 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
             )
             for t in steps
         ]
-    charts["hours"] = hours_chart
+    return hours_chart
+
+
+def _dp_charts(*, unit: Unit, components: list[Component], since: datetime) -> dict[str, Chart]:
+    """Differential pressure across each fitted filter since it was fitted, with its limit."""
     filters = {c.pk: c for c in components if c.kind in FILTER_KINDS}
     dp_rows: dict[int, list[tuple[datetime, float]]] = {pk: [] for pk in filters}
     for comp_id, at, dp in (
@@ -133,6 +160,7 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
         if at.date() >= filters[comp_id].installed_on:
             dp_rows[comp_id].append((at, dp))
     plans = {p.component_kind: p for p in unit.unit_class.plans.all()}
+    charts: dict[str, Chart] = {}
     for pk, comp in filters.items():
         plan = plans.get(comp.kind)
         charts[f"dp-{comp.kind}"] = Chart(
@@ -142,18 +170,26 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
             limit=plan.dp_limit_bar if plan else None,
             limit_label=f"limit {plan.dp_limit_bar} bar" if plan and plan.dp_limit_bar else "",
         )
+    return charts
+
+
+def _drains_chart(*, unit: Unit, since: datetime) -> Chart:
     drains = [
         (e.performed_at, e.water_ml or 0.0)
         for e in ServiceEvent.objects.filter(
             unit=unit, kind=ServiceEvent.Kind.SEPARATOR_DRAINED, performed_at__gte=since
         ).order_by("performed_at")
     ]
-    charts["water"] = Chart(
+    return Chart(
         title="Water drained per drain",
         y_label="water (mL)",
         series=[Series(points=drains, css="bar")],
         bars=True,
     )
+
+
+def _fuel_sample_charts(*, unit: Unit, since: datetime) -> dict[str, Chart]:
+    """Samples of the unit's own tank and of the sources that fuelled it over the chart's year."""
     source_ids = list(
         Fueling.objects.filter(unit=unit, fueled_at__gte=since)
         .values_list("source_id", flat=True)
@@ -164,7 +200,7 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
         .order_by("sampled_at")
         .values_list("sampled_at", "code_4", "code_14", "water_mg_kg")
     )
-    charts["codes"] = Chart(
+    codes = Chart(
         title="Fuel samples: ISO 4406 scale numbers",
         y_label="scale number",
         series=[
@@ -182,11 +218,11 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
         limit=18,
         limit_label="WWFC 18 at ≥4 µm(c)",
     )
-    charts["water_content"] = Chart(
+    water_content = Chart(
         title="Fuel samples: water content",
         y_label="water (mg/kg)",
         series=[Series(points=[(s[0], s[3]) for s in samples if s[3] is not None], css="dot")],
         limit=200,
         limit_label="EN 590 limit 200 mg/kg",
     )
-    return UnitPage(unit, components, flags, due_items, events, open_orders, forecast, charts)
+    return {"codes": codes, "water_content": water_content}
