@@ -13,7 +13,7 @@ from django.utils import timezone
 
 from fleetfuel.fleet.models import ComponentKind
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
-from fleetfuel.workorders.presenters import CAUTIONS
+from services.safety import HP_CAUTION
 from tests import factories as f
 from tests.workorders.conftest import task_make, work_order_make
 
@@ -74,7 +74,7 @@ def test_auditor_post_to_every_write_url_is_forbidden(
     wo.refresh_from_db()
     task.refresh_from_db()
     assert (wo.status, wo.hour_meter, wo.notes) == (WorkOrder.Status.OPEN, None, "")
-    assert task.record == {} and wo.tasks.count() == 1
+    assert task.entry == {} and wo.tasks.count() == 1
     assert (task.not_done_at, task.not_done_reason) == (None, "")
 
 
@@ -199,7 +199,7 @@ def test_task_draft_round_trip(as_mechanic: Any, wo: WorkOrder, task: WorkOrderT
     assert task.draft_saved_at is not None
     local = timezone.localtime(task.draft_saved_at, ZoneInfo(wo.unit.site.time_zone))
     assert f"Saved {local:%H:%M}" in response.content.decode()
-    assert task.record["new_serial"] == "new-777" and task.record["notes"] == "Seat cleaned"
+    assert task.entry["new_serial"] == "new-777" and task.entry["notes"] == "Seat cleaned"
     assert task.cylinder == 3
     assert task.component == wo.unit.components.get(kind=ComponentKind.INJECTOR, position=3)
     page = as_mechanic.get(reverse("workorders:detail", args=[wo.pk])).content.decode()
@@ -209,9 +209,7 @@ def test_task_draft_round_trip(as_mechanic: Any, wo: WorkOrder, task: WorkOrderT
 def test_task_draft_reports_a_bad_number_and_keeps_the_rest(
     as_mechanic: Any, wo: WorkOrder, limits: Any
 ) -> None:
-    m = task_make(
-        wo, K.MEASUREMENT, description="Supply pressure under load", record={"value": 5.0}
-    )
+    m = task_make(wo, K.MEASUREMENT, description="Supply pressure under load", entry={"value": 5.0})
     response = as_mechanic.post(
         reverse("workorders:task_save", args=[m.pk]),
         {"limit": str(limits["load"].pk), "value": "five", "notes": "gauge B"},
@@ -221,7 +219,7 @@ def test_task_draft_reports_a_bad_number_and_keeps_the_rest(
     assert response.status_code == 200
     assert "Measured value: “five” is not a number." in html
     m.refresh_from_db()
-    assert m.record["value"] == 5.0 and m.record["notes"] == "gauge B"
+    assert m.entry["value"] == 5.0 and m.entry["notes"] == "gauge B"
 
 
 def test_pressure_typed_in_psi_is_stored_in_bar(
@@ -242,8 +240,8 @@ def test_pressure_typed_in_psi_is_stored_in_bar(
     m.refresh_from_db()
     # Independent check with pint: 58 psi in bar (gauge stays gauge).
     expected = pint.UnitRegistry().Quantity(58, "psi").to("bar").magnitude
-    assert m.record["value"] == pytest.approx(expected, rel=1e-9)
-    assert m.record["value"] == pytest.approx(3.99896, abs=1e-5)
+    assert m.entry["value"] == pytest.approx(expected, rel=1e-9)
+    assert m.entry["value"] == pytest.approx(3.99896, abs=1e-5)
     html = response.content.decode()
     assert "Outside limits" in html  # 58 psi is just under 4.0 bar(g)
     page = client.get(reverse("workorders:detail", args=[wo.pk])).content.decode()
@@ -277,7 +275,7 @@ def test_draft_on_a_closed_work_order_is_refused_and_kept_in_notes(
     assert f"by {manager.username}" in response.content.decode()
     wo.refresh_from_db()
     task.refresh_from_db()
-    assert "LATE-1" in wo.notes and task.record == {}
+    assert "LATE-1" in wo.notes and task.entry == {}
 
 
 def test_plain_form_save_without_javascript(
@@ -289,7 +287,7 @@ def test_plain_form_save_without_javascript(
     assert response.status_code == 302
     assert response["Location"].endswith(f"#task-{task.pk}")
     task.refresh_from_db()
-    assert task.record["new_serial"] == "NOJS-1"
+    assert task.entry["new_serial"] == "NOJS-1"
 
 
 # ----------------------------------------------------------------- adding tasks
@@ -305,7 +303,7 @@ def test_mechanic_adds_a_connector_task(as_mechanic: Any, wo: WorkOrder, mechani
     assert added.cylinder == 3
     assert added.description == "High-pressure connector replaced, cylinder 3"
     assert added.component == wo.unit.components.get(kind=ComponentKind.HP_CONNECTOR, position=3)
-    assert added.record["added_by"] == mechanic.username
+    assert added.entry["added_by"] == mechanic.username
 
 
 def test_adding_a_task_on_a_cylinder_that_does_not_exist_is_refused(
@@ -344,7 +342,7 @@ def test_high_pressure_tasks_show_the_cautions(as_mechanic: Any, wo: WorkOrder) 
         "manufacturer&#x27;s service documentation",
     ):
         assert line in html, line
-    assert len(CAUTIONS) == 5
+    assert len(HP_CAUTION.lines) == 5
 
 
 def test_low_pressure_tasks_show_no_caution(as_mechanic: Any, wo: WorkOrder) -> None:
