@@ -248,6 +248,29 @@ def test_pressure_typed_in_psi_is_stored_in_bar(
     assert 'value="58"' in page and "(psig)" in page
 
 
+def test_water_typed_in_us_fluid_ounces_is_stored_in_ml(
+    client: Any, unit_class: Any, manager: Any
+) -> None:
+    us_site = f.site_make(name="Desert Yard", code="desert", unit_system="us")
+    us_unit = f.unit_make(site=us_site, unit_class=unit_class, fleet_number="D-002")
+    tech = f.user_make("mechanic", sites=[us_site])
+    client.force_login(tech)
+    wo = work_order_make(unit=us_unit, created_by=manager, assigned_to=tech)
+    drain = task_make(wo, K.SEPARATOR_DRAIN, description="Drain separator")
+    response = client.post(
+        reverse("workorders:task_save", args=[drain.pk]),
+        {"water_ml": "1.5", "appearance": "cloudy"},
+        **HTMX,
+    )
+    assert response.status_code == 200
+    drain.refresh_from_db()
+    # Independent check with pint: 1.5 US fl oz in mL.
+    expected = pint.UnitRegistry().Quantity(1.5, "US_fluid_ounce").to("mL").magnitude
+    assert drain.entry["water_ml"] == pytest.approx(expected, rel=1e-9)
+    page = client.get(reverse("workorders:detail", args=[wo.pk])).content.decode()
+    assert 'value="1.5"' in page and "(US fl oz)" in page
+
+
 def test_job_draft_warns_when_the_meter_goes_backwards(as_mechanic: Any, wo: WorkOrder) -> None:
     url = reverse("workorders:job_save", args=[wo.pk])
     backwards = as_mechanic.post(url, {"hour_meter": "1980", "notes": "Cold start"}, **HTMX)
