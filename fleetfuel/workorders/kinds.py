@@ -66,7 +66,10 @@ class TaskKindSpec:
     @property
     def asks(self) -> tuple[str, ...]:
         """What the "add a task" form asks for a task of this kind."""
-        return (("cylinder",) if self.per_cylinder else ()) + ((self.chooses,) * bool(self.chooses))
+        asks = ["cylinder"] if self.per_cylinder else []
+        if self.chooses:
+            asks.append(self.chooses)
+        return tuple(asks)
 
 
 # --------------------------------------------------------------------------- event fields
