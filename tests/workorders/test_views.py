@@ -222,14 +222,18 @@ def test_task_draft_reports_a_bad_number_and_keeps_the_rest(
     assert m.entry["value"] == 5.0 and m.entry["notes"] == "gauge B"
 
 
-def test_pressure_typed_in_psi_is_stored_in_bar(
-    client: Any, unit_class: Any, manager: Any, limits: Any
-) -> None:
+@pytest.fixture
+def us_wo(client: Any, unit_class: Any, manager: Any) -> WorkOrder:
+    """A work order at a site that types US customary units; its mechanic is logged in."""
     us_site = f.site_make(name="Desert Yard", code="desert", unit_system="us")
     us_unit = f.unit_make(site=us_site, unit_class=unit_class, fleet_number="D-001")
     tech = f.user_make("mechanic", sites=[us_site])
     client.force_login(tech)
-    wo = work_order_make(unit=us_unit, created_by=manager, assigned_to=tech)
+    return work_order_make(unit=us_unit, created_by=manager, assigned_to=tech)
+
+
+def test_pressure_typed_in_psi_is_stored_in_bar(client: Any, us_wo: WorkOrder, limits: Any) -> None:
+    wo = us_wo
     m = task_make(wo, K.MEASUREMENT, description="Supply pressure under load")
     response = client.post(
         reverse("workorders:task_save", args=[m.pk]),
@@ -248,14 +252,8 @@ def test_pressure_typed_in_psi_is_stored_in_bar(
     assert 'value="58"' in page and "(psig)" in page
 
 
-def test_water_typed_in_us_fluid_ounces_is_stored_in_ml(
-    client: Any, unit_class: Any, manager: Any
-) -> None:
-    us_site = f.site_make(name="Desert Yard", code="desert", unit_system="us")
-    us_unit = f.unit_make(site=us_site, unit_class=unit_class, fleet_number="D-002")
-    tech = f.user_make("mechanic", sites=[us_site])
-    client.force_login(tech)
-    wo = work_order_make(unit=us_unit, created_by=manager, assigned_to=tech)
+def test_water_typed_in_us_fluid_ounces_is_stored_in_ml(client: Any, us_wo: WorkOrder) -> None:
+    wo = us_wo
     drain = task_make(wo, K.SEPARATOR_DRAIN, description="Drain separator")
     response = client.post(
         reverse("workorders:task_save", args=[drain.pk]),
