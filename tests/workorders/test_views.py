@@ -8,6 +8,7 @@ from zoneinfo import ZoneInfo
 
 import pint
 import pytest
+from django.template.loader import render_to_string
 from django.urls import reverse
 from django.utils import timezone
 
@@ -364,6 +365,14 @@ def test_high_pressure_tasks_show_the_cautions(as_mechanic: Any, wo: WorkOrder) 
     ):
         assert line in html, line
     assert len(HP_CAUTION.lines) == 5
+
+
+def test_the_caution_include_needs_nothing_from_the_page() -> None:
+    # The unit page and the work-order page include it as it is: one text, one include.
+    html = render_to_string("includes/_hp_caution.html", {})
+    assert html.count('class="caution"') == 1 and HP_CAUTION.title in html
+    for line in HP_CAUTION.lines:
+        assert line.replace("'", "&#x27;") in html, line
 
 
 def test_low_pressure_tasks_show_no_caution(as_mechanic: Any, wo: WorkOrder) -> None:
