@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from datetime import datetime, timedelta
 
 from services.common import TaskKind
+from services.hour_meter import meter_backwards
 
 # --------------------------------------------------------------------------- J1939 tables
 
@@ -121,12 +122,6 @@ class UnitFlag:
     high_pressure: bool  # the checks touch the high-pressure side
 
 
-HP_CAUTION = (
-    "High-pressure side: follow the manufacturer's service documentation and local rules; "
-    "let rail pressure fall before opening any fitting and never feel for a leak by hand."
-)
-
-
 def _count(events: Sequence[EngineEvent]) -> int:
     return sum(max(0, e.count) for e in events)
 
@@ -201,7 +196,6 @@ def unit_flags(
                     "Check the rail pressure sensor, its connector and its circuit.",
                     "Then check the relief valve itself, per the manufacturer's service "
                     "documentation.",
-                    HP_CAUTION,
                 ],
                 since=min(e.at for e in triggered),
                 high_pressure=True,
@@ -223,7 +217,6 @@ def unit_flags(
                     "documentation.",
                     "Before closing, find why it opened: metering actuator circuit, rail pressure "
                     "sensor.",
-                    HP_CAUTION,
                 ],
                 since=max((e.at for e in openings), default=now),
                 high_pressure=True,
@@ -245,7 +238,6 @@ def unit_flags(
                     "differential pressure.",
                     "Check the supply pressure at the high-pressure pump inlet.",
                     "Then check the high-pressure pump per the manufacturer's procedure.",
-                    HP_CAUTION,
                 ],
                 since=min(e.at for e in imbalance),
                 high_pressure=True,
@@ -293,6 +285,8 @@ TASK_KINDS = (
     "measurement",
     "other",
 )
+OVERRIDING_ROLE = "manager"  # accounts' Role.MANAGER (a test keeps the two equal)
+MIN_OVERRIDE_REASON = 10
 
 
 @dataclass(frozen=True, slots=True)
@@ -303,6 +297,7 @@ class ClosedTask:
     low_limit: float | None
     high_limit: float | None
     label: str
+    per_cylinder: bool = False  # the task is done on one cylinder, which it must name
 
 
 @dataclass(frozen=True, slots=True)
@@ -311,6 +306,33 @@ class RuleViolation:
     message: str
     cylinder: int | None
     overridable: bool
+
+
+def cylinder_exists(*, cylinder: float, cylinders: int) -> bool:
+    """Whether an engine of ``cylinders`` cylinders has cylinder ``cylinder``: they are
+    numbered 1 to n (common practice); a fraction is no cylinder."""
+    return cylinder == int(cylinder) and 1 <= cylinder <= cylinders
+
+
+def measurement_breach(*, value: float, low: float | None, high: float | None) -> str | None:
+    """Which limit a value breaks: "below", "above", or None (a value on a limit passes)."""
+    if low is not None and value < low:
+        return "below"
+    if high is not None and value > high:
+        return "above"
+    return None
+
+
+def measurement_passed(
+    *, value: float | None, low: float | None, high: float | None
+) -> bool | None:
+    """Pass (True), fail (False), or None when nothing was measured."""
+    return None if value is None else measurement_breach(value=value, low=low, high=high) is None
+
+
+def override_permitted(*, role: str | None) -> bool:
+    """Whether a person of ``role`` may override a closing rule: a manager only."""
+    return role == OVERRIDING_ROLE
 
 
 def close_violations(
@@ -333,7 +355,7 @@ def close_violations(
     violations: list[RuleViolation] = []
     valid: list[ClosedTask] = []
     for t in tasks:
-        if t.cylinder is not None and not 1 <= t.cylinder <= cylinders:
+        if t.cylinder is not None and not cylinder_exists(cylinder=t.cylinder, cylinders=cylinders):
             violations.append(
                 RuleViolation(
                     code="cylinder_out_of_range",
@@ -345,7 +367,7 @@ def close_violations(
                     overridable=False,
                 )
             )
-        elif t.cylinder is None and t.kind in ("injector_replaced", "connector_replaced"):
+        elif t.cylinder is None and t.per_cylinder:
             violations.append(
                 RuleViolation(
                     code="cylinder_missing",
@@ -375,12 +397,7 @@ def close_violations(
                 )
             )
 
-    if (
-        hour_meter is not None
-        and last_hour_meter is not None
-        and hour_meter < last_hour_meter
-        and not meter_replaced
-    ):
+    if meter_backwards(hours=hour_meter, earlier_hours=last_hour_meter, replaced=meter_replaced):
         violations.append(
             RuleViolation(
                 code="hour_meter_backwards",
@@ -402,29 +419,21 @@ def follow_ups(*, tasks: Sequence[ClosedTask]) -> list[str]:
         if t.kind != "measurement" or t.value is None:
             continue
         where = f" on cylinder {t.cylinder}" if t.cylinder is not None else ""
-        if t.low_limit is not None and t.value < t.low_limit:
-            out.append(
-                f"Follow up {t.label}{where}: measured {t.value:g}, below the low limit "
-                f"{t.low_limit:g}."
-            )
-        elif t.high_limit is not None and t.value > t.high_limit:
-            out.append(
-                f"Follow up {t.label}{where}: measured {t.value:g}, above the high limit "
-                f"{t.high_limit:g}."
-            )
+        side = measurement_breach(value=t.value, low=t.low_limit, high=t.high_limit)
+        if side is not None:
+            word, limit = ("low", t.low_limit) if side == "below" else ("high", t.high_limit)
+            text = f"Follow up {t.label}{where}: measured {t.value:g}, {side} the {word} limit"
+            out.append(f"{text} {limit:g}.")
     return out
 
 
-MIN_OVERRIDE_REASON = 10
-
-
 def override_allowed(
-    *, violations: Sequence[RuleViolation], role: str, reason: str
+    *, violations: Sequence[RuleViolation], role: str | None, reason: str
 ) -> tuple[bool, str]:
     """Whether ``role`` may override ``violations`` with ``reason``; returns (ok, message)."""
     if not violations:
         return True, "Nothing to override."
-    if role != "manager":
+    if not override_permitted(role=role):
         return False, "Only a manager may override a closing rule."
     fixed = [v for v in violations if not v.overridable]
     if fixed:

@@ -13,11 +13,16 @@ the exact definitions in NIST SP 811 (2008), Appendix B:
 * t/°F = 1.8 x t/°C + 32.
 
 Pressure conversions change units only: a gauge pressure stays gauge.
+
+Numbers typed on a form are read here too: in the site's unit system in, the stored unit out
+(``parse_number``, ``to_si``), and back for an input's value (``from_si``, ``number_text``).
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
+from dataclasses import dataclass
 from typing import Final
 
 KPA_PER_BAR: Final = 100.0
@@ -128,3 +133,100 @@ def display_quantity(*, value: float | None, quantity: str, system: str) -> str:
             return f"{_number(litres_to_us_gal(value))} US gal/h" if us else f"{_number(value)} L/h"
         case _:  # "hours": engine hours read the same in every system
             return f"{_number(value)} h"
+
+
+# --------------------------------------------------------------------------- typed numbers
+
+# The stored unit of each quantity a form takes, in words (for labels).
+UNIT_WORDS: Final = {"pressure_bar_gauge": "bar gauge", "volume_ml": "mL", "flow_l_per_h": "L/h"}
+
+
+@dataclass(frozen=True, slots=True)
+class InputUnit:
+    label: str  # shown beside the input
+    step: str  # the smallest step a gauge or measure reads, as an input's step attribute
+
+
+INPUT_UNITS: Final = {
+    ("pressure_bar_gauge", "metric"): InputUnit("bar(g)", "0.01"),
+    ("pressure_bar_gauge", "us"): InputUnit("psig", "0.1"),
+    ("volume_ml", "metric"): InputUnit("mL", "1"),
+    ("volume_ml", "us"): InputUnit("US fl oz", "0.1"),
+    ("flow_l_per_h", "metric"): InputUnit("L/h", "0.1"),
+    ("flow_l_per_h", "us"): InputUnit("US gal/h", "0.01"),
+}
+
+# US customary: (typed -> stored, stored -> shown) for each quantity a form takes.
+US_CONVERSIONS: Final[dict[str, tuple[Callable[[float], float], Callable[[float], float]]]] = {
+    "pressure_bar_gauge": (psi_to_bar, bar_to_psi),
+    "volume_ml": (us_fl_oz_to_ml, ml_to_us_fl_oz),
+    "flow_l_per_h": (us_gal_to_litres, litres_to_us_gal),
+}
+
+
+def input_unit(*, quantity: str, system: str) -> InputUnit:
+    """The unit a number of ``quantity`` is typed in at a site of ``system``."""
+    unit = INPUT_UNITS.get((quantity, "us" if system == "us" else "metric"))
+    if unit is None:
+        raise ValueError(f"no input unit for {quantity!r}")
+    return unit
+
+
+def _conversion(quantity: str, direction: int) -> Callable[[float], float]:
+    if quantity not in US_CONVERSIONS:
+        raise ValueError(f"cannot convert {quantity!r}")
+    return US_CONVERSIONS[quantity][direction]
+
+
+def to_si(*, value: float, quantity: str, system: str) -> float:
+    """A number typed in the site's unit system, in the stored unit."""
+    return value if system != "us" else _conversion(quantity, 0)(value)
+
+
+def from_si(*, value: float, quantity: str, system: str) -> float:
+    """A stored number in the site's unit system (for an input's value)."""
+    return value if system != "us" else _conversion(quantity, 1)(value)
+
+
+def number_text(value: float | None) -> str:
+    """A number as an input's value: at most four decimals, no trailing zeros."""
+    if value is None:
+        return ""
+    text = f"{round(value, 4):.4f}".rstrip("0").rstrip(".")
+    return "0" if text in {"-0", ""} else text
+
+
+def parse_number(*, raw: str, label: str, minimum: float | None = 0) -> float | None:
+    """A typed number (a comma as decimal mark is accepted), None when blank.
+
+    Raises ValueError naming ``label`` when the text is no finite number or is below
+    ``minimum``.
+    """
+    text = raw.strip().replace(" ", "")
+    if not text:
+        return None
+    if text.count(",") == 1 and "." not in text:
+        text = text.replace(",", ".")
+    try:
+        value = float(text)
+    except ValueError:
+        raise ValueError(f"{label}: “{raw.strip()}” is not a number.") from None
+    if not math.isfinite(value):
+        raise ValueError(f"{label}: “{raw.strip()}” is not a number.")
+    if minimum is not None and value < minimum:
+        raise ValueError(f"{label} cannot be below {minimum:g}.")
+    return value
+
+
+def limits_text(*, low: float | None, high: float | None, quantity: str, system: str) -> str:
+    """A pass band in words: 'pass 4.0 – 7.0 bar(g)', 'pass at least 1.5 bar(g)',
+    'pass at most 0.30 bar(g)'."""
+
+    def show(v: float | None) -> str:
+        return display_quantity(value=v, quantity=quantity, system=system)
+
+    if low is not None and high is not None:
+        return f"pass {show(low).rsplit(' ', 1)[0]} – {show(high)}"
+    if low is not None:
+        return f"pass at least {show(low)}"
+    return f"pass at most {show(high)}"

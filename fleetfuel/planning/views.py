@@ -15,8 +15,8 @@ from django_htmx.http import HttpResponseClientRedirect, push_url
 from fleetfuel.accounts.access import role_required, site_ids_for_user, sites_for_user
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.fleet.models import Site, UnitClass
+from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_due_items
 
-from .orders import WorkOrderCreateError, work_orders_from_due_items
 from .selectors import DueFilterForm, due_item_for_user, due_page
 from .worklists import recent_dispatches
 

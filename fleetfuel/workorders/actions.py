@@ -1,5 +1,6 @@
-"""Writes of the work-order app before the close: drafts saved as the mechanic goes, tasks
-added on the page and tasks marked not done (and undone). The close itself is in closing.py.
+"""Writes of the work-order app before the close: work orders made from due items, drafts
+saved as the mechanic goes, tasks added on the page and tasks marked not done (and undone).
+The close itself is in close.py.
 
 Every write locks the work order row first (``select_for_update``), so a draft save, a task
 added and a close on the same work order queue up: nothing lands on a closed work order.
@@ -9,17 +10,26 @@ What a refused writer entered is appended to the work order's notes, never throw
 from __future__ import annotations
 
 import json
-from datetime import datetime
+import uuid
+from collections import defaultdict
+from dataclasses import dataclass
+from datetime import date, datetime
 from typing import Any
 from zoneinfo import ZoneInfo
 
+from django.contrib.auth.models import User
 from django.db import transaction
+from django.db.models import Count, Q
 from django.utils import timezone
 
+from fleetfuel.accounts.models import Role
 from fleetfuel.fleet.models import Unit
+from fleetfuel.planning.models import DueItem
 
-from .forms import JobEntry, NewTask, TaskEntry
+from .forms import JobEntry, TaskDraft
+from .kinds import kind_for_due_task
 from .models import WorkOrder, WorkOrderTask
+from .tasks import NewTask
 
 
 class WorkOrderNotOpen(Exception):
@@ -95,7 +105,7 @@ def _lock_open(
 
 
 def task_draft_save(
-    *, task_id: int, user: Any, entry: TaskEntry, entered: str, now: datetime | None = None
+    *, task_id: int, user: Any, draft: TaskDraft, entered: str, now: datetime | None = None
 ) -> WorkOrderTask:
     """Save what the mechanic has entered so far on one task (a draft, not yet a record).
 
@@ -113,11 +123,11 @@ def task_draft_save(
             entered=entered,
         )
         if wo is not None:
-            task.record = entry.record
-            task.cylinder = entry.cylinder
-            task.component_id = entry.component_id
+            task.entry = draft.entry
+            task.cylinder = draft.cylinder
+            task.component_id = draft.component_id
             task.draft_saved_at = now
-            task.save(update_fields=["record", "cylinder", "component", "draft_saved_at"])
+            task.save(update_fields=["entry", "cylinder", "component", "draft_saved_at"])
             return task
     raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=task.work_order_id))
 
@@ -161,6 +171,16 @@ def job_apply(wo: WorkOrder, job: JobEntry, now: datetime) -> None:
     wo.job_saved_at = now
 
 
+def job_draft_keep(*, work_order_id: int, job: JobEntry, now: datetime) -> None:
+    """Keep the job fields posted with a close as the draft, in their own transaction (a work
+    order no longer open is left as it is: the close says why)."""
+    with transaction.atomic():
+        wo = work_order_locked(work_order_id)
+        if wo.status == WorkOrder.Status.OPEN:
+            job_apply(wo, job, now)
+            wo.save(update_fields=JOB_FIELDS)
+
+
 def task_add(*, work_order_id: int, user: Any, new: NewTask) -> WorkOrderTask:
     """Add a task the mechanic found necessary (e.g. a connector on cylinder 3)."""
     with transaction.atomic():
@@ -172,16 +192,16 @@ def task_add(*, work_order_id: int, user: Any, new: NewTask) -> WorkOrderTask:
             entered=new.description,
         )
         if wo is not None:
-            record: dict[str, Any] = {"added_by": user.get_username()}
+            entry: dict[str, Any] = {"added_by": user.get_username()}
             if new.limit_id is not None:
-                record["limit_id"] = new.limit_id
+                entry["limit_id"] = new.limit_id
             return WorkOrderTask.objects.create(
                 work_order=wo,
                 kind=new.kind,
                 cylinder=new.cylinder,
                 component_id=new.component_id,
                 description=new.description,
-                record=record,
+                entry=entry,
             )
     raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=work_order_id))
 
@@ -241,11 +261,25 @@ def task_not_done_undo(*, task_id: int, user: Any, now: datetime | None = None) 
 NOT_DONE_FIELDS = ["not_done_reason", "not_done_by", "not_done_at"]
 
 
-def not_done_note(*, task: WorkOrderTask) -> str:
-    """The line a close appends to the work order's notes for a task not done."""
-    return (
-        f"Not done: {task.description} — {task.not_done_reason} ({person_name(task.not_done_by)})"
-    )
+def entered_text(
+    *, work_order: WorkOrder, job: JobEntry | None, override_reason: str, snapshot: str
+) -> str:
+    """What a refused close had entered, as one line for the notes."""
+    parts = []
+    if job is not None:
+        if job.hour_meter is not None:
+            parts.append(f"hour meter {job.hour_meter:g} h")
+        if job.meter_replaced:
+            parts.append(
+                f"meter replaced (old final {job.meter_old_final}, new start {job.meter_new_start})"
+            )
+        if job.notes and job.notes.strip() != work_order.notes.strip():
+            parts.append(f"notes: {job.notes.strip()}")
+    if override_reason.strip():
+        parts.append(f"override reason: {override_reason.strip()}")
+    if snapshot.strip():
+        parts.append(f"task entries on the tablet: {snapshot.strip()}")
+    return "; ".join(parts)
 
 
 def snapshot_text(data: dict[str, Any]) -> str:
@@ -254,3 +288,105 @@ def snapshot_text(data: dict[str, Any]) -> str:
         return json.dumps(data, ensure_ascii=False, sort_keys=True)[:4000]
     except (TypeError, ValueError):
         return ""
+
+
+# --------------------------------------------------------------------------- from due items
+
+PRIORITY = {
+    DueItem.Status.OVERDUE: WorkOrder.Priority.URGENT,
+    DueItem.Status.DUE: WorkOrder.Priority.HIGH,
+}
+
+
+class WorkOrderCreateError(Exception):
+    pass
+
+
+@dataclass(frozen=True)
+class CreatedOrders:
+    orders: list[WorkOrder]
+    skipped: list[str]  # items already in an open work order, in words
+
+
+def mechanic_for_site(site_id: int) -> User | None:
+    """The site's mechanic with the fewest open work orders (ties: by username)."""
+    return (
+        User.objects.filter(is_active=True, groups__name=Role.MECHANIC, profile__sites__id=site_id)
+        .annotate(
+            open_orders=Count(
+                "assigned_work_orders",
+                filter=Q(assigned_work_orders__status=WorkOrder.Status.OPEN),
+            )
+        )
+        .order_by("open_orders", "username")
+        .first()
+    )
+
+
+def work_orders_from_due_items(
+    *, item_ids: list[int], site_ids: list[int], created_by: Any, today: date
+) -> CreatedOrders:
+    """One work order per unit with one task per selected item, assigned to a mechanic of the
+    unit's site, due on the earliest item's date (today for overdue items).
+
+    Items already in an open work order are skipped and named. All or nothing.
+    """
+    if not item_ids:
+        raise WorkOrderCreateError("Select at least one due item.")
+    with transaction.atomic():
+        items = list(
+            DueItem.objects.select_for_update(of=("self",))
+            .filter(pk__in=item_ids, unit__site_id__in=site_ids)
+            .select_related("unit", "component")
+            .order_by("unit_id", "due_on", "task")
+        )
+        if len(items) != len(set(item_ids)):
+            raise WorkOrderCreateError(
+                "Some selected items no longer exist or are not at your sites; reload the list."
+            )
+        busy = set(
+            WorkOrderTask.objects.filter(
+                due_item_id__in=item_ids, work_order__status=WorkOrder.Status.OPEN
+            ).values_list("due_item_id", flat=True)
+        )
+        by_unit: dict[int, list[DueItem]] = defaultdict(list)
+        skipped = []
+        for item in items:
+            if item.pk in busy:
+                skipped.append(f"{item.unit.fleet_number}: {item.get_task_display()}")
+            else:
+                by_unit[item.unit_id].append(item)
+        now = timezone.now()
+        orders = [
+            _work_order_from_items(unit_items, created_by=created_by, today=today, now=now)
+            for unit_items in by_unit.values()
+        ]
+        return CreatedOrders(orders=orders, skipped=skipped)
+
+
+def _work_order_from_items(
+    unit_items: list[DueItem], *, created_by: Any, today: date, now: datetime
+) -> WorkOrder:
+    unit = unit_items[0].unit
+    order = WorkOrder.objects.create(
+        number=f"tmp-{uuid.uuid4().hex[:12]}",
+        unit=unit,
+        priority=min(PRIORITY.get(i.status, WorkOrder.Priority.NORMAL) for i in unit_items),
+        due_on=max(today, min(i.due_on for i in unit_items)),
+        assigned_to=mechanic_for_site(unit.site_id),
+        created_by=created_by,
+        created_at=now,
+    )
+    order.number = f"WO-{order.pk:05d}"
+    order.save(update_fields=["number"])
+    WorkOrderTask.objects.bulk_create(
+        WorkOrderTask(
+            work_order=order,
+            kind=kind_for_due_task(i.task),
+            component=i.component,
+            description=i.get_task_display(),
+            due_item=i,
+        )
+        for i in unit_items
+    )
+    return order

@@ -18,7 +18,7 @@ class WorkOrderTaskInline(admin.TabularInline):
         "component",
         "done",
         "draft_saved_at",
-        "record",
+        "entry",
         "not_done_reason",
         "not_done_by",
         "not_done_at",

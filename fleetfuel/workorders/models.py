@@ -6,6 +6,8 @@ from django.conf import settings
 from django.db import models
 from django.db.models import Q
 
+from .kinds import Kind
+
 
 class WorkOrder(models.Model):
     class Status(models.TextChoices):
@@ -97,17 +99,11 @@ class WorkOrder(models.Model):
 
 
 class WorkOrderTask(models.Model):
-    """One thing to do in a work order. ``record`` holds what the mechanic entered (a draft
-    saved as they go), which becomes service events when the work order closes."""
+    """One thing to do in a work order. ``entry`` holds what the mechanic entered (a draft
+    saved as they go), which becomes service events when the work order closes. What each
+    kind asks and records is in the registry (kinds.py)."""
 
-    class Kind(models.TextChoices):
-        FILTER_CHANGE = "filter_change", "Change filter"
-        SEPARATOR_DRAIN = "separator_drain", "Drain water separator"
-        INJECTOR_REPLACE = "injector_replace", "Replace injector"
-        CONNECTOR_REPLACE = "connector_replace", "Replace high-pressure connector"
-        RELIEF_VALVE_REPLACE = "relief_valve_replace", "Replace rail relief valve"
-        MEASUREMENT = "measurement", "Take measurement"
-        INSPECTION = "inspection", "Inspect / diagnose"
+    Kind = Kind
 
     work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="tasks")
     kind = models.CharField(max_length=30, choices=Kind.choices)
@@ -123,7 +119,7 @@ class WorkOrderTask(models.Model):
         blank=True,
         related_name="work_order_tasks",
     )
-    record = models.JSONField(default=dict, blank=True)
+    entry = models.JSONField(default=dict, blank=True)
     done = models.BooleanField(default=False)
     draft_saved_at = models.DateTimeField(null=True, blank=True)
     # A task that could not be done at this job (part not in stock, unit needed back, the due

@@ -2,7 +2,7 @@
 
 A planned task that cannot be done at this job (part not in stock, unit needed back on shift,
 the due item did not apply) would otherwise block the close for ever. Marked not done, it
-needs no fields and the close leaves it out (closing.py); its due item stays due.
+needs no fields and the close leaves it out (close.py); its due item stays due.
 
 Both views answer htmx with the task's card (``detail.html#task-card``) plus the close box's
 list of tasks not done, swapped out of band; a plain form post is answered with a redirect
@@ -24,8 +24,8 @@ from fleetfuel.accounts.access import require_write, role_required
 from . import actions, selectors
 from .forms import not_done_reason_clean
 from .models import WorkOrder, WorkOrderTask
-from .presenters import CAUTION_TITLE, CAUTIONS, task_view
-from .views import WRITERS, HtmxHttpRequest, _not_saved, _page_context, _vary
+from .page import WRITERS, HtmxHttpRequest, not_saved_text, page_context_build, response_vary
+from .presenters import task_view
 
 
 def task_card_render(
@@ -46,22 +46,20 @@ def task_card_render(
         "wo": wo,
         "editable": editable,
         "site_tz": wo.unit.site.time_zone,
-        "caution_title": CAUTION_TITLE,
-        "cautions": CAUTIONS,
         "not_done_tasks": selectors.tasks_not_done(work_order=wo),
         "oob": True,
     }
     html = render_to_string("workorders/detail.html#task-card", context, request)
     if editable:
         html += render_to_string("workorders/detail.html#not-done-summary", context, request)
-    return _vary(HttpResponse(html, status=status))
+    return response_vary(HttpResponse(html, status=status))
 
 
 def _task_page(
     request: HttpRequest, wo: WorkOrder, task_id: int, error: str, typed: str
 ) -> HttpResponse:
     """The whole page (no JavaScript) with the refusal shown on the task, 422."""
-    context = _page_context(request, wo)
+    context = page_context_build(request, wo)
     for tv in context["task_views"]:
         if tv.task.pk == task_id:
             tv.not_done_error, tv.not_done_typed = error, typed
@@ -125,8 +123,8 @@ def _refused(
     wo = selectors.work_order_for_user(request.user, exc.work_order.pk)
     task = selectors.task_for_user(request.user, task.pk)
     if not request.htmx:
-        messages.error(request, _not_saved(exc))
+        messages.error(request, not_saved_text(exc))
         return _to_task(wo, task)
     return task_card_render(
-        request=request, wo=wo, task=task, editable=False, error=_not_saved(exc), status=409
+        request=request, wo=wo, task=task, editable=False, error=not_saved_text(exc), status=409
     )

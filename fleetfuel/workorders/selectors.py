@@ -14,7 +14,8 @@ from fleetfuel.accounts.models import Role
 from fleetfuel.fleet.models import Component, MeasurementLimit, MeterReading
 from fleetfuel.planning.models import DueItem, UnitFlag
 
-from .forms import TaskContext
+from .context import TaskContext
+from .kinds import HIGH_PRESSURE_TASK_KINDS
 from .models import WorkOrder, WorkOrderTask
 
 
@@ -54,13 +55,7 @@ def _with_counts(qs: QuerySet[WorkOrder]) -> QuerySet[WorkOrder]:
         task_count=Count("tasks", distinct=True),
         hp_task_count=Count(
             "tasks",
-            filter=Q(
-                tasks__kind__in=[
-                    WorkOrderTask.Kind.INJECTOR_REPLACE,
-                    WorkOrderTask.Kind.CONNECTOR_REPLACE,
-                    WorkOrderTask.Kind.RELIEF_VALVE_REPLACE,
-                ]
-            ),
+            filter=Q(tasks__kind__in=HIGH_PRESSURE_TASK_KINDS),
             distinct=True,
         ),
         flag_count=Coalesce(Subquery(flags[:1]), 0),

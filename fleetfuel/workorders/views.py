@@ -8,9 +8,7 @@ from __future__ import annotations
 
 import json
 import logging
-import uuid
 from collections.abc import Iterable
-from typing import Any
 
 from django.contrib import messages
 from django.core.paginator import Paginator
@@ -18,31 +16,28 @@ from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils import timezone
-from django.utils.cache import patch_vary_headers
 from django.views.decorators.http import require_POST
-from django_htmx.middleware import HtmxDetails
 
 from fleetfuel.accounts.access import require_write, role_required, user_role
 from fleetfuel.accounts.models import Role
+from services import rules
 
-from . import actions, closing, selectors
-from .forms import ADD_KINDS, FILTER_CHOICES, job_entry_clean, new_task_clean, task_entry_clean
-from .models import WorkOrder
-from .presenters import CAUTION_TITLE, CAUTIONS, task_view
+from . import actions, selectors
+from .close import work_order_close
+from .forms import job_entry_clean
+from .page import (
+    ALL_ROLES,
+    WRITERS,
+    HtmxHttpRequest,
+    meter_backwards,
+    not_saved_text,
+    page_context_build,
+    response_vary,
+)
+from .presenters import task_view
+from .tasks import new_task_clean, task_draft_clean
 
 log = logging.getLogger(__name__)
-
-ALL_ROLES = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
-WRITERS = (Role.MANAGER, Role.MECHANIC)
-
-
-class HtmxHttpRequest(HttpRequest):
-    htmx: HtmxDetails
-
-
-def _vary(response: HttpResponse) -> HttpResponse:
-    patch_vary_headers(response, ["HX-Request"])
-    return response
 
 
 # --------------------------------------------------------------------------- lists
@@ -76,58 +71,13 @@ def work_order_list(request: HtmxHttpRequest) -> HttpResponse:
 # --------------------------------------------------------------------------- the page
 
 
-def _page_context(
-    request: HttpRequest,
-    wo: WorkOrder,
-    *,
-    outcome: closing.CloseOutcome | None = None,
-    token: str | None = None,
-    add_error: str = "",
-    server_error: str = "",
-) -> dict[str, Any]:
-    data = selectors.work_order_page(wo)
-    role = user_role(request.user)
-    editable = wo.status == WorkOrder.Status.OPEN and role in WRITERS
-    last = data.last_reading
-    return {
-        "wo": wo,
-        "unit": wo.unit,
-        "site_tz": wo.unit.site.time_zone,
-        "system": data.ctx.system,
-        "task_views": [task_view(t, data.ctx) for t in data.tasks],
-        "flags": data.flags,
-        "due_items": data.due_items,
-        "last_reading": last,
-        "meter_backwards": _meter_backwards(wo, last),
-        "follow_ups": data.follow_ups,
-        "editable": editable,
-        "can_override": editable and role == Role.MANAGER,
-        "token": token or uuid.uuid4().hex,
-        "outcome": outcome,
-        "add_error": add_error,
-        "server_error": server_error,
-        "add_kinds": ADD_KINDS,
-        "filters": [c for c in data.ctx.components if c.kind in FILTER_CHOICES],
-        "limits": list(data.ctx.limits.values()),
-        "cylinder_range": range(1, wo.unit.cylinders + 1),
-        "caution_title": CAUTION_TITLE,
-        "cautions": CAUTIONS,
-        "task_keys": [f"fleetfuel:task:{t.pk}" for t in data.tasks],
-        "not_done_tasks": [t for t in data.tasks if t.is_not_done],
-    }
-
-
 @role_required(*ALL_ROLES)
 def detail(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     wo = selectors.work_order_for_user(request.user, pk)
-    return render(request, "workorders/detail.html", _page_context(request, wo))
+    return render(request, "workorders/detail.html", page_context_build(request, wo))
 
 
 # --------------------------------------------------------------------------- drafts
-
-
-def _not_saved(exc: actions.WorkOrderNotOpen) -> str:
-    return f"Not saved: {exc} What you entered was added to its notes."
 
 
 def _flash(request: HttpRequest, save_error: str, errors: Iterable[str], success: str) -> None:
@@ -138,15 +88,6 @@ def _flash(request: HttpRequest, save_error: str, errors: Iterable[str], success
         messages.error(request, problem)
     if not problems:
         messages.success(request, success)
-
-
-def _meter_backwards(wo: WorkOrder, last: Any) -> bool:
-    return (
-        wo.hour_meter is not None
-        and last is not None
-        and wo.hour_meter < last.hours
-        and not wo.meter_replaced
-    )
 
 
 def _posted(request: HttpRequest) -> dict[str, str]:
@@ -160,29 +101,29 @@ def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     task = selectors.task_for_user(request.user, pk)
     wo = selectors.work_order_for_user(request.user, task.work_order_id)
     ctx = selectors.task_context(wo)
-    entry = task_entry_clean(task, request.POST, ctx)
+    draft = task_draft_clean(task, request.POST, ctx)
     status = 200
     save_error = ""
     try:
         task = actions.task_draft_save(
             task_id=task.pk,
             user=request.user,
-            entry=entry,
+            draft=draft,
             entered=actions.snapshot_text(_posted(request)),
         )
     except actions.WorkOrderNotOpen as exc:
-        status, save_error = 409, _not_saved(exc)
+        status, save_error = 409, not_saved_text(exc)
     if not request.htmx:
-        _flash(request, save_error, entry.errors.values(), f"Saved “{task.description}”.")
+        _flash(request, save_error, draft.errors.values(), f"Saved “{task.description}”.")
         return redirect(reverse("workorders:detail", args=[wo.pk]) + f"#task-{task.pk}")
-    tv = task_view(task, ctx, entry.errors)
+    tv = task_view(task, ctx, draft.errors)
     response = render(
         request,
         "workorders/detail.html#task-status",
         {"tv": tv, "site_tz": wo.unit.site.time_zone, "save_error": save_error},
         status=status,
     )
-    return _vary(response)
+    return response_vary(response)
 
 
 @role_required(*WRITERS)
@@ -201,7 +142,7 @@ def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
             entered=actions.snapshot_text(_posted(request)),
         )
     except actions.WorkOrderNotOpen as exc:
-        status, save_error = 409, _not_saved(exc)
+        status, save_error = 409, not_saved_text(exc)
     wo = selectors.work_order_for_user(request.user, pk)
     if not request.htmx:
         _flash(request, save_error, job.errors.values(), "Saved the job fields.")
@@ -216,11 +157,11 @@ def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
             "save_error": save_error,
             "job_errors": list(job.errors.values()),
             "last_reading": last,
-            "meter_backwards": _meter_backwards(wo, last),
+            "meter_backwards": meter_backwards(wo, last),
         },
         status=status,
     )
-    return _vary(response)
+    return response_vary(response)
 
 
 @role_required(*WRITERS)
@@ -230,7 +171,7 @@ def task_add(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     wo = selectors.work_order_for_user(request.user, pk)
     new, error = new_task_clean(request.POST, selectors.task_context(wo))
     if new is None:
-        context = _page_context(request, wo, add_error=error)
+        context = page_context_build(request, wo, add_error=error)
         return render(request, "workorders/detail.html", context, status=422)
     try:
         task = actions.task_add(work_order_id=wo.pk, user=request.user, new=new)
@@ -259,7 +200,7 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
     token = request.POST.get("token", "")
     job = job_entry_clean(request.POST)
     try:
-        outcome = closing.work_order_close(
+        outcome = work_order_close(
             work_order_id=wo.pk,
             user=request.user,
             token=token,
@@ -269,13 +210,13 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
             snapshot=_snapshot(request),
         )
     except ValueError as exc:
-        context = _page_context(request, wo, server_error=str(exc))
+        context = page_context_build(request, wo, server_error=str(exc))
         return render(request, "workorders/detail.html", context, status=400)
     except Exception:
         # Nothing was closed (the transaction rolled back); the drafts are on the server.
         log.exception("closing work order %s failed", wo.pk)
         wo = selectors.work_order_for_user(request.user, pk)
-        context = _page_context(
+        context = page_context_build(
             request,
             wo,
             token=token,
@@ -305,7 +246,7 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
         messages.warning(request, outcome.message)
         return redirect("workorders:detail", pk=wo.pk)
     status = 403 if outcome.forbidden else 200
-    context = _page_context(request, wo, outcome=outcome, token=token)
+    context = page_context_build(request, wo, outcome=outcome, token=token)
     return render(request, "workorders/detail.html", context, status=status)
 
 
@@ -320,9 +261,9 @@ def close(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 def override(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     """Close despite overridable rules, with a written reason. Only a manager may: a
     mechanic's attempt reaches the rules (which refuse it) and is answered 403."""
-    if user_role(request.user) != Role.MANAGER:
+    if not rules.override_permitted(role=user_role(request.user)):
         wo = selectors.work_order_for_user(request.user, pk)
-        context = _page_context(
+        context = page_context_build(
             request,
             wo,
             token=request.POST.get("token") or None,

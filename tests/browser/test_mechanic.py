@@ -82,13 +82,13 @@ def test_mechanic_closes_after_adding_the_missing_connector(
         "Not saved: no connection"
     )
     filter_task.refresh_from_db()
-    assert filter_task.record.get("part_number") is None
+    assert filter_task.entry.get("part_number") is None
     page.unroute(save_url)
     page.reload()
     expect(page.locator(f"#t{filter_task.pk}-part_number")).to_have_value("PF-100")
     expect(page.locator(f"#task-{filter_task.pk}-status .saved-note")).to_contain_text("Saved")
     filter_task.refresh_from_db()
-    assert filter_task.record["part_number"] == "PF-100"
+    assert filter_task.entry["part_number"] == "PF-100"
     screenshot(page, "mechanic-work-order-768x1024")
 
     page.click("button.close-btn")
@@ -147,7 +147,7 @@ def test_pages_at_landscape_size(
         job,
         K.MEASUREMENT,
         description="Supply pressure under load",
-        record={"limit_id": limits["load"].pk, "value": 3.2},
+        entry={"limit_id": limits["load"].pk, "value": 3.2},
     )
     task_make(job, K.SEPARATOR_DRAIN, description="Drain water separator")
     page = login_page(manager, width=1024, height=768)

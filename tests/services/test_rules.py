@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from datetime import datetime, timedelta
 
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -15,8 +16,12 @@ from services.rules import (
     ReliefValvePlan,
     RuleViolation,
     close_violations,
+    cylinder_exists,
     follow_ups,
+    measurement_breach,
+    measurement_passed,
     override_allowed,
+    override_permitted,
     raised_priorities,
     spn_label,
     unit_flags,
@@ -157,6 +162,7 @@ def test_lifetime_openings_flag_replacement() -> None:
     assert (
         "Replace" in at[0].checks[0] and "manufacturer's service documentation" in at[0].checks[0]
     )
+    assert at[0].high_pressure is True  # the page shows the high-pressure caution beside it
 
 
 def test_pumping_imbalance_checks_supply_side_first() -> None:
@@ -167,6 +173,7 @@ def test_pumping_imbalance_checks_supply_side_first() -> None:
     assert "supply pressure" in flag.checks[1]
     assert "pump per the manufacturer's procedure" in flag.checks[2]
     assert "fuel pump pressurizing assembly 1" in flag.reason
+    assert flag.high_pressure is True
 
 
 # ----------------------------------------------------------------- priorities and water
@@ -201,7 +208,13 @@ def test_water_event_since() -> None:
 
 def task(kind: str, cylinder: int | None = None, label: str = "") -> ClosedTask:
     return ClosedTask(
-        kind=kind, cylinder=cylinder, value=None, low_limit=None, high_limit=None, label=label
+        kind=kind,
+        cylinder=cylinder,
+        value=None,
+        low_limit=None,
+        high_limit=None,
+        label=label,
+        per_cylinder=kind in ("injector_replaced", "connector_replaced"),
     )
 
 
@@ -250,6 +263,25 @@ def test_cylinder_out_of_range_is_not_overridable() -> None:
     assert close([task("connector_replaced", 6)]) == []
 
 
+def test_a_per_cylinder_task_must_name_its_cylinder() -> None:
+    (v,) = close([task("connector_replaced", None, "HP connector")])
+    assert (v.code, v.message, v.overridable) == (
+        "cylinder_missing",
+        "HP connector: say which cylinder.",
+        False,
+    )
+    assert close([task("relief_valve_replaced", None)]) == []  # one per engine: no cylinder
+
+
+@pytest.mark.parametrize(
+    ("cylinder", "exists"),
+    [(0, False), (1, True), (6, True), (7, False), (-1, False), (2.0, True), (2.5, False)],
+)
+def test_cylinders_are_numbered_one_to_n(cylinder: float, exists: bool) -> None:
+    # common practice: the cylinders of an n-cylinder engine are numbered 1 to n.
+    assert cylinder_exists(cylinder=cylinder, cylinders=6) is exists
+
+
 def test_hour_meter_backwards() -> None:
     (v,) = close([], hour_meter=1_980.0, last_hour_meter=1_990.5)
     assert v.code == "hour_meter_backwards" and v.overridable is False
@@ -266,6 +298,49 @@ def test_follow_ups_name_measurement_value_and_limit() -> None:
         "Follow up Supply pressure (bar): measured 3.2, below the low limit 4.",
         "Follow up Leak-off (mL/min) on cylinder 2: measured 48, above the high limit 40.",
     ]
+
+
+@pytest.mark.parametrize(
+    ("value", "breach", "passed"),
+    [
+        (3.99, "below", False),
+        (4.0, None, True),  # on a limit passes
+        (7.0, None, True),
+        (7.01, "above", False),
+    ],
+)
+def test_measurement_pass_band_includes_its_edges(
+    value: float, breach: str | None, passed: bool
+) -> None:
+    # common practice: a pass band "4.0 - 7.0" accepts 4.0 and 7.0.
+    assert measurement_breach(value=value, low=4.0, high=7.0) == breach
+    assert measurement_passed(value=value, low=4.0, high=7.0) is passed
+
+
+def test_a_one_sided_limit_and_no_value() -> None:
+    assert measurement_passed(value=100.0, low=1.5, high=None) is True
+    assert measurement_passed(value=0.31, low=None, high=0.3) is False
+    assert measurement_passed(value=None, low=4.0, high=7.0) is None
+
+
+@given(
+    value=st.floats(-1e3, 1e3),
+    low=st.none() | st.floats(-1e3, 1e3),
+    high=st.none() | st.floats(-1e3, 1e3),
+)
+def test_a_follow_up_is_made_exactly_for_a_failed_measurement(
+    value: float, low: float | None, high: float | None
+) -> None:
+    measured = ClosedTask("measurement", None, value, low, high, "Pressure")
+    assert bool(follow_ups(tasks=[measured])) is (
+        measurement_passed(value=value, low=low, high=high) is False
+    )
+
+
+def test_only_a_manager_may_override() -> None:
+    assert override_permitted(role="manager") is True
+    for role in ("mechanic", "auditor", "", None):
+        assert override_permitted(role=role) is False
 
 
 def test_override_by_manager_with_reason() -> None:

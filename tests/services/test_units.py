@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 
 from services import units
 
-# One registry for the whole test module (pint's own advice; see DESIGN.md pitfalls).
+# One registry for the whole test module (pint's own advice: one UnitRegistry per program).
 UREG = pint.UnitRegistry()
 Q_ = UREG.Quantity
 
@@ -52,13 +52,14 @@ def test_temperatures_agree_with_pint(celsius):
 
 
 def test_bar_is_100_kpa_and_about_14_5038_psi():
-    # 1 bar = 100 kPa exactly (NIST SP 811, Table 9); 14.5038 psi (DOMAIN.md, 6 figures).
+    # 1 bar = 100 kPa exactly (NIST SP 811, Table 9); 14.5038 psi (NIST SP 811 B.8's psi
+    # factor 6.894 757 kPa, to 6 figures).
     assert units.psi_to_bar(units.bar_to_psi(1.0)) == pytest.approx(1.0, rel=1e-15)
     assert round(units.bar_to_psi(1.0), 4) == 14.5038
 
 
 def test_psi_matches_nist_rounded_figure():
-    # NIST SP 811 B.8: 1 psi = 6.894 757 E+03 Pa (7 significant figures), DOMAIN.md too.
+    # NIST SP 811 B.8: 1 psi = 6.894 757 E+03 Pa (7 significant figures).
     kpa_per_psi = units.psi_to_bar(1.0) * 100.0
     assert round(kpa_per_psi, 6) == 6.894757
 
@@ -144,7 +145,7 @@ def test_missing_value_shows_a_dash(quantity):
 
 
 def test_rail_pressure_shows_whole_numbers_with_separators():
-    # 1,800 bar x 14.5038 = 26,107 psi (DOMAIN.md factor, hand-worked).
+    # 1,800 bar x 14.5038 = 26,107 psi (NIST SP 811 B.8 factor, hand-worked).
     show = units.display_quantity
     assert show(value=1800.0, quantity="pressure_bar_gauge", system="metric") == "1,800 bar(g)"
     assert show(value=1800.0, quantity="pressure_bar_gauge", system="us") == "26,107 psig"
@@ -163,3 +164,110 @@ def test_unknown_quantity_or_system_is_refused():
         units.display_quantity(value=1.0, quantity="volume_l", system="imperial")
     with pytest.raises(ValueError, match="not a finite number"):
         units.display_quantity(value=math.nan, quantity="volume_l", system="metric")
+
+
+# --- typed numbers: the site's unit system in, the stored unit out -------------------------
+
+
+@pytest.mark.parametrize(
+    ("quantity", "value", "typed_unit", "stored_unit"),
+    [
+        ("pressure_bar_gauge", 58.0, "psi", "bar"),  # gauge stays gauge
+        ("volume_ml", 2.5, "US_fluid_ounce", "mL"),
+        ("flow_l_per_h", 12.0, "US_liquid_gallon/h", "L/h"),
+    ],
+)
+def test_typed_us_numbers_are_stored_in_si_as_pint_converts_them(
+    quantity, value, typed_unit, stored_unit
+):
+    # Reference: pint's default registry (NIST SP 811 Appendix B definitions).
+    expected = Q_(value, typed_unit).to(stored_unit).magnitude
+    stored = units.to_si(value=value, quantity=quantity, system="us")
+    assert stored == pytest.approx(expected, rel=1e-12)
+    assert units.from_si(value=stored, quantity=quantity, system="us") == pytest.approx(value)
+
+
+def test_58_psi_is_just_under_4_bar():
+    # Hand-worked with NIST SP 811 B.8: 58 x 6.894 757 kPa = 399.896 kPa = 3.99896 bar.
+    assert units.to_si(value=58.0, quantity="pressure_bar_gauge", system="us") == pytest.approx(
+        3.99896, abs=1e-5
+    )
+
+
+@pytest.mark.parametrize("quantity", ["pressure_bar_gauge", "volume_ml", "flow_l_per_h"])
+def test_metric_numbers_are_stored_as_typed(quantity):
+    assert units.to_si(value=4.25, quantity=quantity, system="metric") == 4.25
+    assert units.from_si(value=4.25, quantity=quantity, system="metric") == 4.25
+
+
+def test_a_quantity_without_a_us_unit_is_refused():
+    with pytest.raises(ValueError, match="cannot convert 'hours'"):
+        units.to_si(value=1.0, quantity="hours", system="us")
+    with pytest.raises(ValueError, match="no input unit for 'hours'"):
+        units.input_unit(quantity="hours", system="metric")
+
+
+@pytest.mark.parametrize(
+    ("quantity", "system", "label"),
+    [
+        # psig: pounds-force per square inch, gauge (the g marks gauge, as bar(g) does).
+        ("pressure_bar_gauge", "metric", "bar(g)"),
+        ("pressure_bar_gauge", "us", "psig"),
+        ("volume_ml", "metric", "mL"),
+        ("volume_ml", "us", "US fl oz"),
+        ("flow_l_per_h", "us", "US gal/h"),
+    ],
+)
+def test_input_units_name_the_typed_unit(quantity, system, label):
+    assert units.input_unit(quantity=quantity, system=system).label == label
+    # The typed unit is the one the display shows, so what is typed reads back the same.
+    shown = units.display_quantity(value=1.0, quantity=quantity, system=system)
+    assert shown.endswith(label)
+
+
+@pytest.mark.parametrize(
+    ("raw", "number"),
+    [("4.5", 4.5), (" 4,5 ", 4.5), ("1 200", 1200.0), ("0", 0.0), ("", None), ("  ", None)],
+)
+def test_typed_numbers_are_read_with_a_comma_or_a_point(raw, number):
+    assert units.parse_number(raw=raw, label="Water drained") == number
+
+
+@pytest.mark.parametrize("raw", ["five", "nan", "inf", "1,2,3", "1.2,3"])
+def test_text_that_is_no_finite_number_is_refused_with_the_fields_label(raw):
+    with pytest.raises(ValueError, match=f"^Measured value: “{raw}” is not a number.$"):
+        units.parse_number(raw=raw, label="Measured value", minimum=None)
+
+
+def test_numbers_below_the_minimum_are_refused():
+    with pytest.raises(ValueError, match="^Water drained cannot be below 0.$"):
+        units.parse_number(raw="-1", label="Water drained")
+    assert units.parse_number(raw="-1", label="Measured value", minimum=None) == -1.0
+
+
+@pytest.mark.parametrize(
+    ("value", "text"),
+    [(None, ""), (4.0, "4"), (3.99896, "3.999"), (0.123456, "0.1235"), (-0.00001, "0")],
+)
+def test_number_text_for_an_input(value, text):
+    assert units.number_text(value) == text
+
+
+@given(st.floats(min_value=-1e6, max_value=1e6, allow_nan=False))
+def test_number_text_reads_back_within_half_its_last_decimal(value):
+    text = units.number_text(value)
+    assert units.parse_number(raw=text, label="x", minimum=None) == pytest.approx(
+        value, abs=0.5e-4 + 1e-9
+    )
+
+
+def test_limits_in_words_in_both_systems():
+    # US figures from pint: 4.0 bar and 7.0 bar in psi (shown whole from 100 up).
+    lo_psi = f"{Q_(4.0, 'bar').to('psi').magnitude:,.1f}"
+    hi_psi = f"{Q_(7.0, 'bar').to('psi').magnitude:,.0f}"
+    text = units.limits_text
+    q = "pressure_bar_gauge"
+    assert text(low=4.0, high=7.0, quantity=q, system="metric") == "pass 4.0 – 7.0 bar(g)"
+    assert text(low=4.0, high=7.0, quantity=q, system="us") == f"pass {lo_psi} – {hi_psi} psig"
+    assert text(low=1.5, high=None, quantity=q, system="metric") == "pass at least 1.5 bar(g)"
+    assert text(low=None, high=0.3, quantity=q, system="metric") == "pass at most 0.30 bar(g)"

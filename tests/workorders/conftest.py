@@ -73,7 +73,7 @@ def task_make(wo: WorkOrder, kind: str, *, cylinder: int | None = None, **kw: An
         "cylinder": cylinder,
         "component": component,
         "description": kw.pop("description", f"{kind} {cylinder or ''}".strip()),
-        "record": {},
+        "entry": {},
     }
     defaults.update(kw)
     return WorkOrderTask.objects.create(**defaults)

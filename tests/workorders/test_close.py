@@ -12,7 +12,8 @@ from fleetfuel.fleet.models import Component, ComponentKind, MeterReading, Meter
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem
-from fleetfuel.workorders import close_records, closing
+from fleetfuel.workorders import close as close_module
+from fleetfuel.workorders.close import CloseOutcome, work_order_close
 from fleetfuel.workorders.forms import JobEntry
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 from tests.workorders.conftest import task_make
@@ -39,15 +40,15 @@ def injectors_on_1_3_5(wo: WorkOrder) -> None:
             K.INJECTOR_REPLACE,
             cylinder=cyl,
             description=f"Replace injector, cylinder {cyl}",
-            record={"new_serial": f"NEW-{cyl}", "old_serial": f"OLD-{cyl}"},
+            entry={"new_serial": f"NEW-{cyl}", "old_serial": f"OLD-{cyl}"},
         )
     for cyl in (1, 5):
         task_make(wo, K.CONNECTOR_REPLACE, cylinder=cyl, description=f"Connector {cyl}")
 
 
-def close(wo: WorkOrder, user: Any, token: str = "tok-1", **kw: Any) -> closing.CloseOutcome:
+def close(wo: WorkOrder, user: Any, token: str = "tok-1", **kw: Any) -> CloseOutcome:
     kw.setdefault("job", job())
-    return closing.work_order_close(work_order_id=wo.pk, user=user, token=token, **kw)
+    return work_order_close(work_order_id=wo.pk, user=user, token=token, **kw)
 
 
 # ----------------------------------------------------------------- injector / connector rule
@@ -200,13 +201,13 @@ def test_measurement_outside_limits_creates_a_follow_up(
         wo,
         K.MEASUREMENT,
         description="Supply pressure under load",
-        record={"limit_id": limits["load"].pk, "value": 3.2},
+        entry={"limit_id": limits["load"].pk, "value": 3.2},
     )
     task_make(
         wo,
         K.MEASUREMENT,
         description="Drain-line back pressure",
-        record={"limit_id": limits["drain"].pk, "value": 0.1},
+        entry={"limit_id": limits["drain"].pk, "value": 0.1},
     )
     outcome = close(wo, mechanic)
     assert outcome.result == "closed"
@@ -224,7 +225,7 @@ def test_measurement_outside_limits_creates_a_follow_up(
     assert follow_up.assigned_to == mechanic
     (task,) = follow_up.tasks.all()
     assert task.kind == K.MEASUREMENT
-    assert task.record["limit_id"] == limits["load"].pk
+    assert task.entry["limit_id"] == limits["load"].pk
     assert task.description == (
         "Follow up Supply pressure under load (bar gauge): measured 3.2, below the low limit 4."
     )
@@ -237,7 +238,7 @@ def test_measurements_within_limits_create_no_follow_up(
         wo,
         K.MEASUREMENT,
         description="Supply pressure under load",
-        record={"limit_id": limits["load"].pk, "value": 7.0},  # the high edge passes
+        entry={"limit_id": limits["load"].pk, "value": 7.0},  # the high edge passes
     )
     outcome = close(wo, mechanic)
     assert outcome.result == "closed" and outcome.follow_up is None
@@ -267,24 +268,24 @@ def test_close_writes_readings_events_and_components(
         K.FILTER_CHANGE,
         component=fine,
         description="Change fine filter",
-        record={"part_number": "FF-4410", "dp_before_bar": 0.82, "parts_used": "1 x FF-4410"},
+        entry={"part_number": "FF-4410", "dp_before_bar": 0.82, "parts_used": "1 x FF-4410"},
     )
     task_make(
         wo,
         K.SEPARATOR_DRAIN,
         description="Drain separator",
-        record={"water_ml": 45.0, "appearance": "cloudy"},
+        entry={"water_ml": 45.0, "appearance": "cloudy"},
     )
     task_make(
         wo,
         K.INJECTOR_REPLACE,
         cylinder=2,
         description="Injector 2",
-        record={"old_serial": old_serial, "new_serial": "INJ-NEW-2", "part_number": "IN-77"},
+        entry={"old_serial": old_serial, "new_serial": "INJ-NEW-2", "part_number": "IN-77"},
     )
     task_make(wo, K.CONNECTOR_REPLACE, cylinder=2, description="Connector 2")
     task_make(wo, K.RELIEF_VALVE_REPLACE, description="Relief valve")
-    task_make(wo, K.INSPECTION, description="Look at the lines", record={"findings": "All dry"})
+    task_make(wo, K.INSPECTION, description="Look at the lines", entry={"findings": "All dry"})
     due_items_recompute(unit_ids=[unit.pk], now=wo.created_at)
     before = DueItem.objects.get(unit=unit, task=DueItem.Task.FINE_FILTER)
 
@@ -365,7 +366,7 @@ def test_same_token_twice_closes_once(wo: Any, mechanic: Any, limits: Any) -> No
         wo,
         K.MEASUREMENT,
         description="Supply pressure under load",
-        record={"limit_id": limits["load"].pk, "value": 9.0},
+        entry={"limit_id": limits["load"].pk, "value": 9.0},
     )
     task_make(wo, K.RELIEF_VALVE_REPLACE, description="Relief valve")
     first = close(wo, mechanic, token="same")
@@ -424,13 +425,13 @@ def test_a_server_error_records_nothing_and_says_how_to_retry(
     as_mechanic: Any, wo: Any, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     task = task_make(
-        wo, K.RELIEF_VALVE_REPLACE, description="Relief valve", record={"part_number": "RV-1"}
+        wo, K.RELIEF_VALVE_REPLACE, description="Relief valve", entry={"part_number": "RV-1"}
     )
 
     def broken(**kwargs: Any) -> None:
         raise RuntimeError("disk full")
 
-    monkeypatch.setattr(close_records, "service_event_append", broken)
+    monkeypatch.setattr(close_module, "service_event_append", broken)
     response = as_mechanic.post(
         reverse("workorders:close", args=[wo.pk]), {"token": "t-err", "hour_meter": "2000"}
     )
@@ -442,7 +443,7 @@ def test_a_server_error_records_nothing_and_says_how_to_retry(
     task.refresh_from_db()
     assert wo.status == WorkOrder.Status.OPEN
     assert wo.hour_meter == 2_000.0  # the hour meter sent with the close is kept as a draft
-    assert task.record["part_number"] == "RV-1"
+    assert task.entry["part_number"] == "RV-1"
     assert not MeterReading.objects.filter(source=MeterReading.Source.WORK_ORDER).exists()
     assert not Component.objects.filter(unit=wo.unit, part_number="RV-1").exists()
 
@@ -453,7 +454,7 @@ def test_a_task_without_a_linked_part_renews_the_part_at_its_cylinder(
     # Planned tasks may name only the cylinder (as the demo's do): the fitted part is found.
     injector = wo.unit.components.get(kind=ComponentKind.INJECTOR, position=5)
     task_make(wo, K.INJECTOR_REPLACE, cylinder=5, component=None, description="Injector 5",
-              record={"new_serial": "INJ-5-NEW"})  # fmt: skip
+              entry={"new_serial": "INJ-5-NEW"})  # fmt: skip
     task_make(wo, K.CONNECTOR_REPLACE, cylinder=5, component=None, description="Connector 5")
     assert close(wo, mechanic).result == "closed"
     event = ServiceEvent.objects.get(work_order=wo, kind=ServiceEvent.Kind.INJECTOR_REPLACED)

@@ -10,7 +10,7 @@ from django.db import connection
 
 from fleetfuel.fleet.models import MeterReading
 from fleetfuel.ledger.models import ServiceEvent
-from fleetfuel.workorders import closing
+from fleetfuel.workorders.close import CloseOutcome, work_order_close
 from fleetfuel.workorders.forms import JobEntry
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 from tests.workorders.conftest import task_make
@@ -22,21 +22,21 @@ def test_two_tablets_close_at_once_exactly_one_wins(
     postgres: None, transactional_db: Any, wo: WorkOrder, mechanic: Any, manager: Any
 ) -> None:
     task_make(wo, WorkOrderTask.Kind.INJECTOR_REPLACE, cylinder=2, description="Injector 2",
-              record={"new_serial": "N-2", "old_serial": "O-2"})  # fmt: skip
+              entry={"new_serial": "N-2", "old_serial": "O-2"})  # fmt: skip
     task_make(wo, WorkOrderTask.Kind.CONNECTOR_REPLACE, cylinder=2, description="Connector 2")
     entries = {
         "tablet-a": (manager, "Manager: all tight"),
         "tablet-b": (mechanic, "Mechanic: torque checked twice"),
     }
     barrier = threading.Barrier(len(entries))
-    outcomes: dict[str, closing.CloseOutcome] = {}
+    outcomes: dict[str, CloseOutcome] = {}
     errors: list[BaseException] = []
 
     def tablet(token: str) -> None:
         user, note = entries[token]
         try:
             barrier.wait(timeout=10)
-            outcomes[token] = closing.work_order_close(
+            outcomes[token] = work_order_close(
                 work_order_id=wo.pk,
                 user=user,
                 token=token,

@@ -16,8 +16,9 @@ from fleetfuel.fleet.models import ComponentKind, MeterReading
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem
-from fleetfuel.planning.orders import work_orders_from_due_items
-from fleetfuel.workorders import actions, closing
+from fleetfuel.workorders import actions
+from fleetfuel.workorders.actions import work_orders_from_due_items
+from fleetfuel.workorders.close import CloseOutcome, work_order_close
 from fleetfuel.workorders.forms import JobEntry, not_done_reason_clean
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 from tests.workorders.conftest import task_make
@@ -46,9 +47,9 @@ def job(hours: float | None = 2_000.0) -> JobEntry:
     )
 
 
-def close(wo: WorkOrder, user: Any, token: str = "nd-1", **kw: Any) -> closing.CloseOutcome:
+def close(wo: WorkOrder, user: Any, token: str = "nd-1", **kw: Any) -> CloseOutcome:
     kw.setdefault("job", job())
-    return closing.work_order_close(work_order_id=wo.pk, user=user, token=token, **kw)
+    return work_order_close(work_order_id=wo.pk, user=user, token=token, **kw)
 
 
 @pytest.fixture
@@ -76,7 +77,7 @@ def planned(wo: WorkOrder, primary_due: DueItem) -> WorkOrderTask:
 def relief(wo: WorkOrder) -> WorkOrderTask:
     """A task that is done (it has no required field)."""
     return task_make(
-        wo, K.RELIEF_VALVE_REPLACE, description="Replace relief valve", record={"part_number": "RV"}
+        wo, K.RELIEF_VALVE_REPLACE, description="Replace relief valve", entry={"part_number": "RV"}
     )
 
 
@@ -184,7 +185,7 @@ def test_undo_brings_the_task_and_its_draft_back(
     assert mark_url(planned) in html and "is-not-done" not in html
     planned.refresh_from_db()
     assert (planned.not_done_at, planned.not_done_reason, planned.not_done_by) == (None, "", None)
-    assert planned.record["part_number"] == "PF-9"
+    assert planned.entry["part_number"] == "PF-9"
 
 
 def test_an_undone_task_needs_its_fields_again(
@@ -325,7 +326,7 @@ def test_a_connector_not_done_does_not_get_round_the_connector_rule(
     wo: WorkOrder, mechanic: Any
 ) -> None:
     task_make(wo, K.INJECTOR_REPLACE, cylinder=3, description="Injector 3",
-              record={"new_serial": "INJ-3"})  # fmt: skip
+              entry={"new_serial": "INJ-3"})  # fmt: skip
     connector = task_make(wo, K.CONNECTOR_REPLACE, cylinder=3, description="Connector 3")
     actions.task_not_done_mark(task_id=connector.pk, user=mechanic, reason="No connector left")
     outcome = close(wo, mechanic)
@@ -340,7 +341,7 @@ def test_a_measurement_not_done_creates_no_follow_up(
         wo,
         K.MEASUREMENT,
         description="Supply pressure under load",
-        record={"limit_id": limits["load"].pk, "value": 3.2},  # outside its limits
+        entry={"limit_id": limits["load"].pk, "value": 3.2},  # outside its limits
     )
     actions.task_not_done_mark(task_id=measured.pk, user=mechanic, reason="Gauge is away")
     outcome = close(wo, mechanic)

@@ -8,12 +8,13 @@ from zoneinfo import ZoneInfo
 
 import pint
 import pytest
+from django.template.loader import render_to_string
 from django.urls import reverse
 from django.utils import timezone
 
 from fleetfuel.fleet.models import ComponentKind
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
-from fleetfuel.workorders.presenters import CAUTIONS
+from services.safety import HP_CAUTION
 from tests import factories as f
 from tests.workorders.conftest import task_make, work_order_make
 
@@ -74,7 +75,7 @@ def test_auditor_post_to_every_write_url_is_forbidden(
     wo.refresh_from_db()
     task.refresh_from_db()
     assert (wo.status, wo.hour_meter, wo.notes) == (WorkOrder.Status.OPEN, None, "")
-    assert task.record == {} and wo.tasks.count() == 1
+    assert task.entry == {} and wo.tasks.count() == 1
     assert (task.not_done_at, task.not_done_reason) == (None, "")
 
 
@@ -199,7 +200,7 @@ def test_task_draft_round_trip(as_mechanic: Any, wo: WorkOrder, task: WorkOrderT
     assert task.draft_saved_at is not None
     local = timezone.localtime(task.draft_saved_at, ZoneInfo(wo.unit.site.time_zone))
     assert f"Saved {local:%H:%M}" in response.content.decode()
-    assert task.record["new_serial"] == "new-777" and task.record["notes"] == "Seat cleaned"
+    assert task.entry["new_serial"] == "new-777" and task.entry["notes"] == "Seat cleaned"
     assert task.cylinder == 3
     assert task.component == wo.unit.components.get(kind=ComponentKind.INJECTOR, position=3)
     page = as_mechanic.get(reverse("workorders:detail", args=[wo.pk])).content.decode()
@@ -209,9 +210,7 @@ def test_task_draft_round_trip(as_mechanic: Any, wo: WorkOrder, task: WorkOrderT
 def test_task_draft_reports_a_bad_number_and_keeps_the_rest(
     as_mechanic: Any, wo: WorkOrder, limits: Any
 ) -> None:
-    m = task_make(
-        wo, K.MEASUREMENT, description="Supply pressure under load", record={"value": 5.0}
-    )
+    m = task_make(wo, K.MEASUREMENT, description="Supply pressure under load", entry={"value": 5.0})
     response = as_mechanic.post(
         reverse("workorders:task_save", args=[m.pk]),
         {"limit": str(limits["load"].pk), "value": "five", "notes": "gauge B"},
@@ -221,17 +220,21 @@ def test_task_draft_reports_a_bad_number_and_keeps_the_rest(
     assert response.status_code == 200
     assert "Measured value: “five” is not a number." in html
     m.refresh_from_db()
-    assert m.record["value"] == 5.0 and m.record["notes"] == "gauge B"
+    assert m.entry["value"] == 5.0 and m.entry["notes"] == "gauge B"
 
 
-def test_pressure_typed_in_psi_is_stored_in_bar(
-    client: Any, unit_class: Any, manager: Any, limits: Any
-) -> None:
+@pytest.fixture
+def us_wo(client: Any, unit_class: Any, manager: Any) -> WorkOrder:
+    """A work order at a site that types US customary units; its mechanic is logged in."""
     us_site = f.site_make(name="Desert Yard", code="desert", unit_system="us")
     us_unit = f.unit_make(site=us_site, unit_class=unit_class, fleet_number="D-001")
     tech = f.user_make("mechanic", sites=[us_site])
     client.force_login(tech)
-    wo = work_order_make(unit=us_unit, created_by=manager, assigned_to=tech)
+    return work_order_make(unit=us_unit, created_by=manager, assigned_to=tech)
+
+
+def test_pressure_typed_in_psi_is_stored_in_bar(client: Any, us_wo: WorkOrder, limits: Any) -> None:
+    wo = us_wo
     m = task_make(wo, K.MEASUREMENT, description="Supply pressure under load")
     response = client.post(
         reverse("workorders:task_save", args=[m.pk]),
@@ -242,12 +245,29 @@ def test_pressure_typed_in_psi_is_stored_in_bar(
     m.refresh_from_db()
     # Independent check with pint: 58 psi in bar (gauge stays gauge).
     expected = pint.UnitRegistry().Quantity(58, "psi").to("bar").magnitude
-    assert m.record["value"] == pytest.approx(expected, rel=1e-9)
-    assert m.record["value"] == pytest.approx(3.99896, abs=1e-5)
+    assert m.entry["value"] == pytest.approx(expected, rel=1e-9)
+    assert m.entry["value"] == pytest.approx(3.99896, abs=1e-5)
     html = response.content.decode()
     assert "Outside limits" in html  # 58 psi is just under 4.0 bar(g)
     page = client.get(reverse("workorders:detail", args=[wo.pk])).content.decode()
     assert 'value="58"' in page and "(psig)" in page
+
+
+def test_water_typed_in_us_fluid_ounces_is_stored_in_ml(client: Any, us_wo: WorkOrder) -> None:
+    wo = us_wo
+    drain = task_make(wo, K.SEPARATOR_DRAIN, description="Drain separator")
+    response = client.post(
+        reverse("workorders:task_save", args=[drain.pk]),
+        {"water_ml": "1.5", "appearance": "cloudy"},
+        **HTMX,
+    )
+    assert response.status_code == 200
+    drain.refresh_from_db()
+    # Independent check with pint: 1.5 US fl oz in mL.
+    expected = pint.UnitRegistry().Quantity(1.5, "US_fluid_ounce").to("mL").magnitude
+    assert drain.entry["water_ml"] == pytest.approx(expected, rel=1e-9)
+    page = client.get(reverse("workorders:detail", args=[wo.pk])).content.decode()
+    assert 'value="1.5"' in page and "(US fl oz)" in page
 
 
 def test_job_draft_warns_when_the_meter_goes_backwards(as_mechanic: Any, wo: WorkOrder) -> None:
@@ -277,7 +297,7 @@ def test_draft_on_a_closed_work_order_is_refused_and_kept_in_notes(
     assert f"by {manager.username}" in response.content.decode()
     wo.refresh_from_db()
     task.refresh_from_db()
-    assert "LATE-1" in wo.notes and task.record == {}
+    assert "LATE-1" in wo.notes and task.entry == {}
 
 
 def test_plain_form_save_without_javascript(
@@ -289,7 +309,7 @@ def test_plain_form_save_without_javascript(
     assert response.status_code == 302
     assert response["Location"].endswith(f"#task-{task.pk}")
     task.refresh_from_db()
-    assert task.record["new_serial"] == "NOJS-1"
+    assert task.entry["new_serial"] == "NOJS-1"
 
 
 # ----------------------------------------------------------------- adding tasks
@@ -305,7 +325,7 @@ def test_mechanic_adds_a_connector_task(as_mechanic: Any, wo: WorkOrder, mechani
     assert added.cylinder == 3
     assert added.description == "High-pressure connector replaced, cylinder 3"
     assert added.component == wo.unit.components.get(kind=ComponentKind.HP_CONNECTOR, position=3)
-    assert added.record["added_by"] == mechanic.username
+    assert added.entry["added_by"] == mechanic.username
 
 
 def test_adding_a_task_on_a_cylinder_that_does_not_exist_is_refused(
@@ -344,7 +364,15 @@ def test_high_pressure_tasks_show_the_cautions(as_mechanic: Any, wo: WorkOrder) 
         "manufacturer&#x27;s service documentation",
     ):
         assert line in html, line
-    assert len(CAUTIONS) == 5
+    assert len(HP_CAUTION.lines) == 5
+
+
+def test_the_caution_include_needs_nothing_from_the_page() -> None:
+    # The unit page and the work-order page include it as it is: one text, one include.
+    html = render_to_string("includes/_hp_caution.html", {})
+    assert html.count('class="caution"') == 1 and HP_CAUTION.title in html
+    for line in HP_CAUTION.lines:
+        assert line.replace("'", "&#x27;") in html, line
 
 
 def test_low_pressure_tasks_show_no_caution(as_mechanic: Any, wo: WorkOrder) -> None:

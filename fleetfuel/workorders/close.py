@@ -1,0 +1,393 @@
+"""Closing a work order: the rules (services/rules.py, services/hour_meter.py), the manager's
+override, idempotency, the race between two tablets, and what a close writes.
+
+Of two tablets closing at once exactly one wins (the row lock); the other is told who closed
+it and when, and what it entered is appended to the notes. A retried POST with the same
+client token records nothing twice and gets the same outcome back.
+
+A close writes, in one transaction: the hour-meter reading (and a meter replacement), one
+service event per task done through the ledger (kind and fields from the registry,
+kinds.py), the renewed parts, and the follow-up work order.
+
+Tasks marked not done (with a written reason) are left out: no fields, no rules, no service
+event, ``done`` stays False, so their due items stay due. The close notes one line per such
+task ("Not done: <task> — <reason> (<who>)"). A work order whose every task is not done still
+closes (the visit happened: its hour-meter reading is recorded); one with no task is refused.
+
+Follow-ups: measurements outside their limits create ONE new open work order for the unit
+(priority High, due the next day, same assignee, ``follow_up_of`` pointing back) with a
+measurement task per out-of-limit value, against the same limit. A new work order rather than
+a new task: the closed one stays closed and complete, and the follow-up shows in the lists.
+"""
+
+from __future__ import annotations
+
+import uuid
+from dataclasses import dataclass, field
+from datetime import date, datetime, timedelta
+from typing import Any
+
+from django.db import transaction
+from django.utils import timezone
+
+from fleetfuel.accounts.access import user_role
+from fleetfuel.fleet.models import Component, MeterReading, MeterReplacement
+from fleetfuel.ledger.actions import service_event_append
+from fleetfuel.ledger.models import ServiceEvent
+from services import hour_meter, rules
+
+from .actions import (
+    entered_text,
+    job_draft_keep,
+    local_time,
+    lost_entry_note,
+    note_append,
+    person_name,
+    work_order_locked,
+)
+from .context import TaskContext
+from .forms import JobEntry
+from .kinds import Kind, kind_spec
+from .models import WorkOrder, WorkOrderTask
+from .selectors import last_meter_reading, task_context
+from .tasks import closed_task, task_component, task_event_fields, task_missing
+
+
+@dataclass
+class CloseOutcome:
+    """What a close attempt came to.
+
+    ``result``: "closed" (now, or earlier with the same token: ``replay``), "refused"
+    (rules or missing entries; nothing recorded), or "closed_by_other" (another tablet won;
+    this one's entry went into the notes).
+    """
+
+    result: str
+    work_order: WorkOrder
+    violations: list[rules.RuleViolation] = field(default_factory=list)
+    problems: list[str] = field(default_factory=list)
+    message: str = ""
+    replay: bool = False
+    forbidden: bool = False  # an override asked for by someone who may not override
+    follow_up: WorkOrder | None = None
+    not_done: list[WorkOrderTask] = field(default_factory=list)  # left out, still due
+
+
+@dataclass
+class _Visit:
+    """What the close reads of an open work order, under its lock."""
+
+    ctx: TaskContext
+    tasks: list[WorkOrderTask]  # to record
+    not_done: list[WorkOrderTask]  # left out
+    last: MeterReading | None
+    closed: list[rules.ClosedTask]
+    violations: list[rules.RuleViolation]
+    problems: list[str]
+
+
+def not_done_note(*, task: WorkOrderTask) -> str:
+    """The line a close appends to the work order's notes for a task not done."""
+    return (
+        f"Not done: {task.description} — {task.not_done_reason} ({person_name(task.not_done_by)})"
+    )
+
+
+def work_order_close(
+    *,
+    work_order_id: int,
+    user: Any,
+    token: str,
+    job: JobEntry | None = None,
+    override: bool = False,
+    override_reason: str = "",
+    snapshot: str = "",
+    now: datetime | None = None,
+) -> CloseOutcome:
+    """Close a work order: check the rules, then write everything in one transaction.
+
+    ``token`` comes from the close form (made when the page rendered). A retried POST with
+    the same token records nothing twice and gets the same outcome back. ``job`` carries the
+    hour meter and notes as posted with the close (they replace the draft). ``override``
+    asks to close despite overridable rule violations, with ``override_reason``; only a
+    manager may. ``snapshot`` is what the tablet had on screen, kept in the notes if another
+    tablet closed the work order first.
+    """
+    now = now or timezone.now()
+    token = (token or "").strip()[:64] or uuid.uuid4().hex
+    prior = (
+        WorkOrder.objects.filter(close_token=token)
+        .select_related("unit__site", "closed_by", "override_by")
+        .first()
+    )
+    if prior is not None:
+        if prior.pk != work_order_id:
+            raise ValueError("This close form belongs to another work order.")
+        return _replay(prior)
+
+    if job is not None:  # kept as the draft first: a failure further on loses none of it
+        job_draft_keep(work_order_id=work_order_id, job=job, now=now)
+
+    with transaction.atomic():
+        wo = work_order_locked(work_order_id)
+        if wo.status != WorkOrder.Status.OPEN:
+            if wo.close_token == token:
+                return _replay(wo)
+            entered = entered_text(
+                work_order=wo, job=job, override_reason=override_reason, snapshot=snapshot
+            )
+            return _closed_by_other(wo, user=user, now=now, entered=entered)
+        visit = _visit_read(wo)
+        if visit.violations or visit.problems:
+            refusal = _refusal(wo, visit, user=user, override=override, reason=override_reason)
+            if refusal is not None:
+                return refusal  # else every violation is overridden
+        follow_up = _records_write(wo=wo, user=user, visit=visit, now=now)
+        _close_mark(wo, user=user, token=token, visit=visit, reason=override_reason, now=now)
+        return CloseOutcome(
+            result="closed",
+            work_order=wo,
+            violations=visit.violations,
+            message=f"Work order {wo.number} closed.",
+            follow_up=follow_up,
+            not_done=visit.not_done,
+        )
+
+
+def _replay(wo: WorkOrder) -> CloseOutcome:
+    return CloseOutcome(
+        result="closed",
+        work_order=wo,
+        message=f"Work order {wo.number} closed.",
+        replay=True,
+        follow_up=wo.follow_ups.order_by("pk").first(),
+        not_done=list(wo.tasks.filter(not_done_at__isnull=False).order_by("id")),
+    )
+
+
+def _closed_by_other(wo: WorkOrder, *, user: Any, now: datetime, entered: str) -> CloseOutcome:
+    """Another tablet closed it first: keep this one's entry in the notes and say who."""
+    note_append(
+        wo, lost_entry_note(work_order=wo, user=user, now=now, what="close it", entered=entered)
+    )
+    who = person_name(wo.closed_by)
+    when = local_time(wo.closed_at, wo.unit) if wo.closed_at else None
+    return CloseOutcome(
+        result="closed_by_other",
+        work_order=wo,
+        message=(
+            f"{who} closed this work order"
+            + (f" at {when:%H:%M} on {when:%Y-%m-%d}" if when else "")
+            + ". Nothing you entered was lost: it has been added to the work order's notes."
+        ),
+    )
+
+
+def _visit_read(wo: WorkOrder) -> _Visit:
+    """The tasks, the last reading, what is missing and what the rules say."""
+    ctx = task_context(wo)
+    every = list(wo.tasks.select_related("component", "not_done_by").order_by("id"))
+    tasks = [t for t in every if not t.is_not_done]
+    last = last_meter_reading(wo.unit_id)
+    problems = [m for t in tasks for m in task_missing(t, ctx)]
+    problems += hour_meter.meter_entry_problems(
+        hour_meter=wo.hour_meter,
+        meter_replaced=wo.meter_replaced,
+        meter_old_final=wo.meter_old_final,
+        meter_new_start=wo.meter_new_start,
+        last_hours=last.hours if last else None,
+    )
+    if not every:
+        problems.append("There is nothing recorded on this work order: add a task first.")
+    closed = [closed_task(t, ctx) for t in tasks]
+    violations = rules.close_violations(
+        tasks=closed,
+        hour_meter=wo.hour_meter,
+        last_hour_meter=last.hours if last else None,
+        meter_replaced=wo.meter_replaced,
+        cylinders=wo.unit.cylinders,
+    )
+    return _Visit(
+        ctx=ctx,
+        tasks=tasks,
+        not_done=[t for t in every if t.is_not_done],
+        last=last,
+        closed=closed,
+        violations=violations,
+        problems=problems,
+    )
+
+
+def _refusal(
+    wo: WorkOrder, visit: _Visit, *, user: Any, override: bool, reason: str
+) -> CloseOutcome | None:
+    """Why the close is refused, or None when a permitted override lets it through."""
+    refused = CloseOutcome(
+        result="refused",
+        work_order=wo,
+        violations=visit.violations,
+        problems=visit.problems,
+        message="The work order cannot close yet.",
+    )
+    if not override:
+        return refused
+    role = user_role(user)
+    ok, message = rules.override_allowed(violations=visit.violations, role=role, reason=reason)
+    if ok and not visit.problems:
+        return None
+    refused.message = message if not ok else "Fill in what is missing first."
+    refused.forbidden = not rules.override_permitted(role=role)
+    return refused
+
+
+def _close_mark(
+    wo: WorkOrder,
+    *,
+    user: Any,
+    token: str,
+    visit: _Visit,
+    reason: str,
+    now: datetime,
+) -> None:
+    """The work order is closed, by whom and when; tasks not done are noted, an override (of
+    the violations a close still has) is recorded in the ledger."""
+    overridden = visit.violations
+    if visit.not_done:
+        note_append(wo, "\n".join(not_done_note(task=t) for t in visit.not_done))
+    if overridden:
+        wo.override_reason = reason.strip()
+        wo.override_by = user
+        service_event_append(
+            unit=wo.unit,
+            kind=ServiceEvent.Kind.RULE_OVERRIDE,
+            performed_at=now,
+            recorded_by=user,
+            recorded_at=now,
+            hour_meter=wo.hour_meter,
+            cylinder=overridden[0].cylinder if len(overridden) == 1 else None,
+            notes=" ".join(v.message for v in overridden),
+            reason=wo.override_reason,
+            work_order=wo,
+        )
+    wo.status = WorkOrder.Status.CLOSED
+    wo.closed_at = now
+    wo.closed_by = user
+    wo.close_token = token
+    fields = ["status", "closed_at", "closed_by", "close_token", "override_reason", "override_by"]
+    wo.save(update_fields=fields)
+
+
+# --------------------------------------------------------------------------- what a close writes
+
+
+def _records_write(*, wo: WorkOrder, user: Any, visit: _Visit, now: datetime) -> WorkOrder | None:
+    """Write the readings, the service events, the renewed parts and the follow-up (inside
+    the caller's transaction). The planning recompute is enqueued on commit by the ledger's
+    signal."""
+    common = {
+        "unit": wo.unit,
+        "performed_at": now,
+        "recorded_by": user,
+        "recorded_at": now,
+        "hour_meter": wo.hour_meter,
+        "work_order": wo,
+    }
+    _meter_write(wo, last=visit.last, now=now, common=common)
+    today = local_time(now, wo.unit).date()
+    for task in visit.tasks:
+        _task_event_write(task, visit.ctx, common=common, today=today)
+    # Tasks marked not done stay not done: their due items remain due.
+    WorkOrderTask.objects.filter(pk__in=[t.pk for t in visit.tasks]).update(done=True)
+    if not rules.follow_ups(tasks=visit.closed):
+        return None
+    return _follow_up_create(wo=wo, user=user, visit=visit, now=now)
+
+
+def _meter_write(
+    wo: WorkOrder, *, last: MeterReading | None, now: datetime, common: dict[str, Any]
+) -> None:
+    """The reading at the job, after a meter replacement when one was made."""
+    if wo.meter_replaced:
+        old_final = (
+            wo.meter_old_final if wo.meter_old_final is not None else last.hours if last else 0
+        )
+        MeterReplacement.objects.create(
+            unit=wo.unit,
+            replaced_at=now,
+            old_meter_final=old_final,
+            new_meter_start=wo.meter_new_start or 0.0,
+            note=f"Work order {wo.number}",
+        )
+        service_event_append(
+            kind=ServiceEvent.Kind.METER_REPLACED,
+            notes=(
+                f"Old meter's final reading {old_final:g} h; new meter started at "
+                f"{wo.meter_new_start or 0:g} h."
+            ),
+            **common,
+        )
+    MeterReading.objects.create(
+        unit=wo.unit, taken_at=now, hours=wo.hour_meter, source=MeterReading.Source.WORK_ORDER
+    )
+
+
+def _task_event_write(
+    task: WorkOrderTask, ctx: TaskContext, *, common: dict[str, Any], today: date
+) -> None:
+    """The task's service event, its fields as its kind builds them; a renewed part."""
+    spec = kind_spec(task.kind)
+    comp = task_component(task, ctx)
+    service_event_append(kind=spec.event_kind, **task_event_fields(task, ctx, comp), **common)
+    if comp is not None and spec.renews_component:
+        _component_renew(comp, task, today=today, hours=common["hour_meter"])
+
+
+def _component_renew(
+    comp: Component, task: WorkOrderTask, *, today: date, hours: float | None
+) -> None:
+    """The fitted part is now the new one: its serial, part number and fitting point."""
+    entry = task.entry
+    comp.installed_on = today
+    comp.installed_hours = hours if hours is not None else comp.installed_hours
+    update = ["installed_on", "installed_hours"]
+    if entry.get("new_serial"):
+        comp.serial = str(entry["new_serial"])
+        update.append("serial")
+    if entry.get("part_number"):
+        comp.part_number = str(entry["part_number"])
+        update.append("part_number")
+    comp.save(update_fields=update)
+
+
+def _follow_up_number(wo: WorkOrder) -> str:
+    number = f"{wo.number}-F"
+    if len(number) > 20 or WorkOrder.objects.filter(number=number).exists():
+        number = f"FU-{wo.pk}"
+    return number
+
+
+def _follow_up_create(*, wo: WorkOrder, user: Any, visit: _Visit, now: datetime) -> WorkOrder:
+    follow_up = WorkOrder.objects.create(
+        number=_follow_up_number(wo),
+        unit=wo.unit,
+        priority=WorkOrder.Priority.HIGH,
+        due_on=local_time(now, wo.unit).date() + timedelta(days=1),
+        assigned_to=wo.assigned_to,
+        created_by=user,
+        created_at=now,
+        follow_up_of=wo,
+        notes=f"Created when {wo.number} closed: a measurement was outside its limits.",
+    )
+    for task, ct in zip(visit.tasks, visit.closed, strict=True):
+        (text,) = rules.follow_ups(tasks=[ct]) or (None,)
+        if text is None:
+            continue
+        limit = visit.ctx.limit_for(task)
+        WorkOrderTask.objects.create(
+            work_order=follow_up,
+            kind=Kind.MEASUREMENT,
+            cylinder=task.cylinder,
+            description=text[:200],
+            entry={"limit_id": limit.pk} if limit else {},
+        )
+    return follow_up
