@@ -19,7 +19,12 @@ from django.template.loader import render_to_string
 from django.urls import reverse
 from django.views.decorators.http import require_POST
 
-from fleetfuel.accounts.access import require_write, role_required
+from fleetfuel.accounts.access import (
+    require_write,
+    role_required,
+    task_for_user,
+    work_order_for_user,
+)
 
 from . import actions, selectors
 from .forms import not_done_reason_clean
@@ -74,8 +79,8 @@ def _to_task(wo: WorkOrder, task: WorkOrderTask) -> HttpResponse:
 @require_POST
 def task_not_done(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     require_write(request.user)
-    task = selectors.task_for_user(request.user, pk)
-    wo = selectors.work_order_for_user(request.user, task.work_order_id)
+    task = task_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, task.work_order_id)
     typed = str(request.POST.get("reason", ""))[:2000]
     reason, error = not_done_reason_clean(raw=typed)
     if error:
@@ -88,7 +93,7 @@ def task_not_done(request: HtmxHttpRequest, pk: int) -> HttpResponse:
         actions.task_not_done_mark(task_id=task.pk, user=request.user, reason=reason)
     except actions.WorkOrderNotOpen as exc:
         return _refused(request, exc, task)
-    task = selectors.task_for_user(request.user, pk)
+    task = task_for_user(request.user, pk)
     if not request.htmx:
         messages.success(
             request,
@@ -103,13 +108,13 @@ def task_not_done(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 @require_POST
 def task_not_done_undo(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     require_write(request.user)
-    task = selectors.task_for_user(request.user, pk)
-    wo = selectors.work_order_for_user(request.user, task.work_order_id)
+    task = task_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, task.work_order_id)
     try:
         actions.task_not_done_undo(task_id=task.pk, user=request.user)
     except actions.WorkOrderNotOpen as exc:
         return _refused(request, exc, task)
-    task = selectors.task_for_user(request.user, pk)
+    task = task_for_user(request.user, pk)
     if not request.htmx:
         messages.success(request, f"“{task.description}” is to be done again: fill in its fields.")
         return _to_task(wo, task)
@@ -120,8 +125,8 @@ def _refused(
     request: HtmxHttpRequest, exc: actions.WorkOrderNotOpen, task: WorkOrderTask
 ) -> HttpResponse:
     """The work order closed meanwhile: 409 for htmx (the card, read-only, says so)."""
-    wo = selectors.work_order_for_user(request.user, exc.work_order.pk)
-    task = selectors.task_for_user(request.user, task.pk)
+    wo = work_order_for_user(request.user, exc.work_order.pk)
+    task = task_for_user(request.user, task.pk)
     if not request.htmx:
         messages.error(request, not_saved_text(exc))
         return _to_task(wo, task)

@@ -7,7 +7,6 @@ from typing import Any
 
 from django.db.models import Count, OuterRef, Q, QuerySet, Subquery
 from django.db.models.functions import Coalesce
-from django.shortcuts import get_object_or_404
 
 from fleetfuel.accounts.access import site_ids_for_user, user_role
 from fleetfuel.accounts.models import Role
@@ -22,25 +21,6 @@ from .models import WorkOrder, WorkOrderTask
 def work_orders_visible(user: Any) -> QuerySet[WorkOrder]:
     """Every work order at the sites the user may see."""
     return WorkOrder.objects.filter(unit__site_id__in=site_ids_for_user(user))
-
-
-def work_order_for_user(user: Any, pk: int) -> WorkOrder:
-    """The work order if the user may see it; 404 otherwise (no hint that it exists)."""
-    return get_object_or_404(
-        work_orders_visible(user).select_related(
-            "unit__site", "unit__unit_class", "assigned_to", "closed_by", "override_by"
-        ),
-        pk=pk,
-    )
-
-
-def task_for_user(user: Any, pk: int) -> WorkOrderTask:
-    return get_object_or_404(
-        WorkOrderTask.objects.select_related(
-            "work_order__unit__site", "component", "not_done_by"
-        ).filter(work_order__unit__site_id__in=site_ids_for_user(user)),
-        pk=pk,
-    )
 
 
 def _with_counts(qs: QuerySet[WorkOrder]) -> QuerySet[WorkOrder]:

@@ -18,7 +18,13 @@ from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_POST
 
-from fleetfuel.accounts.access import require_write, role_required, user_role
+from fleetfuel.accounts.access import (
+    require_write,
+    role_required,
+    task_for_user,
+    user_role,
+    work_order_for_user,
+)
 from fleetfuel.accounts.models import Role
 from services import rules
 
@@ -73,7 +79,7 @@ def work_order_list(request: HtmxHttpRequest) -> HttpResponse:
 
 @role_required(*ALL_ROLES)
 def detail(request: HtmxHttpRequest, pk: int) -> HttpResponse:
-    wo = selectors.work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk)
     return render(request, "workorders/detail.html", page_context_build(request, wo))
 
 
@@ -98,8 +104,8 @@ def _posted(request: HttpRequest) -> dict[str, str]:
 @require_POST
 def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     require_write(request.user)
-    task = selectors.task_for_user(request.user, pk)
-    wo = selectors.work_order_for_user(request.user, task.work_order_id)
+    task = task_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, task.work_order_id)
     ctx = selectors.task_context(wo)
     draft = task_draft_clean(task, request.POST, ctx)
     status = 200
@@ -130,7 +136,7 @@ def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 @require_POST
 def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     require_write(request.user)
-    wo = selectors.work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk)
     job = job_entry_clean(request.POST)
     status = 200
     save_error = ""
@@ -143,7 +149,7 @@ def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
         )
     except actions.WorkOrderNotOpen as exc:
         status, save_error = 409, not_saved_text(exc)
-    wo = selectors.work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk)
     if not request.htmx:
         _flash(request, save_error, job.errors.values(), "Saved the job fields.")
         return redirect(reverse("workorders:detail", args=[wo.pk]) + "#job")
@@ -168,7 +174,7 @@ def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 @require_POST
 def task_add(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     require_write(request.user)
-    wo = selectors.work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk)
     new, error = new_task_clean(request.POST, selectors.task_context(wo))
     if new is None:
         context = page_context_build(request, wo, add_error=error)
@@ -196,7 +202,7 @@ def _snapshot(request: HttpRequest) -> str:
 
 def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
     require_write(request.user)
-    wo = selectors.work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk)
     token = request.POST.get("token", "")
     job = job_entry_clean(request.POST)
     try:
@@ -215,7 +221,7 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
     except Exception:
         # Nothing was closed (the transaction rolled back); the drafts are on the server.
         log.exception("closing work order %s failed", wo.pk)
-        wo = selectors.work_order_for_user(request.user, pk)
+        wo = work_order_for_user(request.user, pk)
         context = page_context_build(
             request,
             wo,
@@ -241,7 +247,7 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
                 text += f" Not done, so still due on the unit: {names}."
             messages.success(request, text)
         return redirect("workorders:detail", pk=wo.pk)
-    wo = selectors.work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk)
     if outcome.result == "closed_by_other":
         messages.warning(request, outcome.message)
         return redirect("workorders:detail", pk=wo.pk)
@@ -262,7 +268,7 @@ def override(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     """Close despite overridable rules, with a written reason. Only a manager may: a
     mechanic's attempt reaches the rules (which refuse it) and is answered 403."""
     if not rules.override_permitted(role=user_role(request.user)):
-        wo = selectors.work_order_for_user(request.user, pk)
+        wo = work_order_for_user(request.user, pk)
         context = page_context_build(
             request,
             wo,

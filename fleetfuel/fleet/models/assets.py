@@ -18,6 +18,7 @@ from django.db.models import Q
 from django.db.models.functions import Coalesce
 
 from services.fuel_quality import parse_iso4406
+from services.rules import cylinder_exists
 
 
 def validate_time_zone(value: str) -> None:
@@ -192,7 +193,9 @@ class Component(models.Model):
         if self.kind in PER_CYLINDER_KINDS:
             if self.position is None:
                 raise ValidationError({"position": "Give the cylinder number for this part."})
-            if self.unit_id and self.position > self.unit.cylinders:
+            if self.unit_id and not cylinder_exists(
+                cylinder=self.position, cylinders=self.unit.cylinders
+            ):
                 raise ValidationError(
                     {"position": f"The unit has {self.unit.cylinders} cylinders."}
                 )

@@ -12,6 +12,7 @@ from django.db import models
 from django.db.models import Q
 
 from services.fuel_quality import codes_from_counts, format_iso4406, parse_iso4406
+from services.hour_meter import meter_backwards
 
 from .assets import FILTER_KINDS, Component, Site, Unit
 
@@ -48,12 +49,12 @@ class MeterReading(models.Model):
             .order_by("-taken_at")
             .first()
         )
-        if previous is None or self.hours >= previous.hours:
+        if previous is None:
             return
         replaced = MeterReplacement.objects.filter(
             unit_id=self.unit_id, replaced_at__gt=previous.taken_at, replaced_at__lte=self.taken_at
         ).exists()
-        if not replaced:
+        if meter_backwards(hours=self.hours, earlier_hours=previous.hours, replaced=replaced):
             raise ValidationError(
                 {
                     "hours": f"{self.hours:,.1f} h is lower than the previous reading "
