@@ -32,18 +32,65 @@ def settings_error(**env: str) -> str:
 
 
 @pytest.mark.parametrize(
-    "env,name",
+    "env,name,hint",
     [
-        ({"DEBUG": "true", "PLANNING_BATCH_SIZE": "lots"}, "PLANNING_BATCH_SIZE"),
-        ({"DEBUG": "maybe"}, "DEBUG"),
-        ({"DEBUG": "false"}, "SECRET_KEY"),
-        ({"DEBUG": "false", "SECRET_KEY": "short"}, "SECRET_KEY"),
-        ({"DEBUG": "true", "DATABASE_URL": "nosuchdb://x"}, "DATABASE_URL"),
+        ({"DEBUG": "true", "PLANNING_BATCH_SIZE": "lots"}, "PLANNING_BATCH_SIZE", "whole number"),
+        ({"DEBUG": "true", "PLANNING_BATCH_SIZE": "0"}, "PLANNING_BATCH_SIZE", "1 or more"),
+        ({"DEBUG": "maybe"}, "DEBUG", "boolean"),
+        ({"DEBUG": "false"}, "SECRET_KEY", "required"),
+        ({"DEBUG": "false", "SECRET_KEY": "short"}, "SECRET_KEY", "50 characters"),
+        ({"DEBUG": "true", "DATABASE_URL": "nosuchdb://x"}, "DATABASE_URL", "not usable"),
+        ({"DEBUG": "true", "DATABASE_URL": "mysql://u@h/db"}, "DATABASE_URL", "PostgreSQL"),
+        ({"DEBUG": "true", "DB_CONN_MAX_AGE": "-1"}, "DB_CONN_MAX_AGE", "0 or more"),
+        ({"DEBUG": "true", "LOG_LEVEL": "LOUD"}, "LOG_LEVEL", "DEBUG, INFO, WARNING, ERROR"),
+        ({"DEBUG": "true", "FLEETFUEL_TESTING": "sometimes"}, "FLEETFUEL_TESTING", "boolean"),
+        ({"DEBUG": "true", "CELERY_TASK_ALWAYS_EAGER": "2"}, "CELERY_TASK_ALWAYS_EAGER", "boolean"),
+        ({"DEBUG": "true", "CELERY_BROKER_URL": "localhost:6379"}, "CELERY_BROKER_URL", "redis://"),
+        (
+            {"DEBUG": "true", "CELERY_RESULT_BACKEND": "redis://host:port/1"},
+            "CELERY_RESULT_BACKEND",
+            "redis://",
+        ),
+        ({"DEBUG": "true", "EMAIL_PORT": "70000"}, "EMAIL_PORT", "from 1 to 65535"),
+        ({"DEBUG": "true", "EMAIL_TIMEOUT": "0"}, "EMAIL_TIMEOUT", "1 or more"),
+        ({"DEBUG": "true", "EMAIL_USE_TLS": "tls"}, "EMAIL_USE_TLS", "boolean"),
+        ({"DEBUG": "true", "EMAIL_HOST": "smtp.example.com:587"}, "EMAIL_HOST", "EMAIL_PORT"),
+        ({"DEBUG": "true", "DEFAULT_FROM_EMAIL": "fleetfuel"}, "DEFAULT_FROM_EMAIL", "address"),
+        ({"DEBUG": "true", "SITE_URL": "fleetfuel.example.com"}, "SITE_URL", "https://"),
+        ({"DEBUG": "true", "ALLOWED_HOSTS": "https://ff.example.com"}, "ALLOWED_HOSTS", "host"),
+        (
+            {"DEBUG": "true", "CSRF_TRUSTED_ORIGINS": "ff.example.com"},
+            "CSRF_TRUSTED_ORIGINS",
+            "https://",
+        ),
+        ({"DEBUG": "true", "SECURE_SSL_REDIRECT": "2"}, "SECURE_SSL_REDIRECT", "boolean"),
+        ({"DEBUG": "true", "SECURE_HSTS_SECONDS": "-1"}, "SECURE_HSTS_SECONDS", "0 or more"),
+        ({"DEBUG": "true", "SECURE_HSTS_PRELOAD": "please"}, "SECURE_HSTS_PRELOAD", "boolean"),
     ],
 )
-def test_bad_value_names_the_variable(env: dict[str, str], name: str) -> None:
+def test_bad_value_names_the_variable(env: dict[str, str], name: str, hint: str) -> None:
     error = settings_error(**env)
-    assert "ImproperlyConfigured" in error and name in error
+    # The last line is the message a person reads: no logging or parsing traceback instead.
+    message = error.strip().splitlines()[-1] if error else ""
+    assert message.startswith("django.core.exceptions.ImproperlyConfigured"), error
+    assert f"variable {name}" in message and hint in message, message
+
+
+@pytest.mark.parametrize(
+    "name,value",
+    [
+        ("LOG_LEVEL", "warning"),
+        ("CELERY_BROKER_URL", "redis://127.0.0.1:6379/14"),
+        ("CELERY_RESULT_BACKEND", "rediss://cache.example.com:6380/1"),
+        ("DB_CONN_MAX_AGE", "0"),
+        ("EMAIL_PORT", "465"),
+        ("DEFAULT_FROM_EMAIL", "Depot office <office@example.com>"),
+        ("SITE_URL", "https://fleetfuel.example.com/"),
+        ("CSRF_TRUSTED_ORIGINS", "https://a.example.com, http://b.example.com:8080"),
+    ],
+)
+def test_good_value_is_accepted(name: str, value: str) -> None:
+    assert settings_error(DEBUG="true", **{name: value}) == ""
 
 
 def test_defaults_need_nothing_but_debug() -> None:
