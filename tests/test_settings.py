@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -114,3 +115,51 @@ def test_deploy_check_is_clean_with_production_variables() -> None:
     )
     assert result.returncode == 0, result.stdout + result.stderr
     assert "no issues" in result.stdout
+
+
+def settings_variables() -> set[str]:
+    """Every environment variable fleetfuel/settings.py reads (through its env_* helpers)."""
+    source = (ROOT / "fleetfuel" / "settings.py").read_text()
+    return set(re.findall(r'(?:env_\w+|url_check)\(\s*"([A-Z][A-Z0-9_]*)"', source))
+
+
+def env_example() -> dict[str, str]:
+    lines = (ROOT / ".env.example").read_text().splitlines()
+    pairs = (line.partition("=") for line in lines if line and not line.startswith("#"))
+    return {name: value for name, _, value in pairs}
+
+
+def test_settings_variables_are_found() -> None:
+    # The scan below finds what it should (a scan that found nothing would pass anything).
+    assert {"LOG_LEVEL", "DB_CONN_MAX_AGE", "CELERY_RESULT_BACKEND", "FLEETFUEL_TESTING"} <= (
+        settings_variables()
+    )
+
+
+def test_readme_table_and_env_example_name_every_variable() -> None:
+    readme = (ROOT / "README.md").read_text()
+    table = {
+        m
+        for line in readme.splitlines()
+        if line.startswith("| `")
+        for m in re.findall(r"`([A-Z][A-Z0-9_]*)`", line.split("|")[1])
+    }
+    example = (ROOT / ".env.example").read_text()
+    for name in sorted(settings_variables() | {"POSTGRES_PASSWORD"}):
+        assert name in table, f"README's variable table lacks {name}"
+        assert re.search(rf"\b{name}\b", example), f".env.example lacks {name}"
+
+
+def test_compose_passes_every_env_example_variable_and_requires_the_password() -> None:
+    compose = (ROOT / "docker-compose.yml").read_text()
+    for name in env_example():
+        assert "${" + name + ":" in compose, f"docker-compose.yml does not pass {name}"
+    # No fixed fallback password: compose stops when POSTGRES_PASSWORD is unset.
+    assert "${POSTGRES_PASSWORD:-" not in compose
+    assert compose.count("${POSTGRES_PASSWORD:?") == 2
+
+
+def test_env_example_values_are_accepted() -> None:
+    values = {k: v for k, v in env_example().items() if k != "POSTGRES_PASSWORD"}
+    values["SECRET_KEY"] = "k" * 20 + "-production-like-secret-key-0123456789-abcdef"
+    assert settings_error(**values) == ""
