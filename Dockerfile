@@ -2,11 +2,11 @@
 FROM python:3.12-slim
 ENV PYTHONDONTWRITEBYTECODE=1 PYTHONUNBUFFERED=1
 WORKDIR /app
-COPY pyproject.toml ./
-COPY fleetfuel ./fleetfuel
-COPY services ./services
-RUN pip install --no-cache-dir .
+# The runtime lock (make lock): the same versions as CI, every file checked against its hash.
+COPY requirements/base.txt ./requirements/base.txt
+RUN pip install --no-cache-dir --require-hashes -r requirements/base.txt
 COPY . .
+RUN pip install --no-cache-dir --no-deps .
 RUN SECRET_KEY=build-only-collectstatic-key-not-used-at-run-time-0123456789 \
     python manage.py collectstatic --no-input
 RUN useradd --system --uid 1000 fleetfuel && chown -R fleetfuel /app

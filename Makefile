@@ -11,13 +11,15 @@ HOST ?= 127.0.0.1
 PORT ?= 8000
 DEMO_ENV := DEBUG=true
 
-.PHONY: demo test lint format migrations-check check-deploy benchmark clean venv
+.PHONY: demo test lint format migrations-check check-deploy benchmark clean venv lock
 
-$(STAMP): pyproject.toml
+# The venv installs the lock (requirements/test.txt, every file checked against its hash),
+# then fleetfuel itself without dependencies; it is redone when the lock or pyproject changes.
+$(STAMP): requirements/test.txt pyproject.toml
 	@$(PYTHON) -c 'import sys; sys.exit(0 if sys.version_info >= (3, 12) else "fleetfuel needs Python 3.12 or newer (found " + sys.version.split()[0] + ")")'
 	$(PYTHON) -m venv $(VENV)
-	$(BIN)/pip install --quiet --upgrade pip
-	$(BIN)/pip install --quiet -e '.[test]'
+	$(BIN)/pip install --quiet --require-hashes -r requirements/test.txt
+	$(BIN)/pip install --quiet --no-deps -e .
 	@touch $(STAMP)
 
 venv: $(STAMP)
@@ -55,6 +57,10 @@ check-deploy: $(STAMP)
 
 benchmark: $(STAMP)
 	$(PY) manage.py benchmark
+
+# Regenerate requirements/*.txt from pyproject.toml with uv (LOCK_ARGS=--upgrade for newer releases).
+lock: | $(STAMP)
+	LOCK_ARGS="$(LOCK_ARGS)" sh requirements/lock.sh
 
 clean:
 	rm -rf $(VENV) var/*.sqlite3*

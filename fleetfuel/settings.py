@@ -10,7 +10,9 @@ a message that names the variable.
 from __future__ import annotations
 
 import os
+from email.utils import parseaddr
 from pathlib import Path
+from urllib.parse import urlsplit
 
 import dj_database_url
 from celery.schedules import crontab
@@ -42,16 +44,52 @@ def env_bool(name: str, default: bool) -> bool:
     )
 
 
-def env_int(name: str, default: int) -> int:
+def env_int(name: str, default: int, *, low: int | None = None, high: int | None = None) -> int:
+    """A whole number from ``name``, within ``low``..``high`` when given."""
     value = os.environ.get(name)
     if value is None or value == "":
         return default
     try:
-        return int(value)
+        number = int(value)
     except ValueError:
         raise ImproperlyConfigured(
             f"Environment variable {name}={value!r} is not a whole number."
         ) from None
+    if (low is not None and number < low) or (high is not None and number > high):
+        bounds = f"{low} or more" if high is None else f"from {low} to {high}"
+        raise ImproperlyConfigured(f"Environment variable {name}={value!r} must be {bounds}.")
+    return number
+
+
+def env_choice(name: str, default: str, choices: tuple[str, ...]) -> str:
+    """One of ``choices`` (any case), returned as written in ``choices``."""
+    value = env_str(name, default)
+    by_upper = {choice.upper(): choice for choice in choices}
+    if value.strip().upper() not in by_upper:
+        raise ImproperlyConfigured(
+            f"Environment variable {name}={value!r} is not one of {', '.join(choices)}."
+        )
+    return by_upper[value.strip().upper()]
+
+
+def url_check(name: str, value: str, *, schemes: tuple[str, ...], example: str) -> str:
+    """``value`` if it is a URL with one of ``schemes``, a host and a port that is a number."""
+    parts = urlsplit(value)
+    try:
+        port_ok = parts.port is None or parts.port > 0
+    except ValueError:
+        port_ok = False
+    if parts.scheme not in schemes or not parts.hostname or not port_ok:
+        raise ImproperlyConfigured(
+            f"Environment variable {name}={value!r} is not a URL starting "
+            f"{' or '.join(f'{scheme}://' for scheme in schemes)} with a host, like {example}."
+        )
+    return value
+
+
+def env_url(name: str, default: str, *, schemes: tuple[str, ...], example: str) -> str:
+    value = env_str(name, default)
+    return url_check(name, value, schemes=schemes, example=example) if value else value
 
 
 def env_list(name: str, default: list[str]) -> list[str]:
@@ -60,6 +98,21 @@ def env_list(name: str, default: list[str]) -> list[str]:
         return default
     return [item.strip() for item in value.split(",") if item.strip()]
 
+
+def env_hosts(name: str, default: list[str]) -> list[str]:
+    """Host names only: a scheme or a path (``https://host/``) is a common slip."""
+    hosts = env_list(name, default)
+    for host in hosts:
+        if "/" in host:
+            raise ImproperlyConfigured(
+                f"Environment variable {name} holds {host!r}: give host names only "
+                "(fleetfuel.example.com), without scheme or path."
+            )
+    return hosts
+
+
+WEB = ("https", "http")
+REDIS = ("redis", "rediss")
 
 DEBUG = env_bool("DEBUG", False)
 TESTING = env_bool("FLEETFUEL_TESTING", False)
@@ -75,8 +128,11 @@ else:
             "when DEBUG is off."
         )
 
-ALLOWED_HOSTS = env_list("ALLOWED_HOSTS", ["localhost", "127.0.0.1", "[::1]"] if DEBUG else [])
-CSRF_TRUSTED_ORIGINS = env_list("CSRF_TRUSTED_ORIGINS", [])
+ALLOWED_HOSTS = env_hosts("ALLOWED_HOSTS", ["localhost", "127.0.0.1", "[::1]"] if DEBUG else [])
+CSRF_TRUSTED_ORIGINS = [
+    url_check("CSRF_TRUSTED_ORIGINS", origin, schemes=WEB, example="https://fleetfuel.example.com")
+    for origin in env_list("CSRF_TRUSTED_ORIGINS", [])
+]
 
 INSTALLED_APPS = [
     "django.contrib.admin",
@@ -131,14 +187,21 @@ TEMPLATES = [
 
 # Database: DATABASE_URL (postgres://user@host:5432/name) or the SQLite default under var/.
 _default_sqlite = f"sqlite:///{BASE_DIR / 'var' / 'fleetfuel.sqlite3'}"
+SUPPORTED_DATABASES = ("django.db.backends.postgresql", "django.db.backends.sqlite3")
+_conn_max_age = env_int("DB_CONN_MAX_AGE", 60, low=0)
 try:
     DATABASES = {
         "default": dj_database_url.parse(
-            env_str("DATABASE_URL", _default_sqlite), conn_max_age=env_int("DB_CONN_MAX_AGE", 60)
+            env_str("DATABASE_URL", _default_sqlite), conn_max_age=_conn_max_age
         )
     }
 except ValueError as exc:
     raise ImproperlyConfigured(f"Environment variable DATABASE_URL is not usable: {exc}") from exc
+if DATABASES["default"]["ENGINE"] not in SUPPORTED_DATABASES:
+    raise ImproperlyConfigured(
+        "Environment variable DATABASE_URL must name PostgreSQL (postgres://user@host:5432/name) "
+        "or SQLite (sqlite:///path)."
+    )
 if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     (BASE_DIR / "var").mkdir(exist_ok=True)
     DATABASES["default"]["CONN_MAX_AGE"] = 0
@@ -186,7 +249,7 @@ STORAGES = {
 SECURE_SSL_REDIRECT = env_bool("SECURE_SSL_REDIRECT", not (DEBUG or TESTING))
 SESSION_COOKIE_SECURE = not DEBUG
 CSRF_COOKIE_SECURE = not DEBUG
-SECURE_HSTS_SECONDS = env_int("SECURE_HSTS_SECONDS", 0 if DEBUG else 31_536_000)
+SECURE_HSTS_SECONDS = env_int("SECURE_HSTS_SECONDS", 0 if DEBUG else 31_536_000, low=0)
 SECURE_HSTS_INCLUDE_SUBDOMAINS = not DEBUG
 SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", False)
 # The container health check speaks plain http inside the network.
@@ -197,34 +260,51 @@ X_FRAME_OPTIONS = "DENY"
 SILENCED_SYSTEM_CHECKS = ["security.W021"] if not SECURE_HSTS_PRELOAD else []
 
 # Email: the console by default; SMTP when EMAIL_HOST is set (Django 6.1 MAILERS).
-EMAIL_HOST_ENV = os.environ.get("EMAIL_HOST", "")
-if EMAIL_HOST_ENV:
-    MAILERS = {
-        "default": {
-            "BACKEND": "django.core.mail.backends.smtp.EmailBackend",
-            "OPTIONS": {
-                "host": EMAIL_HOST_ENV,
-                "port": env_int("EMAIL_PORT", 587),
-                "username": env_str("EMAIL_HOST_USER", ""),
-                "password": env_str("EMAIL_HOST_PASSWORD", ""),
-                "use_tls": env_bool("EMAIL_USE_TLS", True),
-                "timeout": env_int("EMAIL_TIMEOUT", 20),
-            },
-        }
-    }
-else:
-    MAILERS = {"default": {"BACKEND": "django.core.mail.backends.console.EmailBackend"}}
+# Every EMAIL_* variable is checked even while EMAIL_HOST is unset, so a slip shows at once.
+EMAIL_HOST_ENV = env_str("EMAIL_HOST", "")
+if "/" in EMAIL_HOST_ENV or ":" in EMAIL_HOST_ENV:
+    raise ImproperlyConfigured(
+        f"Environment variable EMAIL_HOST={EMAIL_HOST_ENV!r} must be a host name only "
+        "(smtp.example.com); the port goes in EMAIL_PORT."
+    )
+_smtp = {
+    "host": EMAIL_HOST_ENV,
+    "port": env_int("EMAIL_PORT", 587, low=1, high=65535),
+    "username": env_str("EMAIL_HOST_USER", ""),
+    "password": env_str("EMAIL_HOST_PASSWORD", ""),
+    "use_tls": env_bool("EMAIL_USE_TLS", True),
+    "timeout": env_int("EMAIL_TIMEOUT", 20, low=1),
+}
+MAILERS = {
+    "default": (
+        {"BACKEND": "django.core.mail.backends.smtp.EmailBackend", "OPTIONS": _smtp}
+        if EMAIL_HOST_ENV
+        else {"BACKEND": "django.core.mail.backends.console.EmailBackend"}
+    )
+}
 DEFAULT_FROM_EMAIL = env_str("DEFAULT_FROM_EMAIL", "fleetfuel <fleetfuel@localhost>")
+if "@" not in parseaddr(DEFAULT_FROM_EMAIL)[1]:
+    raise ImproperlyConfigured(
+        f"Environment variable DEFAULT_FROM_EMAIL={DEFAULT_FROM_EMAIL!r} has no email address "
+        "(use name <address@example.com> or address@example.com)."
+    )
 SERVER_EMAIL = DEFAULT_FROM_EMAIL
 # Absolute base for links in emails (the due list), e.g. https://fleetfuel.example.com
-SITE_URL = env_str("SITE_URL", "http://127.0.0.1:8000").rstrip("/")
+SITE_URL = env_url(
+    "SITE_URL", "http://127.0.0.1:8000", schemes=WEB, example="https://fleetfuel.example.com"
+).rstrip("/")
 
 # Celery: Redis in production; with no broker, tasks run in-process (eager).
-CELERY_BROKER_URL = os.environ.get("CELERY_BROKER_URL", "")
+CELERY_BROKER_URL = env_url("CELERY_BROKER_URL", "", schemes=REDIS, example="redis://host:6379/0")
 # Tests run tasks in-process too, except the ones that start a real worker (they switch it off).
 CELERY_TASK_ALWAYS_EAGER = env_bool("CELERY_TASK_ALWAYS_EAGER", not CELERY_BROKER_URL or TESTING)
 CELERY_TASK_EAGER_PROPAGATES = True
-CELERY_RESULT_BACKEND = os.environ.get("CELERY_RESULT_BACKEND", CELERY_BROKER_URL or None)
+CELERY_RESULT_BACKEND = (
+    env_url(
+        "CELERY_RESULT_BACKEND", CELERY_BROKER_URL, schemes=REDIS, example="redis://host:6379/1"
+    )
+    or None
+)
 CELERY_TASK_SERIALIZER = "json"
 CELERY_ACCEPT_CONTENT = ["json"]
 CELERY_TASK_ACKS_LATE = True
@@ -253,12 +333,13 @@ CELERY_BEAT_SCHEDULE = {
     },
 }
 
+LOG_LEVEL = env_choice("LOG_LEVEL", "INFO", ("DEBUG", "INFO", "WARNING", "ERROR", "CRITICAL"))
 LOGGING = {
     "version": 1,
     "disable_existing_loggers": False,
     "handlers": {"console": {"class": "logging.StreamHandler"}},
-    "root": {"handlers": ["console"], "level": env_str("LOG_LEVEL", "INFO")},
+    "root": {"handlers": ["console"], "level": LOG_LEVEL},
 }
 
 # Planning engine
-PLANNING_BATCH_SIZE = env_int("PLANNING_BATCH_SIZE", 200)
+PLANNING_BATCH_SIZE = env_int("PLANNING_BATCH_SIZE", 200, low=1)

@@ -5,14 +5,25 @@ reason."""
 from __future__ import annotations
 
 import os
+from collections.abc import Iterator
+from contextlib import contextmanager
 from typing import Any
 
 import pytest
-from django.db import connection
+from django.db import connection, transaction
+from hypothesis import settings as hypothesis_settings
 
 from tests import factories as f
 
 IN_CI = os.environ.get("CI", "").lower() in {"1", "true", "yes"}
+
+# Hypothesis profiles, chosen by HYPOTHESIS_PROFILE. "quick" (make test): few examples, the
+# same ones every run (derandomized), so the suite is fast and passes the same way on any
+# day; "thorough" (CI): many fresh random examples. Neither has a deadline: a slow, loaded
+# machine must not fail a property test. A test's own @settings(max_examples=...) wins.
+hypothesis_settings.register_profile("quick", max_examples=25, deadline=None, derandomize=True)
+hypothesis_settings.register_profile("thorough", max_examples=1000, deadline=None)
+hypothesis_settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "quick"))
 
 
 def need(condition: bool, reason: str) -> None:
@@ -22,6 +33,27 @@ def need(condition: bool, reason: str) -> None:
     if IN_CI:
         pytest.fail(f"CI requires this: {reason}")
     pytest.skip(reason)
+
+
+@contextmanager
+def db_shared(django_db_blocker: Any) -> Iterator[None]:
+    """Data built once for the tests of a module (or a session) that only read it, the way
+    Django's setUpTestData works: it is written inside a transaction that stays open while
+    those tests run (each test's own transaction nests in it as a savepoint) and is rolled back
+    after them, so no other test sees it. For tests that use ``db``, not ``transactional_db``
+    or ``live_server`` (those commit, and empty the tables after). For example::
+
+        @pytest.fixture(scope="module")
+        def demo(django_db_setup: Any, django_db_blocker: Any) -> Iterator[None]:
+            with db_shared(django_db_blocker):
+                call_command("seed_demo")
+                yield
+    """
+    with django_db_blocker.unblock(), transaction.atomic():
+        try:
+            yield
+        finally:
+            transaction.set_rollback(True)
 
 
 @pytest.fixture
