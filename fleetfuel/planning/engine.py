@@ -11,7 +11,8 @@ from datetime import datetime, timedelta
 
 from fleetfuel.fleet.models import ComponentKind, FuelSample, ServicePlan
 from services import fuel_quality as fq
-from services import intervals, rules, usage, water
+from services import flags as fl
+from services import intervals, usage, water
 from services.common import Projection, TaskKind, UsageForecast
 
 from .inputs import FORECAST_WINDOW_DAYS, BatchInputs, UnitInputs
@@ -34,7 +35,7 @@ class UnitResult:
     unit_id: int
     site_id: int
     projections: list[ComponentProjection]
-    flags: list[rules.UnitFlag]
+    flags: list[fl.UnitFlag]
     skipped: list[str]  # why a task could not be projected (no plan, no filter fitted)
     current_hours: float  # engine hours now, from the usage forecast
     rate: float  # engine hours per day, from the usage forecast
@@ -133,7 +134,7 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
         for f in b.fuelings
     }
     engine_events = [
-        rules.EngineEvent(
+        fl.EngineEvent(
             at=e.occurred_at, hours=e.hours, spn=e.spn, fmi=e.fmi, count=e.occurrences, kind=e.kind
         )
         for e in b.events
@@ -174,7 +175,7 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
             current_assumed = ref_litres >= sum(f.litres for f, _ in recent) - 1e-9
         else:
             current, current_assumed = fq.concentration_or_reference(quality=None, channel=channel)
-        raised = task in rules.raised_priorities(events=engine_events, since=last_at)
+        raised = task in fl.raised_priorities(events=engine_events, since=last_at)
         projection = intervals.filter_projection(
             task=task,
             plan=filter_plan(plan, channel, unit.unit_class.typical_burn_l_per_h),
@@ -217,24 +218,20 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
         )
 
     relief = b.plans.get(ComponentKind.RELIEF_VALVE)
-    relief_plan = rules.ReliefValvePlan(
+    relief_plan = fl.relief_valve_plan(
         window_hours=relief.relief_window_hours if relief else None,
         window_days=relief.relief_window_days if relief else None,
-        openings_to_flag=(relief.relief_openings_to_flag or 3) if relief else 3,
+        openings_to_flag=relief.relief_openings_to_flag if relief else None,
         lifetime_openings_to_replace=relief.relief_lifetime_openings if relief else None,
     )
-    if relief_plan.window_hours is None and relief_plan.window_days is None:
-        relief_plan = rules.ReliefValvePlan(
-            None, 7, relief_plan.openings_to_flag, relief_plan.lifetime_openings_to_replace
-        )
-    flags = rules.unit_flags(
+    unit_flags = fl.unit_flags(
         events=engine_events,
         relief_plan=relief_plan,
         lifetime_relief_openings=b.lifetime_relief_openings,
         now=now,
     )
     return UnitResult(
-        unit.pk, unit.site_id, results, flags, skipped, forecast.current_hours, forecast.rate
+        unit.pk, unit.site_id, results, unit_flags, skipped, forecast.current_hours, forecast.rate
     )
 
 
@@ -258,7 +255,7 @@ def drain_compute(
     batch: BatchInputs,
     plan: ServicePlan,
     paired: list[tuple[fq.Fueling, fq.FuelQuality | None]],
-    engine_events: list[rules.EngineEvent],
+    engine_events: list[fl.EngineEvent],
     burn: float | None,
     forecast: UsageForecast,
     now: datetime,
@@ -313,6 +310,6 @@ def drain_compute(
         current_free_water_mg_kg=current_fw,
         density_kg_l=density,
         forecast=forecast,
-        water_in_fuel_since_drain=rules.water_event_since(events=engine_events, since=since),
+        water_in_fuel_since_drain=fl.water_event_since(events=engine_events, since=since),
         now=now,
     )
