@@ -2,8 +2,8 @@ from __future__ import annotations
 
 import zoneinfo
 
-from django import forms
 from django.contrib import messages
+from django.db.models import Exists, OuterRef
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
@@ -15,9 +15,12 @@ from django_htmx.http import HttpResponseClientRedirect, push_url
 from fleetfuel.accounts.access import role_required, site_ids_for_user, sites_for_user
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.fleet.models import Site, UnitClass
+from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 
+from .forms import DueFilterForm, WorkListSettingsForm
 from .orders import WorkOrderCreateError, work_orders_from_due_items
-from .selectors import DueFilterForm, due_item_for_user, due_page
+from .selectors import due_item_for_user, due_page
+from .tasks import worklist_send
 from .worklists import recent_dispatches
 
 
@@ -33,7 +36,15 @@ def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
         classes=UnitClass.objects.order_by("name"),
     )
     data = form.cleaned_data if form.is_valid() else {}
-    page = due_page(site_ids=site_ids, data=data, today=timezone.localdate())
+    in_open_order = WorkOrderTask.objects.filter(
+        due_item_id=OuterRef("pk"), work_order__status=WorkOrder.Status.OPEN
+    )
+    page = due_page(
+        site_ids=site_ids,
+        data=data,
+        today=timezone.localdate(),
+        annotations={"in_work_order": Exists(in_open_order)},
+    )
     query = request.GET.copy()
     query.pop("page", None)
     context = {"form": form, "page": page, "query": query.urlencode()}
@@ -89,8 +100,6 @@ def work_orders_create(request) -> HttpResponse:  # type: ignore[no-untyped-def]
 @require_POST
 def worklist_send_now(request) -> HttpResponse:  # type: ignore[no-untyped-def]
     """Email today's work list for each of the manager's sites now (on top of the daily one)."""
-    from .tasks import worklist_send
-
     if not request.user.email:
         messages.error(
             request, "Your account has no email address; ask an administrator to add one."
@@ -102,12 +111,6 @@ def worklist_send_now(request) -> HttpResponse:  # type: ignore[no-untyped-def]
         worklist_send.delay(request.user.pk, site.pk, local.isoformat(), True)
     messages.success(request, f"Work list queued for {len(sites)} site(s) to {request.user.email}.")
     return redirect("planning:due_list")
-
-
-class WorkListSettingsForm(forms.ModelForm):
-    class Meta:
-        model = Profile
-        fields = ["work_list_subscribed", "work_list_hour", "work_list_days_ahead"]
 
 
 @role_required(Role.MANAGER)
