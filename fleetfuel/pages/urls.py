@@ -1,6 +1,12 @@
 """The composed pages keep the paths people know (/due/, /fleet/units/, /history/exports/...)."""
 
-from django.urls import path  # noqa: F401
+from django.urls import path
+
+from . import due_list
 
 app_name = "pages"
-urlpatterns: list = []  # type: ignore[type-arg]
+urlpatterns = [
+    path("due/", due_list.due_list, name="due_list"),
+    path("due/items/<int:pk>/", due_list.due_item_detail, name="due_item_detail"),
+    path("due/work-orders/", due_list.work_orders_create, name="work_orders_create"),
+]
