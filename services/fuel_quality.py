@@ -1,6 +1,8 @@
-"""Fuel quality: ISO 4406 cleanliness codes, water in fuel, and the fuel each fueling brought.
+"""Fuel quality: ISO 4406 cleanliness codes, and water in fuel.
 
-Sources (see /work/shared/DOMAIN.md):
+Which fuel each fueling brought, and which is "current": services/fuel_intake.py.
+
+Sources:
 
 * ISO 4406:1999 Table 1 (kept in ISO 4406:2021): scale numbers 0 to 28 for particles
   per mL at >=4, >=6 and >=14 um(c). The limits are rounded, so the table is used,
@@ -21,9 +23,7 @@ from __future__ import annotations
 import bisect
 import math
 import re
-from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import datetime
 from typing import Final
 
 Codes = tuple[int | None, int, int]
@@ -191,7 +191,7 @@ def channel_for_rating(rating_um: float | None) -> int:
     return 0 if rating_um <= 4 else 1 if rating_um < 10 else 2
 
 
-def _check_channel(channel: int) -> None:
+def channel_check(channel: int) -> None:
     if channel not in (0, 1, 2):
         raise ValueError(f"channel must be 0, 1 or 2 (>=4, >=6, >=14 um(c)), got {channel}")
 
@@ -202,7 +202,7 @@ def concentration_per_ml(*, quality: FuelQuality, channel: int) -> float:
     The upper limit of the code's range is the conservative reading of a code.
     Raises LookupError when the sample has nothing for that channel.
     """
-    _check_channel(channel)
+    channel_check(channel)
     if quality.counts_per_ml is not None:
         count = quality.counts_per_ml[channel]
         if count is not None:
@@ -219,13 +219,24 @@ def concentration_or_reference(*, quality: FuelQuality | None, channel: int) -> 
 
     The reference is the upper limit of :data:`REFERENCE_CODES` for that channel.
     """
-    _check_channel(channel)
+    channel_check(channel)
     if quality is not None:
         try:
             return concentration_per_ml(quality=quality, channel=channel), False
         except LookupError:
             pass
     return count_range(REFERENCE_CODES[channel])[1], True
+
+
+def plan_reference_concentration(*, reference_iso4406: str, channel: int) -> float:
+    """Particles per mL of a plan's reference fuel in one channel (its code's upper limit).
+
+    A code with no figure in that channel (a microscope count, ``-/16/13``) takes the
+    reference fuel's (:data:`REFERENCE_CODES`) there.
+    """
+    channel_check(channel)
+    code = parse_iso4406(reference_iso4406)[channel]
+    return count_range(REFERENCE_CODES[channel] if code is None else code)[1]
 
 
 # --- water ----------------------------------------------------------------------------
@@ -304,95 +315,19 @@ def free_water_mg_kg(
     return max(0.0, total_mg_kg - saturation)
 
 
-# --- the fuel each fueling brought ----------------------------------------------------
+def free_water_or_reference(*, quality: FuelQuality | None, reference_mg_kg: float) -> float:
+    """Free water (mg/kg) in a fuel: its sample's water, else the plan's reference water.
 
-
-@dataclass(frozen=True, slots=True)
-class Fueling:
-    """Fuel put into one unit's tank."""
-
-    at: datetime
-    litres: float
-    source_id: int | None  # the bulk tank, bowser or station it came from, if known
-    ref: str
-
-    def __post_init__(self) -> None:
-        if not (math.isfinite(self.litres) and self.litres >= 0):
-            raise ValueError(f"fueling {self.ref}: litres must be 0 or more, got {self.litres}")
-
-
-@dataclass(frozen=True, slots=True)
-class Sample:
-    """A fuel sample: from a source (``unit_sample=False``) or from the unit's own tank."""
-
-    at: datetime
-    source_id: int | None
-    unit_sample: bool
-    quality: FuelQuality
-
-
-def quality_for_fuelings(
-    *, fuelings: Sequence[Fueling], samples: Sequence[Sample]
-) -> list[tuple[Fueling, FuelQuality | None]]:
-    """Pair each fueling (input order) with the quality of the fuel it brought.
-
-    * A fueling takes its source's latest sample taken at or before the fueling.
-    * A sample from the unit's tank measures what the earlier fuelings became, so
-      it overrides source samples for every fueling at or before it, back to (not
-      including) the unit's previous tank sample. Pass one unit's tank samples only.
-    * ``None`` when nothing applies. Samples at the same instant: the later in
-      ``samples`` wins.
+    The sample's temperature and FAME apply either way; without a sample, the defaults of
+    :func:`free_water_mg_kg` (15 °C, petroleum diesel).
     """
-    by_source: dict[int, list[Sample]] = {}
-    tank: list[Sample] = []
-    for sample in samples:  # stable sorts below keep input order among equal times
-        if sample.unit_sample:
-            tank.append(sample)
-        elif sample.source_id is not None:
-            by_source.setdefault(sample.source_id, []).append(sample)
-    tank.sort(key=lambda s: s.at)
-    tank_times = [s.at for s in tank]
-    source_times: dict[int, list[datetime]] = {}
-    for source_id, group in by_source.items():
-        group.sort(key=lambda s: s.at)
-        source_times[source_id] = [s.at for s in group]
-
-    paired: list[tuple[Fueling, FuelQuality | None]] = []
-    for fueling in fuelings:
-        quality: FuelQuality | None = None
-        first_after = bisect.bisect_left(tank_times, fueling.at)
-        if first_after < len(tank):
-            same_instant_last = bisect.bisect_right(tank_times, tank_times[first_after]) - 1
-            quality = tank[same_instant_last].quality
-        elif fueling.source_id in by_source:
-            last_before = bisect.bisect_right(source_times[fueling.source_id], fueling.at) - 1
-            if last_before >= 0:
-                quality = by_source[fueling.source_id][last_before].quality
-        paired.append((fueling, quality))
-    return paired
-
-
-def volume_weighted_concentration(
-    *, pairs: Sequence[tuple[Fueling, FuelQuality | None]], channel: int
-) -> tuple[float, float, list[str]]:
-    """(litre-weighted particles per mL, litres where the reference was assumed, labels used).
-
-    Labels are those of the samples whose figures were used, in order of first use.
-    With no litres at all, the reference concentration is returned with 0 litres.
-    """
-    _check_channel(channel)
-    total_litres = 0.0
-    weighted = 0.0
-    reference_litres = 0.0
-    labels: list[str] = []
-    for fueling, quality in pairs:
-        value, used_reference = concentration_or_reference(quality=quality, channel=channel)
-        total_litres += fueling.litres
-        weighted += fueling.litres * value
-        if used_reference:
-            reference_litres += fueling.litres
-        elif quality is not None and quality.label not in labels:
-            labels.append(quality.label)
-    if total_litres == 0:
-        return count_range(REFERENCE_CODES[channel])[1], 0.0, labels
-    return weighted / total_litres, reference_litres, labels
+    total = (
+        quality.water_mg_kg
+        if quality is not None and quality.water_mg_kg is not None
+        else reference_mg_kg
+    )
+    return free_water_mg_kg(
+        total_mg_kg=total,
+        temperature_c=quality.temperature_c if quality is not None else None,
+        fame_pct_v=quality.fame_pct_v if quality is not None else None,
+    )

@@ -17,21 +17,20 @@ fuel has already been filtered.
 The projection only ever brings a change forward: dirty fuel shortens the
 interval, clean fuel never stretches it past the plan's limits.
 
-Also here: two small helpers shared with ``services.water`` (turning engine hours
-into calendar dates from a usage forecast, and grading a due date into a status).
+The filter's dP curve is fitted in ``services.filter_dp``; engine hours become dates, and
+dates a status, in ``services.schedule`` (shared with ``services.water``).
 """
 
 from __future__ import annotations
 
 import math
-import statistics
 from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import date, datetime, timedelta
+from datetime import date, datetime, time, timedelta, tzinfo
 
 from services.common import Basis, DueDate, Projection, TaskKind, UsageForecast
+from services.filter_dp import DpFit, DpReading, dp_limit
 from services.schedule import (
-    MIN_DP_READINGS,
     due_status,
     earliest_due,
     fmt_hours,
@@ -66,62 +65,44 @@ class Loading:
     label: str  # e.g. "42 L from Bulk tank B on 2026-03-04, sample S-0142: 21/19/16"
 
 
-@dataclass(frozen=True, slots=True)
-class DpReading:
-    """A differential-pressure reading across the filter."""
-
-    at: datetime
-    hours: float  # engine hours
-    dp_bar: float
-
-
-@dataclass(frozen=True, slots=True)
-class DpFit:
-    """dp = a * exp(b * (h - h0)), fitted by least squares on log(dp)."""
-
-    a: float
-    b: float
-    h0: float
-    readings: int
-    crossing_hours: float | None  # engine hours at the limit; None if the fit does not rise
-
-
-# --------------------------------------------------------------------------- dP curve
-
-
-def dp_fit(*, readings: Sequence[DpReading], limit_bar: float, h0: float) -> DpFit | None:
-    """Fit a rising exponential to dP readings and find where it meets the limit.
-
-    Why exponential: clogging curves are flat, then rise steeply, so a straight line
-    extrapolates optimistically (late). ln(dp) = ln(a) + b*(h - h0) is a straight line
-    in log space: two parameters, fits from three points, rises without ever turning
-    back down (a quadratic can bend over and never reach the limit), and its
-    steepening is the conservative direction. Readings <= 0 bar carry no log and are
-    left out. Returns None with fewer than three usable readings.
-    """
-    usable = sorted((r for r in readings if r.dp_bar > 0), key=lambda r: r.hours)
-    if len(usable) < MIN_DP_READINGS:
-        return None
-    xs = [r.hours - h0 for r in usable]
-    ys = [math.log(r.dp_bar) for r in usable]
-    try:
-        slope, intercept = statistics.linear_regression(xs, ys)
-    except statistics.StatisticsError:  # all readings at the same hours
-        return None
-    a = math.exp(intercept)
-    if slope <= 0:
-        return DpFit(a=a, b=slope, h0=h0, readings=len(usable), crossing_hours=None)
-    reached = [r for r in usable if r.dp_bar >= limit_bar]
-    if reached:
-        crossing = reached[0].hours  # observed, not projected
-    else:
-        # The limit has not been seen yet, so it lies beyond the last reading even
-        # where the fitted curve would put it earlier.
-        crossing = max(h0 + (math.log(limit_bar) - intercept) / slope, usable[-1].hours)
-    return DpFit(a=a, b=slope, h0=h0, readings=len(usable), crossing_hours=crossing)
-
-
 # --------------------------------------------------------------------------- projection
+
+
+def last_change(
+    *,
+    changed_at: datetime | None,
+    changed_meter: float | None,
+    fitted_on: date,
+    fitted_meter: float,
+    tz: tzinfo | None,
+) -> tuple[datetime, float]:
+    """(moment, hour meter) a filter's life is counted from: its last recorded change.
+
+    With no change on record, the day the filter was fitted (at the start of that day, in
+    ``tz``) and the meter when fitted; a change recorded without a meter reading keeps the
+    fitted meter value (common practice: the conservative choice, as it counts more hours).
+    """
+    if changed_at is None:
+        return datetime.combine(fitted_on, time.min, tzinfo=tz), fitted_meter
+    return changed_at, fitted_meter if changed_meter is None else changed_meter
+
+
+RAISED_SENTENCE = (
+    "Raised one step in urgency by a recent engine event (high filter dP or low supply pressure)."
+)
+
+
+@dataclass(frozen=True, slots=True)
+class _Spend:
+    """How much of the contaminant budget the fuel since the change has spent."""
+
+    budget: float
+    loading: float
+    litres_since: float
+    remaining: float
+    budget_hours: float  # engine hours at which the rest is spent by the fuel now in use
+    percent_used: float
+    notes: list[str]  # what was assumed
 
 
 def filter_projection(
@@ -143,110 +124,174 @@ def filter_projection(
 
     Raises ValueError for a plan whose interval or reference fuel is not positive.
     """
-    if (
-        min(plan.interval_hours, plan.reference_burn_l_per_h, plan.reference_concentration_per_ml)
-        <= 0
-    ):
+    fuel = (plan.interval_hours, plan.reference_burn_l_per_h, plan.reference_concentration_per_ml)
+    if min(fuel) <= 0:
         raise ValueError(
             "a filter plan needs a positive interval, reference burn and concentration"
         )
-    current_hours = forecast.current_hours
-    used_hours = max(0.0, current_hours - last_change_hours)
     since = [ld for ld in loadings if ld.at >= last_change_at]
-    assumed_notes: list[str] = []
+    used_hours = max(0.0, forecast.current_hours - last_change_hours)
+    burn, burn_source, burn_sentence = _burn(burn_l_per_h=burn_l_per_h, plan=plan)
+    spend = _spend(
+        plan=plan,
+        since=since,
+        used_hours=used_hours,
+        burn=burn,
+        current=current_concentration_per_ml,
+        current_assumed=current_reference_assumed,
+        current_hours=forecast.current_hours,
+    )
+    limits = _limits(
+        plan=plan,
+        spend=spend,
+        burn=burn,
+        current_hours=forecast.current_hours,
+        dp_readings=dp_readings,
+        last_change=(last_change_at, last_change_hours),
+    )
+    calendar = (last_change_at + timedelta(days=plan.interval_days)).date()
+    basis, due = earliest_due(hour_limits=limits.hours, calendar=calendar, forecast=forecast)
+    status = due_status(
+        due=due,
+        current_hours=forecast.current_hours,
+        now=now,
+        soon_days=plan.soon_days,
+        due_days=plan.due_days,
+        raise_one_step=priority_raised,
+    )
+    explanation = [
+        _governs_sentence(basis, due, plan, limits.plan_hours, calendar, spend.percent_used),
+        _band_sentence(due),
+        f"{spend.percent_used:.0f} % of the filter's contaminant budget is used since the "
+        f"change at {fmt_hours(last_change_hours)} on {last_change_at.date().isoformat()}.",
+        *_fuel_sentences(since=since, plan=plan, current=current_concentration_per_ml),
+        burn_sentence,
+        sentence(f"Usage: {forecast.note}"),
+        *([limits.dp_sentence] if limits.dp_sentence else []),
+        *spend.notes,
+        *([RAISED_SENTENCE] if priority_raised else []),
+    ]
+    inputs = _inputs(
+        spend=spend,
+        burn=(burn, burn_source),
+        plan=plan,
+        current=current_concentration_per_ml,
+        used_hours=used_hours,
+        limits=limits,
+        calendar=calendar,
+        since=since,
+    )
+    inputs["priority_raised"] = priority_raised
+    return Projection(task, due, status, basis, explanation, inputs)
 
-    # Burn rate.
+
+@dataclass(frozen=True, slots=True)
+class _Limits:
+    """A filter's hour limits (engine hours; the plan's first, as it wins a tie)."""
+
+    hours: list[tuple[Basis, float]]
+    plan_hours: float
+    volume_hours: float | None
+    fit: DpFit | None
+    dp_sentence: str | None
+
+
+def _limits(
+    *,
+    plan: FilterPlan,
+    spend: _Spend,
+    burn: float,
+    current_hours: float,
+    dp_readings: Sequence[DpReading],
+    last_change: tuple[datetime, float],
+) -> _Limits:
+    last_change_at, last_change_hours = last_change
+    plan_hours = last_change_hours + plan.interval_hours
+    hours: list[tuple[Basis, float]] = [(Basis.PLAN_HOURS, plan_hours)]
+    volume_hours: float | None = None
+    if plan.interval_litres is not None:
+        left = max(0.0, plan.interval_litres - spend.litres_since)
+        volume_hours = current_hours + left / burn
+        hours.append((Basis.FUEL_VOLUME, volume_hours))
+    hours.append((Basis.CONTAMINANT_BUDGET, spend.budget_hours))
+    fit, dp_sentence = dp_limit(
+        limit_bar=plan.dp_limit_bar,
+        readings=dp_readings,
+        last_change_at=last_change_at,
+        h0=last_change_hours,
+    )
+    if fit is not None and fit.crossing_hours is not None:
+        hours.append((Basis.DIFFERENTIAL_PRESSURE, fit.crossing_hours))
+    return _Limits(hours, plan_hours, volume_hours, fit, dp_sentence)
+
+
+def _burn(*, burn_l_per_h: float | None, plan: FilterPlan) -> tuple[float, str, str]:
+    """(burn rate in L/h, where it came from, the sentence that says so)."""
     if burn_l_per_h is not None and burn_l_per_h > 0:
-        burn, burn_source = burn_l_per_h, "measured"
-        burn_sentence = f"Burn rate {burn:.1f} L/h, from the unit's fuel records."
-    else:
-        burn, burn_source = plan.reference_burn_l_per_h, "plan_reference"
-        burn_sentence = (
-            f"Burn rate {burn:.1f} L/h: the plan's reference, as no measured burn rate was given."
+        return (
+            burn_l_per_h,
+            "measured",
+            f"Burn rate {burn_l_per_h:.1f} L/h, from the unit's fuel records.",
         )
+    burn = plan.reference_burn_l_per_h
+    return (
+        burn,
+        "plan_reference",
+        f"Burn rate {burn:.1f} L/h: the plan's reference, as no measured burn rate was given.",
+    )
 
-    # Contaminant budget.
+
+def _spend(
+    *,
+    plan: FilterPlan,
+    since: Sequence[Loading],
+    used_hours: float,
+    burn: float,
+    current: float,
+    current_assumed: bool,
+    current_hours: float,
+) -> _Spend:
+    """The contaminant budget, what the fuel since the change spent, and when the rest goes."""
     ref_conc = plan.reference_concentration_per_ml
     budget = plan.interval_hours * plan.reference_burn_l_per_h * ref_conc
+    notes: list[str] = []
     if since:
         loading = sum(ld.litres * ld.concentration_per_ml for ld in since)
         litres_since = sum(ld.litres for ld in since)
         assumed = [ld for ld in since if ld.reference_assumed]
         if assumed:
-            assumed_notes.append(
+            notes.append(
                 f"The plan's reference cleanliness was assumed for {len(assumed)} of "
                 f"{plural(len(since), 'fuel input')} that had no sample."
             )
     else:
         litres_since = used_hours * burn
         loading = litres_since * ref_conc
-        assumed_notes.append(
+        notes.append(
             "No fuel inputs are recorded since the change: the plan's reference cleanliness "
             f"was assumed for the {fmt_hours(used_hours)} run so far."
         )
-    if current_reference_assumed:
-        assumed_notes.append(
+    if current_assumed:
+        notes.append(
             "The plan's reference cleanliness was assumed for the fuel now in use (no sample)."
         )
     remaining = max(0.0, budget - loading)
-    if current_concentration_per_ml > 0:
-        budget_hours = current_hours + remaining / (burn * current_concentration_per_ml)
-    else:
-        budget_hours = math.inf
-    percent_used = 100.0 * loading / budget if budget > 0 else 100.0
-
-    # Hour limits, as engine hours.
-    plan_hours = last_change_hours + plan.interval_hours
-    hour_limits: list[tuple[Basis, float]] = [
-        (Basis.PLAN_HOURS, plan_hours),  # first: the plan wins a tie
-    ]
-    volume_hours: float | None = None
-    if plan.interval_litres is not None:
-        volume_hours = current_hours + max(0.0, plan.interval_litres - litres_since) / burn
-        hour_limits.append((Basis.FUEL_VOLUME, volume_hours))
-    hour_limits.append((Basis.CONTAMINANT_BUDGET, budget_hours))
-
-    fit: DpFit | None = None
-    dp_sentence: str | None = None
-    dp_since = [r for r in dp_readings if r.at >= last_change_at]
-    if plan.dp_limit_bar is not None and len(dp_since) >= MIN_DP_READINGS:
-        fit = dp_fit(readings=dp_since, limit_bar=plan.dp_limit_bar, h0=last_change_hours)
-        if fit is None:
-            dp_sentence = "The dP readings since the change could not be fitted; no dP projection."
-        elif fit.crossing_hours is None:
-            dp_sentence = (
-                f"The {fit.readings} dP readings since the change do not rise, so the fit "
-                "was ignored and no dP projection was made."
-            )
-        else:
-            hour_limits.append((Basis.DIFFERENTIAL_PRESSURE, fit.crossing_hours))
-            per_100h = (math.exp(fit.b * 100) - 1) * 100
-            dp_sentence = (
-                f"Filter dP fitted on {plural(fit.readings, 'reading')} rises about "
-                f"{per_100h:.0f} % per 100 h and reaches the {plan.dp_limit_bar:g} bar limit at "
-                f"{fmt_hours(fit.crossing_hours)}."
-            )
-
-    calendar = (last_change_at + timedelta(days=plan.interval_days)).date()
-    basis, due = earliest_due(hour_limits=hour_limits, calendar=calendar, forecast=forecast)
-
-    status = due_status(
-        due=due,
-        current_hours=current_hours,
-        now=now,
-        soon_days=plan.soon_days,
-        due_days=plan.due_days,
-        raise_one_step=priority_raised,
+    budget_hours = current_hours + remaining / (burn * current) if current > 0 else math.inf
+    return _Spend(
+        budget=budget,
+        loading=loading,
+        litres_since=litres_since,
+        remaining=remaining,
+        budget_hours=budget_hours,
+        percent_used=100.0 * loading / budget if budget > 0 else 100.0,
+        notes=notes,
     )
 
-    # Explanation, most important first.
-    explanation = [
-        _governs_sentence(basis, due, plan, plan_hours, calendar, percent_used),
-        _band_sentence(due),
-        f"{percent_used:.0f} % of the filter's contaminant budget is used since the change "
-        f"at {fmt_hours(last_change_hours)} on {last_change_at.date().isoformat()}.",
-    ]
-    # The dirtiest fuel, grouped by where it came from (a label names the source and sample).
+
+def _fuel_sentences(*, since: Sequence[Loading], plan: FilterPlan, current: float) -> list[str]:
+    """The dirtiest fuel since the change, grouped by where it came from, and today's fuel."""
+    ref_conc = plan.reference_concentration_per_ml
+    out: list[str] = []
     groups: dict[tuple[str, float], list[Loading]] = {}
     for ld in since:
         if ld.concentration_per_ml > ref_conc:
@@ -262,61 +307,53 @@ def filter_projection(
                 f"{litres:,.0f} L in {len(loads)} fueling{'s' if len(loads) > 1 else ''} {when}, "
                 f"{label} ({conc / ref_conc:.1f}x the reference)"
             )
-        explanation.append("Dirtiest fuel since the change: " + "; ".join(parts) + ".")
+        out.append("Dirtiest fuel since the change: " + "; ".join(parts) + ".")
     elif since:
-        explanation.append("All fuel since the change was at or cleaner than the plan's reference.")
-    if current_concentration_per_ml > 0:
-        explanation.append(
-            f"The fuel now in use is {current_concentration_per_ml / ref_conc:.1f}x the "
-            "reference concentration."
-        )
-    explanation.append(burn_sentence)
-    explanation.append(sentence(f"Usage: {forecast.note}"))
-    if dp_sentence:
-        explanation.append(dp_sentence)
-    explanation.extend(assumed_notes)
-    if priority_raised:
-        explanation.append(
-            "Raised one step in urgency by a recent engine event (high filter dP or low "
-            "supply pressure)."
-        )
+        out.append("All fuel since the change was at or cleaner than the plan's reference.")
+    if current > 0:
+        out.append(f"The fuel now in use is {current / ref_conc:.1f}x the reference concentration.")
+    return out
 
-    limits: dict[str, object] = {
-        "plan_hours": plan_hours,
-        "plan_days": calendar.isoformat(),
-        "contaminant_budget": json_number(budget_hours),
-        "fuel_volume": volume_hours,
-        "differential_pressure": fit.crossing_hours if fit else None,
-    }
-    inputs: dict[str, object] = {
-        "budget": budget,
-        "loading": loading,
-        "remaining_budget": remaining,
-        "percent_used": percent_used,
-        "burn_l_per_h": burn,
-        "burn_source": burn_source,
-        "current_concentration_per_ml": current_concentration_per_ml,
-        "reference_concentration_per_ml": ref_conc,
-        "litres_since_change": litres_since,
+
+def _inputs(
+    *,
+    spend: _Spend,
+    burn: tuple[float, str],
+    plan: FilterPlan,
+    current: float,
+    used_hours: float,
+    limits: _Limits,
+    calendar: date,
+    since: Sequence[Loading],
+) -> dict[str, object]:
+    """The figures behind a projection (JSON-safe), for its explanation page and audit."""
+    fit = limits.fit
+    return {
+        "budget": spend.budget,
+        "loading": spend.loading,
+        "remaining_budget": spend.remaining,
+        "percent_used": spend.percent_used,
+        "burn_l_per_h": burn[0],
+        "burn_source": burn[1],
+        "current_concentration_per_ml": current,
+        "reference_concentration_per_ml": plan.reference_concentration_per_ml,
+        "litres_since_change": spend.litres_since,
         "hours_since_change": used_hours,
-        "limits": limits,
+        "limits": {
+            "plan_hours": limits.plan_hours,
+            "plan_days": calendar.isoformat(),
+            "contaminant_budget": json_number(spend.budget_hours),
+            "fuel_volume": limits.volume_hours,
+            "differential_pressure": fit.crossing_hours if fit else None,
+        },
         "sample_labels": [ld.label for ld in since],
-        "reference_assumed": bool(assumed_notes),
+        "reference_assumed": bool(spend.notes),
         "dp_fit": (
             {"a_bar": fit.a, "b_per_h": fit.b, "h0": fit.h0, "readings": fit.readings}
             if fit
             else None
         ),
-        "priority_raised": priority_raised,
     }
-    return Projection(
-        task=task,
-        due=due,
-        status=status,
-        basis=basis,
-        explanation=explanation,
-        inputs=inputs,
-    )
 
 
 def _governs_sentence(

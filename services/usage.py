@@ -29,6 +29,7 @@ BAND_FEW_READINGS: Final = 0.5  # ... and at least +/-50 % / sqrt(readings - 1)
 IDLE_RATE: Final = 0.05  # h/day: below this the unit counts as idle
 CLASS_BAND: Final = (0.5, 1.5)  # band around a class default rate, as fractions
 MAX_HORIZON_DAYS: Final = 3_653  # ten years: the furthest date forecast
+FORECAST_WINDOW_DAYS: Final = 90  # the readings a unit's forecast is fitted on
 
 
 @dataclass(frozen=True, slots=True)
@@ -130,7 +131,7 @@ def usage_forecast(
     readings: Sequence[MeterReading],
     replacements: Sequence[MeterReplacement],
     now: datetime,
-    window_days: int = 90,
+    window_days: int = FORECAST_WINDOW_DAYS,
     class_rate: float,
     min_readings: int = 3,
 ) -> UsageForecast:
@@ -196,6 +197,69 @@ def usage_forecast(
         basis=basis,
         note=note,
     )
+
+
+def unit_usage_forecast(
+    *,
+    window_readings: Sequence[MeterReading],
+    latest: MeterReading | None,
+    replacements: Sequence[MeterReplacement],
+    now: datetime,
+    class_rate: float,
+) -> UsageForecast:
+    """A unit's forecast, the one its due dates and its page use.
+
+    Fitted on the readings of the last :data:`FORECAST_WINDOW_DAYS` days plus the unit's
+    latest reading, however old, so a unit read rarely still has a current meter value.
+    """
+    readings = list(window_readings)
+    if latest is not None and (not readings or readings[-1].at != latest.at):
+        readings = sorted([*readings, latest], key=lambda r: r.at)
+    return usage_forecast(
+        readings=readings,
+        replacements=replacements,
+        now=now,
+        window_days=FORECAST_WINDOW_DAYS,
+        class_rate=class_rate,
+    )
+
+
+def meter_to_engine_hours(
+    *, meter: float, at: datetime, replacements: Sequence[MeterReplacement]
+) -> float:
+    """Engine hours for an hour-meter value recorded at ``at`` (a service or a dP reading).
+
+    Adds the offset (old meter's last value minus new meter's first) of every replacement
+    at or before ``at``: a value recorded at the very moment of a swap is read on the new
+    meter. (:func:`engine_hours` reads a meter *reading* taken at that moment on the old one.)
+    """
+    return meter + sum(r.old_meter_final - r.new_meter_start for r in replacements if r.at <= at)
+
+
+def forecast_path(
+    *, forecast: UsageForecast, now: datetime, days: int, steps: int = 10
+) -> list[tuple[datetime, float, float, float]]:
+    """(moment, central, low, high engine hours) from ``now`` to ``days`` ahead, in ``steps``
+    equal steps: the forecast's line and band, as a chart draws them.
+
+    Hours run from the forecast's ``current_hours`` at its ``as_of`` at ``rate``; the band
+    at ``rate_low`` and ``rate_high``.
+    """
+    if days < 0 or steps < 1:
+        raise ValueError(f"days must be 0 or more and steps 1 or more, got {days}, {steps}")
+    path = []
+    for i in range(steps + 1):
+        at = now + timedelta(days=days * i / steps)
+        elapsed = (at - forecast.as_of).total_seconds() / SECONDS_PER_DAY
+        path.append(
+            (
+                at,
+                forecast.current_hours + forecast.rate * elapsed,
+                forecast.current_hours + forecast.rate_low * elapsed,
+                forecast.current_hours + forecast.rate_high * elapsed,
+            )
+        )
+    return path
 
 
 def _class_default(

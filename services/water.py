@@ -25,7 +25,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import datetime, timedelta
+from datetime import date, datetime, timedelta
 
 from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
 from services.schedule import (
@@ -108,6 +108,16 @@ def blended_rate(*, estimate_ml_h: float, observed: Sequence[float]) -> tuple[fl
     return w_est * estimate_ml_h + (1 - w_est) * observed_mean, w_est
 
 
+@dataclass(frozen=True, slots=True)
+class _Rate:
+    """The water rate into the bowl (mL per engine hour) and what it was made of."""
+
+    estimate: float  # from the fuel sample alone
+    observed: list[float]  # from past drains, oldest first
+    rate: float  # the blend
+    estimate_weight: float
+
+
 def drain_projection(
     *,
     plan: DrainPlan,
@@ -122,141 +132,227 @@ def drain_projection(
     now: datetime,
 ) -> Projection:
     """Project the next separator drain: the earliest of water level and interval."""
-    task = TaskKind.SEPARATOR_DRAIN
-    today = now.date()
-    current_hours = forecast.current_hours
     efficiency = min(1.0, max(0.0, plan.separator_efficiency))
     drain_level = plan.drain_level_fraction * plan.bowl_capacity_ml
-
-    estimate = efficiency * water_ml_from_fuel(
-        litres=max(0.0, burn_l_per_h),
-        free_water_mg_kg=max(0.0, current_free_water_mg_kg),
-        density_kg_l=density_kg_l,
+    rate = _water_rate(
+        sample=(current_free_water_mg_kg, burn_l_per_h, efficiency, density_kg_l),
+        records=[*history, *([last_drain] if last_drain else [])],
     )
-    records = list(history) + ([last_drain] if last_drain is not None else [])
-    rates = observed_rates(records=records)
-    rate, w_est = blended_rate(estimate_ml_h=estimate, observed=rates)
-
+    blended = rate.rate
     if last_drain is None:
-        due = DueDate(hours=None, on=today, earliest=today, latest=today)
-        status = DueStatus.DUE
-        basis = Basis.WATER_EVENT if water_in_fuel_since_drain else Basis.PLAN_DAYS
-        first_explanation = [
-            "Due now: no drain of this separator is on record. Drain it and record the "
-            "water found, so the next drain can be projected."
-        ]
-        if water_in_fuel_since_drain:
-            first_explanation.append("A water-in-fuel alarm has also been raised.")
-        inputs: dict[str, object] = {
-            "sample_rate_ml_h": estimate,
-            "observed_rates_ml_h": rates,
-            "blended_rate_ml_h": rate,
-            "drain_level_ml": drain_level,
-            "water_event": water_in_fuel_since_drain,
-        }
-        return Projection(task, due, status, basis, first_explanation, inputs)
-
-    # Water collected since the last drain.
+        return _first_drain(
+            rate=rate, drain_level=drain_level, water_event=water_in_fuel_since_drain, now=now
+        )
     since = [i for i in intakes if i.at >= last_drain.at]
-    hours_since = max(0.0, current_hours - last_drain.hours)
-    if since:
-        water_so_far = efficiency * sum(
-            water_ml_from_fuel(
-                litres=i.litres, free_water_mg_kg=i.free_water_mg_kg, density_kg_l=i.density_kg_l
-            )
-            for i in since
-        )
-        so_far_source = f"from {plural(len(since), 'fuel input')} since the drain"
-    else:
-        water_so_far = rate * hours_since
-        so_far_source = (
-            f"estimated at {rate:.2f} mL/h over {fmt_hours(hours_since)} (no fuel inputs)"
-        )
-
-    # Hour limits, as engine hours.
-    hour_limits: list[tuple[Basis, float]] = []
-    if plan.drain_interval_hours is not None:
-        hour_limits.append((Basis.PLAN_HOURS, last_drain.hours + plan.drain_interval_hours))
-    level_hours: float | None = None
-    if water_so_far >= drain_level:
-        level_hours = current_hours
-    elif rate > 0:
-        level_hours = current_hours + (drain_level - water_so_far) / rate
-    if level_hours is not None:
-        hour_limits.append((Basis.WATER_LEVEL, level_hours))
-
+    water_so_far, collected = _collected(
+        since=since,
+        efficiency=efficiency,
+        rate=blended,
+        last_drain=last_drain,
+        current_hours=forecast.current_hours,
+    )
+    hour_limits, plan_hours, level_hours = _hour_limits(
+        plan=plan,
+        last_drain_hours=last_drain.hours,
+        current_hours=forecast.current_hours,
+        to_go_ml=drain_level - water_so_far,
+        rate=blended,
+    )
     calendar = (last_drain.at + timedelta(days=plan.drain_interval_days)).date()
     basis, due = earliest_due(hour_limits=hour_limits, calendar=calendar, forecast=forecast)
     status = due_status(
         due=due,
-        current_hours=current_hours,
+        current_hours=forecast.current_hours,
         now=now,
         soon_days=plan.soon_days,
         due_days=plan.due_days,
     )
-
-    explanation: list[str] = []
-    if water_in_fuel_since_drain:
-        explanation.append(
-            "Due now: a water-in-fuel alarm was raised since the last drain. Drain the "
-            "separator, record the water found and check the fuel source."
-        )
-    governs = _governs_sentence(basis, due, plan, drain_level)
-    if water_in_fuel_since_drain:
-        governs = "Without the alarm: " + governs[0].lower() + governs[1:]
-    explanation.append(governs)
-    if due.earliest != due.latest:
-        explanation.append(
-            f"Expected around {due.on.isoformat()} (between {due.earliest.isoformat()} and "
-            f"{due.latest.isoformat()} as usage varies)."
-        )
-    explanation.append(
-        f"About {water_so_far:,.0f} mL collected since the drain at "
-        f"{fmt_hours(last_drain.hours)} on {last_drain.at.date().isoformat()} ({so_far_source})."
+    explanation = _explanation(
+        basis=basis,
+        due=due,
+        plan=plan,
+        drain_level=drain_level,
+        water_event=water_in_fuel_since_drain,
+        collected=collected,
+        rate=rate,
+        sample=(current_free_water_mg_kg, burn_l_per_h, efficiency),
+        since=since,
+        forecast=forecast,
     )
-    if rates:
-        explanation.append(
-            f"Water rate {rate:.2f} mL/h: the rates seen over "
-            f"{plural(len(rates), 'drain interval')} count for {(1 - w_est) * 100:.0f} %, "
-            f"the sample estimate of {estimate:.2f} mL/h for {w_est * 100:.0f} %."
-        )
-    else:
-        explanation.append(
-            f"Water rate {rate:.2f} mL/h from the fuel sample alone "
-            f"({current_free_water_mg_kg:g} mg/kg free water at {burn_l_per_h:.1f} L/h, "
-            f"{efficiency * 100:.0f} % separated); no drains with water amounts yet."
-        )
-    wettest = sorted(since, key=lambda i: i.free_water_mg_kg, reverse=True)[:3]
-    if wettest and wettest[0].free_water_mg_kg > 0:
-        parts = [f"{i.label} ({i.free_water_mg_kg:g} mg/kg)" for i in wettest]
-        explanation.append("Wettest fuel since the drain: " + "; ".join(parts) + ".")
-    explanation.append(sentence(f"Usage: {forecast.note}"))
-
-    inputs = {
-        "sample_rate_ml_h": estimate,
-        "observed_rates_ml_h": rates,
-        "estimate_weight": w_est,
-        "blended_rate_ml_h": rate,
+    inputs: dict[str, object] = {
+        "sample_rate_ml_h": rate.estimate,
+        "observed_rates_ml_h": rate.observed,
+        "estimate_weight": rate.estimate_weight,
+        "blended_rate_ml_h": blended,
         "water_so_far_ml": water_so_far,
         "drain_level_ml": drain_level,
         "limits": {
             "water_level": level_hours,
-            "plan_hours": (
-                last_drain.hours + plan.drain_interval_hours
-                if plan.drain_interval_hours is not None
-                else None
-            ),
+            "plan_hours": plan_hours,
             "plan_days": calendar.isoformat(),
         },
         "intake_labels": [i.label for i in since],
         "water_event": water_in_fuel_since_drain,
     }
-    if water_in_fuel_since_drain:
-        inputs["projected"] = {"basis": str(basis), "on": due.on.isoformat(), "hours": due.hours}
-        status = more_urgent(DueStatus.DUE, status)
-        basis = Basis.WATER_EVENT
-        due = DueDate(hours=None, on=min(today, due.on), earliest=min(today, due.on), latest=today)
-    return Projection(task, due, status, basis, explanation, inputs)
+    projection = Projection(TaskKind.SEPARATOR_DRAIN, due, status, basis, explanation, inputs)
+    return _after_alarm(projection, today=now.date()) if water_in_fuel_since_drain else projection
+
+
+def _after_alarm(projection: Projection, *, today: date) -> Projection:
+    """A water-in-fuel alarm makes the drain due today, whatever the projection said (which
+    stays in the inputs, as ``projected``)."""
+    due = projection.due
+    inputs = {
+        **projection.inputs,
+        "projected": {"basis": str(projection.basis), "on": due.on.isoformat(), "hours": due.hours},
+    }
+    return Projection(
+        projection.task,
+        DueDate(hours=None, on=min(today, due.on), earliest=min(today, due.on), latest=today),
+        more_urgent(DueStatus.DUE, projection.status),
+        Basis.WATER_EVENT,
+        projection.explanation,
+        inputs,
+    )
+
+
+def _water_rate(
+    *, sample: tuple[float, float, float, float], records: Sequence[DrainRecord]
+) -> _Rate:
+    """The sample's estimate (free water mg/kg, burn L/h, efficiency, density kg/L) blended
+    with the rates seen at past drains."""
+    free_water, burn, efficiency, density = sample
+    estimate_ml_h = efficiency * water_ml_from_fuel(
+        litres=max(0.0, burn), free_water_mg_kg=max(0.0, free_water), density_kg_l=density
+    )
+    observed = observed_rates(records=records)
+    blended, w_est = blended_rate(estimate_ml_h=estimate_ml_h, observed=observed)
+    return _Rate(estimate=estimate_ml_h, observed=observed, rate=blended, estimate_weight=w_est)
+
+
+def _hour_limits(
+    *, plan: DrainPlan, last_drain_hours: float, current_hours: float, to_go_ml: float, rate: float
+) -> tuple[list[tuple[Basis, float]], float | None, float | None]:
+    """(hour limits, the plan's hour limit, the hours at which the bowl reaches its drain
+    level): the plan's first, as it wins a tie; a bowl already at its level is due now."""
+    limits: list[tuple[Basis, float]] = []
+    plan_hours = None
+    if plan.drain_interval_hours is not None:
+        plan_hours = last_drain_hours + plan.drain_interval_hours
+        limits.append((Basis.PLAN_HOURS, plan_hours))
+    level_hours: float | None = None
+    if to_go_ml <= 0:
+        level_hours = current_hours
+    elif rate > 0:
+        level_hours = current_hours + to_go_ml / rate
+    if level_hours is not None:
+        limits.append((Basis.WATER_LEVEL, level_hours))
+    return limits, plan_hours, level_hours
+
+
+def _first_drain(
+    *, rate: _Rate, drain_level: float, water_event: bool, now: datetime
+) -> Projection:
+    """No drain on record: due now, so the water found can start the projection."""
+    today = now.date()
+    explanation = [
+        "Due now: no drain of this separator is on record. Drain it and record the "
+        "water found, so the next drain can be projected."
+    ]
+    if water_event:
+        explanation.append("A water-in-fuel alarm has also been raised.")
+    inputs: dict[str, object] = {
+        "sample_rate_ml_h": rate.estimate,
+        "observed_rates_ml_h": rate.observed,
+        "blended_rate_ml_h": rate.rate,
+        "drain_level_ml": drain_level,
+        "water_event": water_event,
+    }
+    return Projection(
+        TaskKind.SEPARATOR_DRAIN,
+        DueDate(hours=None, on=today, earliest=today, latest=today),
+        DueStatus.DUE,
+        Basis.WATER_EVENT if water_event else Basis.PLAN_DAYS,
+        explanation,
+        inputs,
+    )
+
+
+def _collected(
+    *,
+    since: Sequence[WaterIntake],
+    efficiency: float,
+    rate: float,
+    last_drain: DrainRecord,
+    current_hours: float,
+) -> tuple[float, str]:
+    """(mL of water in the bowl since the last drain, the sentence that says how much)."""
+    if since:
+        water = efficiency * sum(
+            water_ml_from_fuel(
+                litres=i.litres, free_water_mg_kg=i.free_water_mg_kg, density_kg_l=i.density_kg_l
+            )
+            for i in since
+        )
+        how = f"from {plural(len(since), 'fuel input')} since the drain"
+    else:
+        hours_since = max(0.0, current_hours - last_drain.hours)
+        water = rate * hours_since
+        how = f"estimated at {rate:.2f} mL/h over {fmt_hours(hours_since)} (no fuel inputs)"
+    return water, (
+        f"About {water:,.0f} mL collected since the drain at {fmt_hours(last_drain.hours)} "
+        f"on {last_drain.at.date().isoformat()} ({how})."
+    )
+
+
+def _explanation(
+    *,
+    basis: Basis,
+    due: DueDate,
+    plan: DrainPlan,
+    drain_level: float,
+    water_event: bool,
+    collected: str,
+    rate: _Rate,
+    sample: tuple[float, float, float],  # free water mg/kg, burn L/h, efficiency
+    since: Sequence[WaterIntake],
+    forecast: UsageForecast,
+) -> list[str]:
+    out: list[str] = []
+    governs = _governs_sentence(basis, due, plan, drain_level)
+    if water_event:
+        out.append(
+            "Due now: a water-in-fuel alarm was raised since the last drain. Drain the "
+            "separator, record the water found and check the fuel source."
+        )
+        governs = "Without the alarm: " + governs[0].lower() + governs[1:]
+    out.append(governs)
+    if due.earliest != due.latest:
+        out.append(
+            f"Expected around {due.on.isoformat()} (between {due.earliest.isoformat()} and "
+            f"{due.latest.isoformat()} as usage varies)."
+        )
+    out.append(collected)
+    if rate.observed:
+        out.append(
+            f"Water rate {rate.rate:.2f} mL/h: the rates seen over "
+            f"{plural(len(rate.observed), 'drain interval')} count for "
+            f"{(1 - rate.estimate_weight) * 100:.0f} %, the sample estimate of "
+            f"{rate.estimate:.2f} mL/h for {rate.estimate_weight * 100:.0f} %."
+        )
+    else:
+        free_water, burn, efficiency = sample
+        out.append(
+            f"Water rate {rate.rate:.2f} mL/h from the fuel sample alone "
+            f"({free_water:g} mg/kg free water at {burn:.1f} L/h, "
+            f"{efficiency * 100:.0f} % separated); no drains with water amounts yet."
+        )
+    wettest = sorted(since, key=lambda i: i.free_water_mg_kg, reverse=True)[:3]
+    if wettest and wettest[0].free_water_mg_kg > 0:
+        parts = [f"{i.label} ({i.free_water_mg_kg:g} mg/kg)" for i in wettest]
+        out.append("Wettest fuel since the drain: " + "; ".join(parts) + ".")
+    out.append(sentence(f"Usage: {forecast.note}"))
+    return out
 
 
 def _governs_sentence(basis: Basis, due: DueDate, plan: DrainPlan, drain_level: float) -> str:

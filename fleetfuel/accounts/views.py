@@ -11,7 +11,7 @@ from .access import user_role
 from .models import Role
 
 HOME_BY_ROLE = {
-    Role.MANAGER: "planning:due_list",
+    Role.MANAGER: "pages:due_list",
     Role.MECHANIC: "workorders:my_work",
     Role.AUDITOR: "ledger:history",
 }

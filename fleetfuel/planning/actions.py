@@ -11,8 +11,8 @@ from django.db import transaction
 from services.common import DueStatus
 
 from .engine import unit_compute
-from .inputs import batch_inputs_load
 from .models import DueItem, UnitFlag
+from .selectors import batch_inputs_load
 
 STATUS_RANK = {DueStatus.OVERDUE: 0, DueStatus.DUE: 1, DueStatus.SOON: 2, DueStatus.OK: 3}
 DUE_FIELDS = [

@@ -1,7 +1,9 @@
 """Turn one unit's stored inputs into services/ calls: projections and flags.
 
-No queries here: everything comes from fleetfuel/planning/inputs.py. This module only maps
-rows to the dataclasses services/ takes, so the trade's logic stays in services/.
+No queries here (everything comes from fleetfuel/planning/selectors.py) and no decisions of
+the trade: this module maps rows to the dataclasses services/ takes. Which fuel is current,
+where a filter's life starts, the relief-valve defaults and the usage forecast are decided
+in services/.
 """
 
 from __future__ import annotations
@@ -9,14 +11,17 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime, timedelta
 
-from fleetfuel.fleet.models import ComponentKind, FuelSample, ServicePlan
+from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, ServicePlan
+from services import flags as fl
+from services import fuel_intake as fi
 from services import fuel_quality as fq
-from services import intervals, rules, usage, water
+from services import intervals, usage, water
 from services.common import Projection, TaskKind, UsageForecast
+from services.filter_dp import DpReading
+from services.schedule import MAX_FORECAST_DAYS
 
-from .inputs import FORECAST_WINDOW_DAYS, BatchInputs, UnitInputs
+from .selectors import BatchInputs, UnitInputs, unit_forecast
 
-CURRENT_FUEL_DAYS = 14  # "current" fuel quality: what went in over the last two weeks
 FILTER_TASKS = {
     ComponentKind.PRIMARY_FILTER: TaskKind.PRIMARY_FILTER,
     ComponentKind.FINE_FILTER: TaskKind.FINE_FILTER,
@@ -34,10 +39,115 @@ class UnitResult:
     unit_id: int
     site_id: int
     projections: list[ComponentProjection]
-    flags: list[rules.UnitFlag]
+    flags: list[fl.UnitFlag]
     skipped: list[str]  # why a task could not be projected (no plan, no filter fitted)
     current_hours: float  # engine hours now, from the usage forecast
     rate: float  # engine hours per day, from the usage forecast
+
+
+@dataclass(frozen=True)
+class UnitFuel:
+    """What a unit's fuel and engine records say, shared by its filters and its separator."""
+
+    paired: list[fi.Paired]  # each fueling with the quality of its fuel, oldest first
+    source_names: dict[int, str]  # by fueling id
+    events: list[fl.EngineEvent]
+    burn: float | None  # measured L/h over the forecast window, when there is enough to tell
+
+
+def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
+    unit = b.unit
+    forecast = unit_forecast(b, now=now)
+    if unit.disposed_on is not None and unit.disposed_on <= now.date():
+        # A disposed unit is no longer serviced: no items, no flags (its history stays).
+        return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0)
+    fuel = unit_fuel(b, batch)
+    results: list[ComponentProjection] = []
+    skipped: list[str] = []
+    for comp_kind, task in FILTER_TASKS.items():
+        comp = b.filters.get(comp_kind)
+        plan = b.plans.get(comp_kind)
+        if comp is None or plan is None or not plan.interval_hours:
+            skipped.append(f"{task.label}: no fitted filter or no plan with an hour interval")
+            continue
+        projection = filter_compute(b, comp, plan, task, fuel, forecast, now)
+        results.append(ComponentProjection(comp.pk, projection))
+    primary = b.filters.get(ComponentKind.PRIMARY_FILTER)
+    plan = b.plans.get(ComponentKind.PRIMARY_FILTER)
+    if primary and plan and plan.bowl_capacity_ml and plan.drain_interval_days:
+        drain = drain_compute(b, plan, fuel, forecast, now)
+        results.append(ComponentProjection(primary.pk, drain))
+    else:
+        skipped.append(
+            f"{TaskKind.SEPARATOR_DRAIN.label}: no separator plan (bowl capacity, drain interval)"
+        )
+    relief = b.plans.get(ComponentKind.RELIEF_VALVE)
+    unit_flags = fl.unit_flags(
+        events=fuel.events,
+        relief_plan=fl.relief_valve_plan(
+            window_hours=relief.relief_window_hours if relief else None,
+            window_days=relief.relief_window_days if relief else None,
+            openings_to_flag=relief.relief_openings_to_flag if relief else None,
+            lifetime_openings_to_replace=relief.relief_lifetime_openings if relief else None,
+        ),
+        lifetime_relief_openings=b.lifetime_relief_openings,
+        now=now,
+    )
+    return UnitResult(
+        unit.pk, unit.site_id, results, unit_flags, skipped, forecast.current_hours, forecast.rate
+    )
+
+
+def engine_hours_at(b: UnitInputs, at: datetime, meter: float) -> float:
+    return usage.meter_to_engine_hours(meter=meter, at=at, replacements=b.replacements)
+
+
+def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
+    samples = [
+        fi.Sample(
+            at=s.sampled_at,
+            source_id=s.source_id,
+            unit_sample=False,
+            quality=sample_quality(s, batch.sources[s.source_id].name if s.source_id else None),
+        )
+        for s in batch.source_samples
+    ] + [
+        fi.Sample(
+            at=s.sampled_at, source_id=None, unit_sample=True, quality=sample_quality(s, None)
+        )
+        for s in b.unit_samples
+    ]
+    fuelings = [
+        fi.Fueling(at=f.fueled_at, litres=f.litres, source_id=f.source_id, ref=str(f.pk))
+        for f in b.fuelings
+    ]
+    burn = None
+    if len(b.readings) >= 2:
+        first, last = b.readings[0], b.readings[-1]
+        burn = fi.measured_burn(
+            start=(first.at, engine_hours_at(b, first.at, first.hours)),
+            end=(last.at, engine_hours_at(b, last.at, last.hours)),
+            fuelings=fuelings,
+        )
+    return UnitFuel(
+        paired=fi.quality_for_fuelings(fuelings=fuelings, samples=samples),
+        source_names={
+            f.pk: batch.sources[f.source_id].name if f.source_id else "unknown source"
+            for f in b.fuelings
+        },
+        events=[
+            fl.EngineEvent(
+                at=e.occurred_at,
+                hours=e.hours,
+                spn=e.spn,
+                fmi=e.fmi,
+                count=e.occurrences,
+                kind=e.kind,
+            )
+            for e in b.events
+        ],
+        burn=burn,
+    )
 
 
 def sample_quality(sample: FuelSample, source_name: str | None) -> fq.FuelQuality:
@@ -65,187 +175,65 @@ def sample_quality(sample: FuelSample, source_name: str | None) -> fq.FuelQualit
     )
 
 
-def _meter_to_engine(b: UnitInputs, at: datetime, meter: float) -> float:
-    return meter + sum(r.offset for r in b.replacements if r.replaced_at <= at)
-
-
-def unit_forecast(b: UnitInputs, now: datetime) -> UsageForecast:
-    readings = [usage.MeterReading(at=at, hours=h) for at, h in b.readings]
-    if b.latest_reading and (not readings or readings[-1].at != b.latest_reading[0]):
-        readings.append(usage.MeterReading(at=b.latest_reading[0], hours=b.latest_reading[1]))
-        readings.sort(key=lambda r: r.at)
-    return usage.usage_forecast(
-        readings=readings,
-        replacements=[
-            usage.MeterReplacement(
-                at=r.replaced_at,
-                old_meter_final=r.old_meter_final,
-                new_meter_start=r.new_meter_start,
-            )
-            for r in b.replacements
-        ],
-        now=now,
-        window_days=FORECAST_WINDOW_DAYS,
-        class_rate=b.unit.unit_class.typical_hours_per_day,
+def filter_compute(
+    b: UnitInputs,
+    comp: Component,
+    plan: ServicePlan,
+    task: TaskKind,
+    fuel: UnitFuel,
+    forecast: UsageForecast,
+    now: datetime,
+) -> Projection:
+    channel = fq.channel_for_rating(comp.rating_um)
+    changed_at, changed_meter, _ = b.last_change.get(comp.kind, (None, None, None))
+    last_at, last_meter = intervals.last_change(
+        changed_at=changed_at,
+        changed_meter=changed_meter,
+        fitted_on=comp.installed_on,
+        fitted_meter=comp.installed_hours,
+        tz=now.tzinfo,
     )
-
-
-def measured_burn(b: UnitInputs, now: datetime) -> float | None:
-    """Litres per engine hour over the forecast window, or None if too little to tell."""
-    if len(b.readings) < 2:
-        return None
-    (t0, m0), (t1, m1) = b.readings[0], b.readings[-1]
-    hours = _meter_to_engine(b, t1, m1) - _meter_to_engine(b, t0, m0)
-    if hours < 10:
-        return None
-    litres = sum(f.litres for f in b.fuelings if t0 < f.fueled_at <= t1)
-    return litres / hours if litres > 0 else None
-
-
-def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
-    unit = b.unit
-    forecast = unit_forecast(b, now)
-    if unit.disposed_on is not None and unit.disposed_on <= now.date():
-        # A disposed unit is no longer serviced: no items, no flags (its history stays).
-        return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0)
-    burn = measured_burn(b, now)
-    samples = [
-        fq.Sample(
-            at=s.sampled_at,
-            source_id=s.source_id,
-            unit_sample=False,
-            quality=sample_quality(s, batch.sources[s.source_id].name if s.source_id else None),
-        )
-        for s in batch.source_samples
-    ] + [
-        fq.Sample(
-            at=s.sampled_at, source_id=None, unit_sample=True, quality=sample_quality(s, None)
-        )
-        for s in b.unit_samples
-    ]
-    fuelings = [
-        fq.Fueling(at=f.fueled_at, litres=f.litres, source_id=f.source_id, ref=str(f.pk))
-        for f in b.fuelings
-    ]
-    paired = fq.quality_for_fuelings(fuelings=fuelings, samples=samples)
-    source_names = {
-        f.pk: batch.sources[f.source_id].name if f.source_id else "unknown source"
-        for f in b.fuelings
-    }
-    engine_events = [
-        rules.EngineEvent(
-            at=e.occurred_at, hours=e.hours, spn=e.spn, fmi=e.fmi, count=e.occurrences, kind=e.kind
-        )
-        for e in b.events
-    ]
-    recent_from = now - timedelta(days=CURRENT_FUEL_DAYS)
-    recent = [p for p in paired if p[0].at >= recent_from] or paired[-3:]
-
-    results: list[ComponentProjection] = []
-    skipped: list[str] = []
-    for comp_kind, task in FILTER_TASKS.items():
-        comp = b.filters.get(comp_kind)
-        plan = b.plans.get(comp_kind)
-        if comp is None or plan is None or not plan.interval_hours:
-            skipped.append(f"{task.label}: no fitted filter or no plan with an hour interval")
+    loadings = []
+    for fueling, quality in fuel.paired:
+        if fueling.at < last_at:
             continue
-        channel = fq.channel_for_rating(comp.rating_um)
-        last_at, last_meter, _ = b.last_change.get(comp_kind, (None, None, None))
-        if last_at is None:
-            last_at = datetime.combine(comp.installed_on, datetime.min.time(), tzinfo=now.tzinfo)
-            last_meter = comp.installed_hours
-        elif last_meter is None:
-            last_meter = comp.installed_hours
-        last_hours = _meter_to_engine(b, last_at, last_meter)
-        loadings = []
-        for fueling, quality in paired:
-            if fueling.at < last_at:
-                continue
-            conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
-            label = f"from {source_names[int(fueling.ref)]}, " + (
-                quality.label if quality else "no sample: reference fuel assumed"
-            )
-            loadings.append(
-                intervals.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
-                                  reference_assumed=assumed, label=label)
-            )  # fmt: skip
-        if recent:
-            current, ref_litres, _ = fq.volume_weighted_concentration(pairs=recent, channel=channel)
-            current_assumed = ref_litres >= sum(f.litres for f, _ in recent) - 1e-9
-        else:
-            current, current_assumed = fq.concentration_or_reference(quality=None, channel=channel)
-        raised = task in rules.raised_priorities(events=engine_events, since=last_at)
-        projection = intervals.filter_projection(
-            task=task,
-            plan=filter_plan(plan, channel, unit.unit_class.typical_burn_l_per_h),
-            last_change_at=last_at,
-            last_change_hours=last_hours,
-            loadings=loadings,
-            current_concentration_per_ml=current,
-            current_reference_assumed=current_assumed,
-            burn_l_per_h=burn,
-            dp_readings=[
-                intervals.DpReading(
-                    at=r.taken_at, hours=_meter_to_engine(b, r.taken_at, r.hours), dp_bar=r.dp_bar
-                )
-                for r in b.dp_readings.get(comp.pk, [])
-                if r.taken_at >= last_at
-            ],
-            forecast=forecast,
-            now=now,
-            priority_raised=raised,
+        conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
+        label = f"from {fuel.source_names[int(fueling.ref)]}, " + (
+            quality.label if quality else "no sample: reference fuel assumed"
         )
-        results.append(ComponentProjection(comp.pk, projection))
-
-    primary = b.filters.get(ComponentKind.PRIMARY_FILTER)
-    plan = b.plans.get(ComponentKind.PRIMARY_FILTER)
-    if (
-        primary is not None
-        and plan is not None
-        and plan.bowl_capacity_ml
-        and plan.drain_interval_days
-    ):
-        results.append(
-            ComponentProjection(
-                primary.pk,
-                drain_compute(b, batch, plan, paired, engine_events, burn, forecast, now),
-            )
-        )
-    else:
-        skipped.append(
-            f"{TaskKind.SEPARATOR_DRAIN.label}: no separator plan (bowl capacity, drain interval)"
-        )
-
-    relief = b.plans.get(ComponentKind.RELIEF_VALVE)
-    relief_plan = rules.ReliefValvePlan(
-        window_hours=relief.relief_window_hours if relief else None,
-        window_days=relief.relief_window_days if relief else None,
-        openings_to_flag=(relief.relief_openings_to_flag or 3) if relief else 3,
-        lifetime_openings_to_replace=relief.relief_lifetime_openings if relief else None,
-    )
-    if relief_plan.window_hours is None and relief_plan.window_days is None:
-        relief_plan = rules.ReliefValvePlan(
-            None, 7, relief_plan.openings_to_flag, relief_plan.lifetime_openings_to_replace
-        )
-    flags = rules.unit_flags(
-        events=engine_events,
-        relief_plan=relief_plan,
-        lifetime_relief_openings=b.lifetime_relief_openings,
+        loadings.append(
+            intervals.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
+                              reference_assumed=assumed, label=label)
+        )  # fmt: skip
+    current, current_assumed = fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)
+    return intervals.filter_projection(
+        task=task,
+        plan=filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h),
+        last_change_at=last_at,
+        last_change_hours=engine_hours_at(b, last_at, last_meter),
+        loadings=loadings,
+        current_concentration_per_ml=current,
+        current_reference_assumed=current_assumed,
+        burn_l_per_h=fuel.burn,
+        dp_readings=[
+            DpReading(at=r.taken_at, hours=engine_hours_at(b, r.taken_at, r.hours), dp_bar=r.dp_bar)
+            for r in b.dp_readings.get(comp.pk, [])
+            if r.taken_at >= last_at
+        ],
+        forecast=forecast,
         now=now,
-    )
-    return UnitResult(
-        unit.pk, unit.site_id, results, flags, skipped, forecast.current_hours, forecast.rate
+        priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
     )
 
 
 def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> intervals.FilterPlan:
-    codes = fq.parse_iso4406(plan.reference_iso4406)
-    code = codes[channel] if codes[channel] is not None else fq.REFERENCE_CODES[channel]
     return intervals.FilterPlan(
         interval_hours=float(plan.interval_hours or 0),
-        interval_days=int(plan.interval_days or 3650),
+        interval_days=int(plan.interval_days or MAX_FORECAST_DAYS),  # no calendar limit
         interval_litres=plan.interval_litres,
-        reference_concentration_per_ml=fq.count_range(int(code))[1],  # type: ignore[arg-type]
+        reference_concentration_per_ml=fq.plan_reference_concentration(
+            reference_iso4406=plan.reference_iso4406, channel=channel
+        ),
         reference_burn_l_per_h=plan.reference_burn_l_per_h or class_burn,
         dp_limit_bar=plan.dp_limit_bar,
         soon_days=plan.soon_days,
@@ -254,53 +242,35 @@ def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> intervals
 
 
 def drain_compute(
-    b: UnitInputs,
-    batch: BatchInputs,
-    plan: ServicePlan,
-    paired: list[tuple[fq.Fueling, fq.FuelQuality | None]],
-    engine_events: list[rules.EngineEvent],
-    burn: float | None,
-    forecast: UsageForecast,
-    now: datetime,
+    b: UnitInputs, plan: ServicePlan, fuel: UnitFuel, forecast: UsageForecast, now: datetime
 ) -> Projection:
+    """The separator's next drain (the plan has a bowl capacity and a drain interval)."""
     records = [
-        water.DrainRecord(at=at, hours=_meter_to_engine(b, at, meter), water_ml=ml or 0.0)
+        water.DrainRecord(at=at, hours=engine_hours_at(b, at, meter), water_ml=ml or 0.0)
         for at, meter, ml in b.drains
         if meter is not None
     ]
     last = records[-1] if records else None
-    since = last.at if last else now - timedelta(days=plan.drain_interval_days or 7)
-
-    def free(quality: fq.FuelQuality | None) -> tuple[float, float]:
-        density = fq.DEFAULT_DENSITY_KG_L
-        total = (
-            quality.water_mg_kg
-            if quality and quality.water_mg_kg is not None
-            else plan.reference_water_mg_kg
-        )
-        return (
-            fq.free_water_mg_kg(
-                total_mg_kg=total,
-                temperature_c=quality.temperature_c if quality else None,
-                fame_pct_v=quality.fame_pct_v if quality else None,
+    since = last.at if last else now - timedelta(days=plan.drain_interval_days)
+    reference_water = plan.reference_water_mg_kg
+    intakes = [
+        water.WaterIntake(
+            at=fueling.at,
+            litres=fueling.litres,
+            free_water_mg_kg=fq.free_water_or_reference(
+                quality=quality, reference_mg_kg=reference_water
             ),
-            density,
+            density_kg_l=fq.DEFAULT_DENSITY_KG_L,
+            label=quality.label if quality else "no sample: the plan's reference water assumed",
         )
-
-    intakes = []
-    for fueling, quality in paired:
-        if fueling.at <= since:
-            continue
-        fw, density = free(quality)
-        label = quality.label if quality else "no sample: the plan's reference water assumed"
-        intakes.append(water.WaterIntake(at=fueling.at, litres=fueling.litres, free_water_mg_kg=fw,
-                                         density_kg_l=density, label=label))  # fmt: skip
-    current_fw, density = free(paired[-1][1] if paired else None)
+        for fueling, quality in fuel.paired
+        if fueling.at > since
+    ]
     return water.drain_projection(
         plan=water.DrainPlan(
-            bowl_capacity_ml=float(plan.bowl_capacity_ml or 0),
+            bowl_capacity_ml=float(plan.bowl_capacity_ml),
             drain_level_fraction=plan.drain_level_fraction,
-            drain_interval_days=int(plan.drain_interval_days or 7),
+            drain_interval_days=int(plan.drain_interval_days),
             drain_interval_hours=plan.drain_interval_hours,
             separator_efficiency=plan.separator_efficiency,
             soon_days=plan.drain_soon_days,
@@ -309,10 +279,14 @@ def drain_compute(
         last_drain=last,
         history=records,
         intakes=intakes,
-        burn_l_per_h=burn or plan.reference_burn_l_per_h or b.unit.unit_class.typical_burn_l_per_h,
-        current_free_water_mg_kg=current_fw,
-        density_kg_l=density,
+        burn_l_per_h=fuel.burn
+        or plan.reference_burn_l_per_h
+        or b.unit.unit_class.typical_burn_l_per_h,
+        current_free_water_mg_kg=fq.free_water_or_reference(
+            quality=fi.latest_fuel_quality(pairs=fuel.paired), reference_mg_kg=reference_water
+        ),
+        density_kg_l=fq.DEFAULT_DENSITY_KG_L,
         forecast=forecast,
-        water_in_fuel_since_drain=rules.water_event_since(events=engine_events, since=since),
+        water_in_fuel_since_drain=fl.water_event_since(events=fuel.events, since=since),
         now=now,
     )

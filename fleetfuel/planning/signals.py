@@ -6,6 +6,7 @@ import threading
 from datetime import timedelta
 from typing import Any
 
+from django.conf import settings
 from django.db import transaction
 from django.db.models.signals import post_save
 from django.dispatch import receiver
@@ -21,7 +22,8 @@ from fleetfuel.fleet.models import (
 )
 from fleetfuel.ledger.models import ServiceEvent
 
-from .inputs import LOOKBACK_DAYS
+from .selectors import LOOKBACK_DAYS
+from .tasks import recompute_units
 
 _pending = threading.local()
 
@@ -43,10 +45,6 @@ def unit_recompute_enqueue(unit_ids: list[int]) -> None:
 
 
 def _flush() -> None:
-    from django.conf import settings
-
-    from .tasks import recompute_units
-
     ids = sorted(getattr(_pending, "ids", None) or ())
     _pending.ids = set()
     size = settings.PLANNING_BATCH_SIZE

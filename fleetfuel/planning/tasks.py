@@ -2,14 +2,19 @@
 
 from __future__ import annotations
 
+from datetime import date
+
 from celery import shared_task
 from django.conf import settings
 from django.db import OperationalError
 from django.db.models import F
 from django.utils import timezone
 
+from fleetfuel.fleet.models import Unit
+
 from .actions import due_items_recompute
-from .models import ProjectionRun
+from .models import ProjectionRun, WorkListDispatch
+from .worklists import dispatch_claim, dispatch_send, worklists_due_now
 
 RETRY = {
     "autoretry_for": (OperationalError,),
@@ -38,8 +43,6 @@ def recompute_all(after_id: int = 0, run_id: int | None = None) -> dict[str, int
     Each call handles at most PLANNING_BATCH_SIZE units with ids above ``after_id``; a rerun
     of any batch rewrites the same rows, so a duplicate delivery is harmless.
     """
-    from fleetfuel.fleet.models import Unit
-
     now = timezone.now()
     if run_id is None:
         run_id = ProjectionRun.objects.create(started_at=now, trigger="nightly").pk
@@ -64,8 +67,6 @@ def recompute_all(after_id: int = 0, run_id: int | None = None) -> dict[str, int
 @shared_task(name="fleetfuel.planning.tasks.worklists_tick", time_limit=120, soft_time_limit=100)
 def worklists_tick() -> int:
     """Hourly (beat): queue the work lists whose local hour has come. Rerunning is harmless."""
-    from .worklists import worklists_due_now
-
     due = worklists_due_now(now=timezone.now())
     for user_id, site_id, local_date in due:
         worklist_send.delay(user_id, site_id, local_date.isoformat())
@@ -84,11 +85,6 @@ def worklist_send(self, user_id: int, site_id: int, local_date: str, manual: boo
 
     After the last retry the dispatch stays FAILED with the error, shown on the manager's page.
     """
-    from datetime import date
-
-    from .models import WorkListDispatch
-    from .worklists import dispatch_claim, dispatch_send
-
     if self.request.retries:
         dispatch = (
             WorkListDispatch.objects.filter(

@@ -59,7 +59,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
     for flag in flags:
         sections.setdefault(flag.unit_id, UnitSection(flag.unit.fleet_number, flag.unit_id, [], []))
         sections[flag.unit_id].flags.append(flag)
-    base = settings.SITE_URL + reverse("planning:due_list")
+    base = settings.SITE_URL + reverse("pages:due_list")
     overdue = sum(1 for i in items if i.status == DueItem.Status.OVERDUE)
     return {
         "user": user,

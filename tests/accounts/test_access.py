@@ -41,7 +41,7 @@ def named_patterns() -> list[tuple[str, list[str]]]:
 
 def test_our_apps_have_urls() -> None:
     names = {n for n, _ in named_patterns()}
-    assert {"accounts:home", "planning:due_list", "pages:unit_list"} <= names
+    assert {"accounts:home", "pages:due_list", "pages:unit_list"} <= names
 
 
 @pytest.mark.django_db
@@ -62,13 +62,13 @@ def test_user_without_role_is_refused(client: Any) -> None:
 
     client.force_login(user_make(None))
     assert client.get(reverse("accounts:home")).status_code == 403
-    assert client.get(reverse("planning:due_list")).status_code == 403
+    assert client.get(reverse("pages:due_list")).status_code == 403
 
 
 @pytest.mark.parametrize(
     "fixture,expected",
     [
-        ("as_manager", "planning:due_list"),
+        ("as_manager", "pages:due_list"),
         ("as_mechanic", "workorders:my_work"),
         ("as_auditor", "ledger:history"),
     ],
@@ -81,14 +81,14 @@ def test_home_sends_each_role_to_its_page(request: Any, fixture: str, expected: 
 
 
 @pytest.mark.parametrize("fixture", ["as_mechanic", "as_auditor"])
-@pytest.mark.parametrize("name", ["planning:due_list", "planning:due_item_detail"])
+@pytest.mark.parametrize("name", ["pages:due_list", "pages:due_item_detail"])
 def test_manager_pages_refuse_other_roles(request: Any, fixture: str, name: str) -> None:
     client = request.getfixturevalue(fixture)
     kwargs = {"pk": 1} if name.endswith("detail") else {}
     assert client.get(reverse(name, kwargs=kwargs)).status_code == 403
 
 
-@pytest.mark.parametrize("name", ["planning:work_orders_create", "planning:worklist_send_now"])
+@pytest.mark.parametrize("name", ["pages:work_orders_create", "planning:worklist_send_now"])
 def test_auditor_writes_nothing_in_planning(as_auditor: Any, name: str) -> None:
     assert as_auditor.post(reverse(name), {"item": [1]}).status_code == 403
 

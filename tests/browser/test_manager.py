@@ -12,7 +12,7 @@ from fleetfuel.planning.models import DueItem
 from fleetfuel.workorders.models import WorkOrder
 from tests import factories as f
 from tests.browser.conftest import screenshot
-from tests.planning.test_due_list import fleet_make
+from tests.pages.test_due_list import fleet_make
 
 pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
 
@@ -27,7 +27,7 @@ def test_manager_filters_expands_and_creates_a_work_order(login_page: Any) -> No
     manager = f.user_make("manager", username="mara")
 
     page = login_page(manager)
-    assert page.url.endswith(reverse("planning:due_list"))
+    assert page.url.endswith(reverse("pages:due_list"))
     # Filter to overdue at one site: the table updates in place and the URL follows.
     page.select_option("#id_site", label="North Pit")
     page.wait_for_load_state("networkidle")

@@ -50,7 +50,7 @@ def test_demo_contaminated_deliveries_lead_the_due_list(db: Any, client: Any) ->
     assert any("FS-W001" in line for item in mill for line in item.explanation)
     # The manager's home opens on them: the first page, sorted by due date, starts with them.
     client.force_login(User.objects.get(username="manager"))
-    first = client.get(reverse("planning:due_list")).context["page"].items[:10]
+    first = client.get(reverse("pages:due_list")).context["page"].items[:10]
     assert all(i.site.code in {"kestrel", "mill-lane"} for i in first)
 
 

@@ -114,7 +114,7 @@ def test_tick_sends_one_list_per_manager_site_and_day(
     for body in parts.values():
         assert "OV-1" in body and "Overdue" in body.title()
         assert "FL-1" in body and "relief" in body.lower()
-        assert f"https://ff.example{reverse('planning:due_list')}?site={site.pk}" in body
+        assert f"https://ff.example{reverse('pages:due_list')}?site={site.pk}" in body
     dispatch = WorkListDispatch.objects.get()
     assert dispatch.status == WorkListDispatch.Status.SENT and dispatch.items >= 1
 
@@ -151,7 +151,7 @@ def test_smtp_failure_is_retried_then_shown_on_the_managers_page(
     assert dispatch.attempts == 4  # first try + 3 retries
     assert "Connection refused" in dispatch.last_error or "Errno" in dispatch.last_error
     client.force_login(subscribed["manager"])
-    page = client.get(reverse("planning:due_list")).content.decode()
+    page = client.get(reverse("pages:due_list")).content.decode()
     assert "Failed after retries" in page and "attempts" in page
 
 

@@ -1,9 +1,7 @@
 """Fuel quality checked against ISO 4406 Table 1, EN 590, ASTM D975, the World-Wide Fuel
-Charter, Fregolente et al. (2012), DOMAIN.md's worked figures and pint."""
+Charter, Fregolente et al. (2012), hand-worked figures and pint."""
 
 from __future__ import annotations
-
-from datetime import UTC, datetime
 
 import pint
 import pytest
@@ -17,7 +15,7 @@ Q_ = UREG.Quantity
 
 # ISO 4406:1999 Table 1 (unchanged in ISO 4406:2021), particles per mL: code -> (more than,
 # up to and including). Copied from the standard's table as reproduced in filter makers'
-# contamination guides and DOMAIN.md, not from the code under test.
+# contamination guides, not from the code under test.
 ISO4406_TABLE_1 = {
     0: (0.0, 0.01), 1: (0.01, 0.02), 2: (0.02, 0.04), 3: (0.04, 0.08), 4: (0.08, 0.16),
     5: (0.16, 0.32), 6: (0.32, 0.64), 7: (0.64, 1.3), 8: (1.3, 2.5), 9: (2.5, 5.0),
@@ -32,7 +30,7 @@ ISO4406_TABLE_1 = {
 codes_in_table = st.integers(min_value=0, max_value=28)
 
 
-def _quality(**changes: object) -> fq.FuelQuality:
+def quality_make(**changes: object) -> fq.FuelQuality:
     fields: dict[str, object] = {
         "codes": None,
         "counts_per_ml": None,
@@ -79,8 +77,8 @@ def test_above_table_1_is_refused_not_clamped():
 
 
 def test_worked_example_per_100_ml():
-    # Worked example (DOMAIN.md, from ISO 4406 guides): 300,000 / 50,000 / 700 particles
-    # per 100 mL give 19/16/10. pint converts per 100 mL to per mL.
+    # Worked example (ISO 4406, as filter makers' guides reproduce it): 300,000 / 50,000 /
+    # 700 particles per 100 mL give 19/16/10. pint converts per 100 mL to per mL.
     per_100_ml = (300_000, 50_000, 700)
     first, second, third = ((n / Q_(100, "mL")).to("1 / mL").magnitude for n in per_100_ml)
     assert fq.codes_from_counts(per_ml=(first, second, third)) == (19, 16, 10)
@@ -207,15 +205,15 @@ def test_channel_for_rating_refuses_nonsense():
 
 
 def test_lab_counts_win_over_codes_and_codes_read_as_upper_limit():
-    both = _quality(codes=(19, 16, 10), counts_per_ml=(3_000.0, 500.0, 7.0))
+    both = quality_make(codes=(19, 16, 10), counts_per_ml=(3_000.0, 500.0, 7.0))
     assert fq.concentration_per_ml(quality=both, channel=1) == 500.0
     # ISO 4406:1999 Table 1: code 16 covers up to and including 640/mL.
-    codes_only = _quality(codes=(19, 16, 10))
+    codes_only = quality_make(codes=(19, 16, 10))
     assert fq.concentration_per_ml(quality=codes_only, channel=1) == 640.0
 
 
 def test_missing_channel_raises_or_falls_back_to_the_reference():
-    microscope = _quality(codes=(None, 16, 13), label="S-0142")
+    microscope = quality_make(codes=(None, 16, 13), label="S-0142")
     with pytest.raises(LookupError, match="S-0142"):
         fq.concentration_per_ml(quality=microscope, channel=0)
     # WWFC 6th ed. 18/16/13 -> 2,500/mL at >=4 um(c) (ISO 4406:1999 Table 1).
@@ -225,18 +223,19 @@ def test_missing_channel_raises_or_falls_back_to_the_reference():
 
 def test_fuel_quality_refuses_impossible_values():
     with pytest.raises(ValueError, match="outside ISO 4406"):
-        _quality(codes=(30, 16, 13))
+        quality_make(codes=(30, 16, 13))
     with pytest.raises(ValueError, match="FAME"):
-        _quality(fame_pct_v=120.0)
+        quality_make(fame_pct_v=120.0)
     with pytest.raises(ValueError, match="water"):
-        _quality(water_mg_kg=-5.0)
+        quality_make(water_mg_kg=-5.0)
 
 
 # --- water ----------------------------------------------------------------------------
 
 
 def test_mg_kg_to_pct_vol_worked_figures():
-    # DOMAIN.md: 200 mg/kg at 0.820 kg/L = 0.0164 % vol; 0.05 % vol = 610 mg/kg at 0.820.
+    # Hand-worked, water at 1 g/mL: 200 mg/kg x 0.820 kg/L = 164 mg/L = 0.0164 % vol;
+    # 0.05 % vol = 500 mg/L / 0.820 kg/L = 610 mg/kg.
     assert fq.mg_kg_to_pct_vol(mg_kg=200.0, density_kg_l=0.820) == pytest.approx(0.0164)
     assert fq.pct_vol_to_mg_kg(pct_vol=0.05, density_kg_l=0.820) == pytest.approx(610, abs=0.5)
 
@@ -252,7 +251,7 @@ def test_mg_kg_to_pct_vol_agrees_with_pint(mg_kg, density):
 
 def test_astm_d975_limit_is_looser_than_en_590_in_mg_kg():
     # ASTM D975 0.05 % vol is about 590-610 mg/kg over the EN 590 density range, three
-    # times EN 590's 200 mg/kg (DOMAIN.md figures).
+    # times EN 590's 200 mg/kg (hand-worked as above).
     for density in (0.820, 0.845):
         mg_kg = fq.pct_vol_to_mg_kg(
             pct_vol=fq.ASTM_D975_WATER_SEDIMENT_MAX_PCT_V, density_kg_l=density
@@ -263,7 +262,7 @@ def test_astm_d975_limit_is_looser_than_en_590_in_mg_kg():
 
 @pytest.mark.parametrize("temperature", [10.0, 20.0, 30.0, 40.0, 50.0])
 def test_diesel_saturation_within_the_trade_band(temperature):
-    # Trade guidance (DOMAIN.md): petroleum diesel holds about 100-200 ppm dissolved.
+    # Trade guidance (common practice): petroleum diesel holds about 100-200 ppm dissolved.
     saturation = fq.dissolved_water_saturation_mg_kg(temperature_c=temperature, fame_pct_v=0.0)
     assert 100.0 <= saturation <= 200.0
 
@@ -283,8 +282,9 @@ def test_b100_saturation_matches_fregolente():
     st.floats(min_value=0, max_value=100, allow_nan=False),
 )
 def test_saturation_rises_with_temperature_and_fame(t1, t2, fame):
-    # DOMAIN.md: saturation rises with temperature; Fregolente (2012): biodiesel holds
-    # 10 to 15 times more water than diesel, so more FAME never lowers it.
+    # Saturation rises with temperature (Fregolente 2012 for B100; common practice for
+    # diesel). Fregolente (2012): biodiesel holds 10 to 15 times more water than diesel,
+    # so more FAME never lowers it.
     at = fq.dissolved_water_saturation_mg_kg
     cold, warm = sorted((t1, t2))
     assert at(temperature_c=cold, fame_pct_v=fame) <= at(temperature_c=warm, fame_pct_v=fame)
@@ -307,7 +307,7 @@ def test_temperature_is_clamped_to_the_measured_range():
 
 
 def test_free_water():
-    # Free water = total - saturation, never below zero (DOMAIN.md).
+    # Free water = total - saturation, never below zero (common practice).
     saturation_15 = fq.dissolved_water_saturation_mg_kg(temperature_c=15.0, fame_pct_v=0.0)
     free = fq.free_water_mg_kg(total_mg_kg=500.0, temperature_c=None, fame_pct_v=None)
     assert free == pytest.approx(500.0 - saturation_15)  # defaults: 15 °C, no FAME
@@ -321,67 +321,30 @@ def test_free_water():
     assert fq.free_water_mg_kg(total_mg_kg=700.0, temperature_c=50.0, fame_pct_v=0.0) >= 500.0
 
 
-# --- the fuel each fueling brought ----------------------------------------------------
+# --- what the engine reads from a plan and a sample -----------------------------------
 
 
-def _at(day: int) -> datetime:
-    return datetime(2026, 3, day, 12, tzinfo=UTC)
+def test_plan_reference_concentration_is_its_codes_upper_limit() -> None:
+    # ISO 4406:1999 Table 1: code 17 is up to 1,300/mL, 15 up to 320/mL, 12 up to 40/mL.
+    assert fq.plan_reference_concentration(reference_iso4406="17/15/12", channel=0) == 1_300.0
+    assert fq.plan_reference_concentration(reference_iso4406="17/15/12", channel=1) == 320.0
+    assert fq.plan_reference_concentration(reference_iso4406="17/15/12", channel=2) == 40.0
+    # A microscope code has no >=4 um(c) figure: the WWFC 6th ed. reference (18 -> 2,500/mL)
+    # stands in for that channel only.
+    assert fq.plan_reference_concentration(reference_iso4406="-/15/12", channel=0) == 2_500.0
+    assert fq.plan_reference_concentration(reference_iso4406="-/15/12", channel=1) == 320.0
 
 
-def _sample(day: int, source: int | None, label: str, *, tank: bool = False) -> fq.Sample:
-    return fq.Sample(at=_at(day), source_id=source, unit_sample=tank, quality=_quality(label=label))
-
-
-def test_fueling_takes_its_source_sample_taken_at_or_before_it():
-    samples = [_sample(1, 7, "A1"), _sample(10, 7, "A10"), _sample(5, 8, "B5")]
-    fuelings = [
-        fq.Fueling(at=_at(3), litres=100.0, source_id=7, ref="F1"),
-        fq.Fueling(at=_at(10), litres=100.0, source_id=7, ref="F2"),  # same instant counts
-        fq.Fueling(at=_at(4), litres=100.0, source_id=8, ref="F3"),  # B5 is later: none
-        fq.Fueling(at=_at(12), litres=100.0, source_id=None, ref="F4"),
-    ]
-    labels = [
-        None if q is None else q.label
-        for _, q in fq.quality_for_fuelings(fuelings=fuelings, samples=samples)
-    ]
-    assert labels == ["A1", "A10", None, None]
-
-
-def test_tank_sample_overrides_back_to_the_previous_tank_sample():
-    samples = [
-        _sample(1, 7, "source"),
-        _sample(6, None, "tank-6", tank=True),
-        _sample(15, None, "tank-15", tank=True),
-    ]
-    fuelings = [fq.Fueling(at=_at(d), litres=50.0, source_id=7, ref=f"F{d}") for d in (2, 6, 7, 20)]
-    pairs = fq.quality_for_fuelings(fuelings=fuelings, samples=samples)
-    labels = [None if q is None else q.label for _, q in pairs]
-    # day 2 and day 6 (at the sample) -> tank-6; day 7 -> tank-15; day 20: after every
-    # tank sample, so the source sample applies.
-    assert labels == ["tank-6", "tank-6", "tank-15", "source"]
-    assert [f.ref for f, _ in pairs] == ["F2", "F6", "F7", "F20"]
-
-
-def test_volume_weighted_concentration_hand_worked():
-    # Hand-worked: 100 L of fuel coded 19/16/10 (>=6 um(c): up to 640/mL, ISO 4406:1999
-    # Table 1) and 300 L with no sample (reference 18/16/13, WWFC 6th ed.: 640/mL at >=6;
-    # 2,500/mL at >=4). At >=4 um(c): (100 x 5,000 + 300 x 2,500) / 400 = 3,125/mL.
-    sampled = _quality(codes=(19, 16, 10), label="S-1")
-    pairs = [
-        (fq.Fueling(at=_at(1), litres=100.0, source_id=1, ref="F1"), sampled),
-        (fq.Fueling(at=_at(2), litres=300.0, source_id=2, ref="F2"), None),
-    ]
-    mean, reference_litres, labels = fq.volume_weighted_concentration(pairs=pairs, channel=0)
-    assert mean == pytest.approx(3_125.0)
-    assert reference_litres == 300.0
-    assert labels == ["S-1"]
-
-
-def test_volume_weighted_concentration_with_no_fuel_is_the_reference():
-    mean, reference_litres, labels = fq.volume_weighted_concentration(pairs=[], channel=2)
-    assert (mean, reference_litres, labels) == (80.0, 0.0, [])  # 13 -> 80/mL, Table 1
-
-
-def test_negative_fueling_is_refused():
-    with pytest.raises(ValueError, match="litres"):
-        fq.Fueling(at=_at(1), litres=-1.0, source_id=None, ref="F9")
+def test_free_water_or_reference_uses_the_sample_where_it_has_water() -> None:
+    # B100 holds 1,500 mg/kg dissolved at 10 °C (Fregolente 2012): 1,700 leaves 200 free.
+    wet = quality_make(water_mg_kg=1_700.0, temperature_c=10.0, fame_pct_v=100.0)
+    assert fq.free_water_or_reference(quality=wet, reference_mg_kg=0.0) == pytest.approx(200.0)
+    # No water figure in the sample: the plan's reference water, at the sample's temperature
+    # and FAME (B100 at 10 °C dissolves all of 1,000 mg/kg).
+    dry_label = quality_make(temperature_c=10.0, fame_pct_v=100.0)
+    assert fq.free_water_or_reference(quality=dry_label, reference_mg_kg=1_000.0) == 0.0
+    # No sample at all: the reference water in petroleum diesel at 15 °C, the same as
+    # free_water_mg_kg's defaults.
+    assert fq.free_water_or_reference(quality=None, reference_mg_kg=500.0) == pytest.approx(
+        fq.free_water_mg_kg(total_mg_kg=500.0, temperature_c=15.0, fame_pct_v=0.0)
+    )

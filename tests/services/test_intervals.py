@@ -1,27 +1,26 @@
 """Filter change projection: contaminant budget, plan limits, dP curve, status.
 
 Concentrations are particles per mL in the >=4 um(c) channel. Reference fuel is
-ISO 4406 18/16/13 (World-Wide Fuel Charter, 6th ed. 2019, via DOMAIN.md); its
+ISO 4406 18/16/13 (World-Wide Fuel Charter, 6th ed. 2019); its
 >=4 um code 18 covers more than 1,300 up to 2,500 per mL, code 20 more than 5,000
-up to 10,000 per mL (ISO 4406:1999 Table 1, via DOMAIN.md). Using each range's
+up to 10,000 per mL (ISO 4406:1999 Table 1). Using each range's
 upper limit, fuel two codes dirtier carries 10,000 / 2,500 = 4x the particles.
 The budget model is the mass balance of filter life: hours = capacity /
-(fuel flow x concentration x capture efficiency) (general engineering reference,
-DOMAIN.md "Filters and separators").
+(fuel flow x concentration x capture efficiency) (a mass balance, as filter makers'
+service-life guides state it; common practice).
 """
 
 from __future__ import annotations
 
 import math
-from datetime import date, datetime, timedelta
+from datetime import UTC, date, datetime, timedelta
 
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
-from services.intervals import DpReading, FilterPlan, Loading, dp_fit, filter_projection
-from services.schedule import due_status, forecast_dates
+from services.intervals import FilterPlan, Loading, filter_projection, last_change
 
 CODE_18_UPPER = 2_500.0  # ISO 4406:1999 Table 1: code 18 is >1,300 and <=2,500 per mL
 CODE_20_UPPER = 10_000.0  # ISO 4406:1999 Table 1: code 20 is >5,000 and <=10,000 per mL
@@ -87,72 +86,6 @@ def project(**over: object) -> Projection:
     }
     args.update(over)
     return filter_projection(**args)  # type: ignore[arg-type]
-
-
-# ----------------------------------------------------------------- hours to dates
-
-
-def test_forecast_dates_band_hand_worked() -> None:
-    # 100 h ahead: at 10 h/day 10 days (2026-01-21 08:00); at 12 h/day 8.33 days
-    # (2026-01-19 16:00); at 8 h/day 12.5 days (2026-01-23 20:00).
-    assert forecast_dates(forecast=make_forecast(), target_hours=10_200.0) == (
-        date(2026, 1, 21),
-        date(2026, 1, 19),
-        date(2026, 1, 23),
-    )
-
-
-def test_forecast_dates_idle_unit_never_reaches_hours() -> None:
-    # Rate 0: the hour limit never arrives; the caller lets the calendar govern.
-    idle = make_forecast(rate=0.0, low=0.0, high=0.0)
-    assert forecast_dates(forecast=idle, target_hours=10_200.0) is None
-
-
-def test_forecast_dates_capped_at_ten_years() -> None:
-    # 1,000,000 h at 1 h/day is ~2,700 years; capped at 3,650 days after as_of.
-    slow = make_forecast(rate=1.0, low=1.0, high=1.0)
-    dates = forecast_dates(forecast=slow, target_hours=1_010_100.0)
-    assert dates is not None
-    assert dates[0] == (NOW + timedelta(days=3650)).date()
-
-
-def test_forecast_dates_passed_target_gives_past_date() -> None:
-    # 50 h behind at 10 h/day: passed 5 days before as_of, 2026-01-06.
-    day = date(2026, 1, 6)
-    assert forecast_dates(forecast=make_forecast(), target_hours=10_050.0) == (day, day, day)
-
-
-# ----------------------------------------------------------------- status
-
-
-def _due(on: date, hours: float | None = None) -> DueDate:
-    return DueDate(hours=hours, on=on, earliest=on, latest=on)
-
-
-def test_status_thresholds_at_their_edges() -> None:
-    today = NOW.date()
-
-    def grade(days: int, raised: bool = False) -> DueStatus:
-        due = _due(today + timedelta(days=days))
-        return due_status(
-            due=due, current_hours=0, now=NOW, soon_days=14, due_days=2, raise_one_step=raised
-        )
-
-    assert grade(-1) is DueStatus.OVERDUE
-    assert grade(0) is DueStatus.DUE
-    assert grade(2) is DueStatus.DUE
-    assert grade(3) is DueStatus.SOON
-    assert grade(14) is DueStatus.SOON
-    assert grade(15) is DueStatus.OK
-    assert grade(15, raised=True) is DueStatus.SOON
-    assert grade(3, raised=True) is DueStatus.DUE
-    assert grade(0, raised=True) is DueStatus.DUE  # never pushed to overdue
-
-
-def test_status_overdue_when_meter_passed_due_hours() -> None:
-    due = _due(NOW.date() + timedelta(days=30), hours=10_050.0)
-    status = due_status(due=due, current_hours=10_050.0, now=NOW, soon_days=14, due_days=2)
-    assert status is DueStatus.OVERDUE
 
 
 # ----------------------------------------------------------------- the budget
@@ -299,74 +232,6 @@ def test_plan_without_reference_fuel_is_refused() -> None:
         project(plan=make_plan(reference_concentration_per_ml=0.0))
 
 
-# ----------------------------------------------------------------- dP curve
-
-
-def _exp_readings(a: float, b: float, hours: list[float]) -> list[DpReading]:
-    return [
-        DpReading(
-            at=CHANGED_AT + timedelta(hours=h), hours=CHANGED_HOURS + h, dp_bar=a * math.exp(b * h)
-        )
-        for h in hours
-    ]
-
-
-def test_dp_fit_recovers_exponential_hand_worked() -> None:
-    # dp = 0.2 exp(0.01 h): 0.200, 0.330, 0.544 bar at 0, 50, 100 h. The limit 1.0 bar
-    # is reached at h = ln(1.0 / 0.2) / 0.01 = ln 5 / 0.01 = 160.94 h after the change.
-    fit = dp_fit(readings=_exp_readings(0.2, 0.01, [0, 50, 100]), limit_bar=1.0, h0=CHANGED_HOURS)
-    assert fit is not None
-    assert math.isclose(fit.a, 0.2, rel_tol=1e-9)
-    assert math.isclose(fit.b, 0.01, rel_tol=1e-9)
-    assert math.isclose(fit.crossing_hours or 0, CHANGED_HOURS + math.log(5) / 0.01)
-    # A straight line through the first and last points, slope (0.544 - 0.2)/100 =
-    # 0.00344 bar/h, would reach 1.0 bar only at 232.8 h: later, i.e. optimistic.
-    line_cross = (1.0 - 0.2) / ((0.2 * math.exp(1.0) - 0.2) / 100)
-    assert (fit.crossing_hours or 0) - CHANGED_HOURS < line_cross
-
-
-def test_dp_projection_governs_and_is_explained() -> None:
-    p = project(
-        plan=make_plan(dp_limit_bar=1.0),
-        dp_readings=_exp_readings(0.2, 0.01, [0, 50, 100]),
-    )
-    assert p.basis is Basis.DIFFERENTIAL_PRESSURE
-    assert math.isclose(p.due.hours or 0, 10_160.94, abs_tol=0.01)
-    assert any("reaches the 1 bar limit" in s for s in p.explanation)
-
-
-def test_dp_limit_already_seen_is_due_at_that_reading() -> None:
-    # Readings up to 1.2 bar at +100 h with a 1.0 bar limit: the observed crossing.
-    readings = [
-        DpReading(CHANGED_AT, CHANGED_HOURS + h, dp) for h, dp in [(0, 0.3), (50, 0.6), (100, 1.2)]
-    ]
-    p = project(plan=make_plan(dp_limit_bar=1.0), dp_readings=readings)
-    assert p.basis is Basis.DIFFERENTIAL_PRESSURE
-    assert p.due.hours == CHANGED_HOURS + 100
-    assert p.status is DueStatus.OVERDUE
-
-
-def test_falling_dp_is_ignored_and_said() -> None:
-    readings = _exp_readings(0.5, -0.002, [0, 50, 100])
-    p = project(plan=make_plan(dp_limit_bar=1.0), dp_readings=readings)
-    assert p.basis is Basis.PLAN_HOURS
-    assert any("do not rise" in s for s in p.explanation)
-
-
-def test_two_dp_readings_are_not_enough() -> None:
-    p = project(plan=make_plan(dp_limit_bar=0.3), dp_readings=_exp_readings(0.2, 0.01, [0, 50]))
-    assert p.basis is Basis.PLAN_HOURS
-    assert p.inputs["dp_fit"] is None
-
-
-def test_readings_before_the_change_are_not_fitted() -> None:
-    old = [
-        DpReading(CHANGED_AT - timedelta(days=1), CHANGED_HOURS - 10 + i, 0.2 + i) for i in range(3)
-    ]
-    p = project(plan=make_plan(dp_limit_bar=1.0), dp_readings=old)
-    assert p.inputs["dp_fit"] is None
-
-
 # ----------------------------------------------------------------- properties
 
 concs = st.floats(min_value=100.0, max_value=100_000.0)
@@ -486,3 +351,41 @@ def test_exhausted_budget_says_so_in_words() -> None:
     assert p.basis is Basis.CONTAMINANT_BUDGET
     assert "already taken the dirt it is rated for (107 % of its budget)" in p.explanation[0]
     assert p.status is DueStatus.OVERDUE
+
+
+# ----------------------------------------------------------------- where a filter's life starts
+
+
+def test_life_counts_from_the_last_recorded_change() -> None:
+    at, meter = last_change(
+        changed_at=CHANGED_AT,
+        changed_meter=CHANGED_HOURS,
+        fitted_on=date(2025, 6, 1),
+        fitted_meter=4_000.0,
+        tz=UTC,
+    )
+    assert (at, meter) == (CHANGED_AT, CHANGED_HOURS)
+
+
+def test_no_change_on_record_counts_from_the_fitting() -> None:
+    # common practice: a filter fitted with the unit and never changed has run since it was
+    # fitted; the start of that day is the earliest it can have been, so the most hours.
+    at, meter = last_change(
+        changed_at=None,
+        changed_meter=None,
+        fitted_on=date(2025, 6, 1),
+        fitted_meter=4_000.0,
+        tz=UTC,
+    )
+    assert (at, meter) == (datetime(2025, 6, 1, 0, 0, tzinfo=UTC), 4_000.0)
+
+
+def test_a_change_without_a_meter_reading_keeps_the_fitted_hours() -> None:
+    at, meter = last_change(
+        changed_at=CHANGED_AT,
+        changed_meter=None,
+        fitted_on=date(2025, 6, 1),
+        fitted_meter=4_000.0,
+        tz=UTC,
+    )
+    assert (at, meter) == (CHANGED_AT, 4_000.0)

@@ -16,7 +16,10 @@ from services.usage import (
     MeterReplacement,
     date_for_hours,
     engine_hours,
+    forecast_path,
+    meter_to_engine_hours,
     theil_sen,
+    unit_usage_forecast,
     usage_forecast,
 )
 
@@ -248,6 +251,80 @@ def test_meter_replacements_are_offset():
     # 1,000 -> 1,350 engine hours in 35 days is 10 h/day on every pair of readings.
     forecast = _forecast(readings, replacements=replacements, now=day[35])
     assert forecast.rate == pytest.approx(10.0)
+
+
+def test_a_value_recorded_at_a_swap_is_read_on_the_new_meter():
+    # Hand-worked: swapped on day 15, old meter at 1,150, new at 0 (offset 1,150). A filter
+    # change recorded on day 20 at meter 50 is 1,200 engine hours; one recorded at the swap
+    # itself at meter 0 is 1,150; one on day 10 at meter 1,100 is before the swap.
+    swap = MeterReplacement(at=T0 + timedelta(days=15), old_meter_final=1_150.0, new_meter_start=0)
+    kw = {"replacements": [swap]}
+    assert meter_to_engine_hours(meter=50.0, at=T0 + timedelta(days=20), **kw) == 1_200.0  # type: ignore[arg-type]
+    assert meter_to_engine_hours(meter=0.0, at=T0 + timedelta(days=15), **kw) == 1_150.0  # type: ignore[arg-type]
+    assert meter_to_engine_hours(meter=1_100.0, at=T0 + timedelta(days=10), **kw) == 1_100.0  # type: ignore[arg-type]
+
+
+# --- the unit's forecast ---------------------------------------------------------------
+
+
+def test_unit_forecast_is_fitted_on_ninety_days_and_the_latest_reading():
+    # Hand-worked: 10 h/day over the last 60 days (a reading every 10 days, the latest
+    # today at 5,000 h): the rate is 10 h/day and the meter reads 5,000 h now.
+    window = [
+        MeterReading(at=NOW - timedelta(days=d), hours=5_000.0 - 10 * d) for d in range(60, -1, -10)
+    ]
+    forecast = unit_usage_forecast(
+        window_readings=window, latest=window[-1], replacements=[], now=NOW, class_rate=8.0
+    )
+    assert forecast.rate == pytest.approx(10.0) and forecast.current_hours == pytest.approx(5_000.0)
+    # Same as usage_forecast on the same readings over a 90-day window.
+    assert forecast == usage_forecast(
+        readings=window, replacements=[], now=NOW, window_days=90, class_rate=8.0
+    )
+    # A reading from before the 90 days (a year's slower use) does not move it.
+    old = MeterReading(at=NOW - timedelta(days=91), hours=1_000.0)
+    with_old = unit_usage_forecast(
+        window_readings=[old, *window], latest=window[-1], replacements=[], now=NOW, class_rate=8.0
+    )
+    assert with_old == forecast
+
+
+def test_a_unit_read_rarely_keeps_its_latest_reading():
+    # One reading in the window (day -20, 2,800 h) and the latest before it (day -120,
+    # 2,000 h, outside the window): 800 h in 100 days is 8 h/day, extrapolated 20 days to
+    # 2,960 h now. Without the latest reading the class default would stand.
+    recent = MeterReading(at=NOW - timedelta(days=20), hours=2_800.0)
+    old = MeterReading(at=NOW - timedelta(days=120), hours=2_000.0)
+    forecast = unit_usage_forecast(
+        window_readings=[recent], latest=old, replacements=[], now=NOW, class_rate=3.0
+    )
+    assert forecast.basis == "readings"
+    assert forecast.rate == pytest.approx(8.0)
+    assert forecast.current_hours == pytest.approx(2_960.0)
+    alone = unit_usage_forecast(
+        window_readings=[recent], latest=None, replacements=[], now=NOW, class_rate=3.0
+    )
+    assert alone.basis == "class_default" and alone.rate == 3.0
+
+
+def test_forecast_path_hand_worked():
+    # From 1,000 h at 10 h/day (band 8 to 12), 30 days in 3 steps: 10, 20 and 30 days on
+    # are 1,100 / 1,200 / 1,300 h centrally, 1,080..1,120 / 1,160..1,240 / 1,240..1,360.
+    forecast = _fixed(10.0, 8.0, 12.0)
+    path = forecast_path(forecast=forecast, now=forecast.as_of, days=30, steps=3)
+    assert [(at - forecast.as_of).days for at, *_ in path] == [0, 10, 20, 30]
+    assert [tuple(round(h, 6) for h in p[1:]) for p in path] == [
+        (1_000.0, 1_000.0, 1_000.0),
+        (1_100.0, 1_080.0, 1_120.0),
+        (1_200.0, 1_160.0, 1_240.0),
+        (1_300.0, 1_240.0, 1_360.0),
+    ]
+    # The line agrees with date_for_hours: the unit reaches each central value on that day.
+    for at, central, _, _ in path[1:]:
+        assert date_for_hours(forecast=forecast, target_hours=central)[0] == at.date()
+    assert len(forecast_path(forecast=forecast, now=forecast.as_of, days=45)) == 11
+    with pytest.raises(ValueError, match="steps"):
+        forecast_path(forecast=forecast, now=forecast.as_of, days=30, steps=0)
 
 
 # --- dates ----------------------------------------------------------------------------

@@ -26,13 +26,13 @@ UREG = pint.UnitRegistry()
 DRAINED_AT = datetime(2026, 3, 1, 8, 0)
 NOW = datetime(2026, 3, 3, 8, 0)
 LAST = DrainRecord(at=DRAINED_AT, hours=5_000.0, water_ml=40.0)
-DENSITY = 0.835  # kg/L, inside EN 590's 820-845 kg/m3 at 15 C (DOMAIN.md)
+DENSITY = 0.835  # kg/L, inside EN 590's 820-845 kg/m3 at 15 C
 
 
 def make_plan(**over: object) -> DrainPlan:
     values: dict[str, object] = {
         "bowl_capacity_ml": 250.0,
-        # ISO 16332:2018 drains the water collector at 80 % full (DOMAIN.md).
+        # ISO 16332:2018 drains the water collector at 80 % full (in its test method).
         "drain_level_fraction": 0.8,
         "drain_interval_days": 30,
         "drain_interval_hours": None,
@@ -109,8 +109,8 @@ def test_water_from_fuel_matches_pint() -> None:
 
 
 def test_water_from_fuel_matches_volume_percent_rule() -> None:
-    # DOMAIN.md: % vol ~= mg/kg x density [kg/L] / 10,000; 200 mg/kg at 0.820 kg/L is
-    # 0.0164 % vol, i.e. 0.164 mL of water in each litre of fuel.
+    # Hand-worked, water at 1 g/mL: % vol ~= mg/kg x density [kg/L] / 10,000; 200 mg/kg
+    # at 0.820 kg/L is 0.0164 % vol, i.e. 0.164 mL of water in each litre of fuel.
     per_litre = water_ml_from_fuel(litres=1.0, free_water_mg_kg=200, density_kg_l=0.820)
     assert math.isclose(per_litre / 1_000 * 100, 0.0164)
 

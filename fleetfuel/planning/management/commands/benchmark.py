@@ -75,7 +75,7 @@ class Command(BaseCommand):
                 cursor.execute("ANALYZE")
         client = Client()
         client.force_login(user)
-        url = reverse("planning:due_list")
+        url = reverse("pages:due_list")
         filtered = {"site": site.pk, "status": "overdue", "sort": "due"}
 
         def get(params: dict[str, Any]) -> None:

@@ -1,4 +1,5 @@
-"""The manager's due list: filters, sorts, the expanding row, work orders from items."""
+"""The manager's due list (a page composed in fleetfuel/pages): filters, sorts, the expanding
+row, the open-work-order mark, work orders from items."""
 
 from __future__ import annotations
 
@@ -30,7 +31,7 @@ def rows(response: Any) -> list[DueItem]:
 
 
 def test_lists_every_item_by_due_date_with_counts(as_manager: Any, small_fleet: list[Unit]) -> None:
-    response = as_manager.get(reverse("planning:due_list"))
+    response = as_manager.get(reverse("pages:due_list"))
     assert response.status_code == 200
     items = rows(response)
     assert len(items) == 12
@@ -53,7 +54,7 @@ def test_lists_every_item_by_due_date_with_counts(as_manager: Any, small_fleet: 
 def test_each_filter_narrows_the_list(
     as_manager: Any, small_fleet: list[Unit], params: dict[str, str], check: Any
 ) -> None:
-    items = rows(as_manager.get(reverse("planning:due_list"), params))
+    items = rows(as_manager.get(reverse("pages:due_list"), params))
     assert items and all(check(i) for i in items)
     assert len(items) < 12
 
@@ -73,7 +74,7 @@ def test_site_class_and_flag_filters(
         since=timezone.now(),
         computed_at=timezone.now(),
     )
-    url = reverse("planning:due_list")
+    url = reverse("pages:due_list")
     assert {i.unit.site_id for i in rows(as_manager.get(url, {"site": other_site.pk}))} == {
         other_site.pk
     }
@@ -96,12 +97,12 @@ def test_site_class_and_flag_filters(
     ],
 )
 def test_sorts(as_manager: Any, small_fleet: list[Unit], sort: str, key: Any) -> None:
-    items = rows(as_manager.get(reverse("planning:due_list"), {"sort": sort}))
+    items = rows(as_manager.get(reverse("pages:due_list"), {"sort": sort}))
     assert [key(i) for i in items] == sorted(key(i) for i in items)
 
 
 def test_bad_filter_value_says_what_is_wrong(as_manager: Any, small_fleet: list[Unit]) -> None:
-    response = as_manager.get(reverse("planning:due_list"), {"within_days": "-4"})
+    response = as_manager.get(reverse("pages:due_list"), {"within_days": "-4"})
     assert response.status_code == 200
     assert "greater than or equal to 0" in response.content.decode()
 
@@ -110,7 +111,7 @@ def test_htmx_request_gets_only_the_table_and_pushes_the_url(
     as_manager: Any, small_fleet: list[Unit]
 ) -> None:
     response = as_manager.get(
-        reverse("planning:due_list"), {"status": "due"}, headers={"HX-Request": "true"}
+        reverse("pages:due_list"), {"status": "due"}, headers={"HX-Request": "true"}
     )
     body = response.content.decode()
     assert 'id="due-results"' in body and "<html" not in body
@@ -121,8 +122,8 @@ def test_paging_fetches_one_extra_row_instead_of_counting(
     as_manager: Any, site: Any, unit_class: Any
 ) -> None:
     fleet_make(site=site, unit_class=unit_class, n=20)  # 60 items, pages of 50
-    first = as_manager.get(reverse("planning:due_list"))
-    second = as_manager.get(reverse("planning:due_list"), {"page": 2})
+    first = as_manager.get(reverse("pages:due_list"))
+    second = as_manager.get(reverse("pages:due_list"), {"page": 2})
     assert first.context["page"].has_next and not second.context["page"].has_next
     assert len(rows(first)) == 50 and len(rows(second)) == 10
     assert not {i.pk for i in rows(first)} & {i.pk for i in rows(second)}
@@ -131,7 +132,7 @@ def test_paging_fetches_one_extra_row_instead_of_counting(
 def test_row_expands_to_its_explanation(as_manager: Any, small_fleet: list[Unit]) -> None:
     item = DueItem.objects.order_by("pk").first()
     assert item is not None
-    url = reverse("planning:due_item_detail", args=[item.pk])
+    url = reverse("pages:due_item_detail", args=[item.pk])
     fragment = as_manager.get(url, headers={"HX-Request": "true"}).content.decode()
     assert "Explained 0-0" in fragment and "<html" not in fragment and "Due between" in fragment
     page = as_manager.get(url).content.decode()  # without JavaScript: a whole page
@@ -146,7 +147,7 @@ def test_two_items_on_one_unit_make_one_work_order_with_two_tasks(
     picked = list(DueItem.objects.filter(unit=unit).order_by("pk")[:2])
     other = DueItem.objects.filter(unit=small_fleet[2]).first()
     response = as_manager.post(
-        reverse("planning:work_orders_create"), {"item": [picked[0].pk, picked[1].pk, other.pk]}
+        reverse("pages:work_orders_create"), {"item": [picked[0].pk, picked[1].pk, other.pk]}
     )
     assert response.status_code == 302
     orders = WorkOrder.objects.order_by("pk")
@@ -156,9 +157,9 @@ def test_two_items_on_one_unit_make_one_work_order_with_two_tasks(
     assert {t.due_item_id for t in mine.tasks.all()} == {p.pk for p in picked}
     assert mine.due_on == max(timezone.localdate(), min(p.due_on for p in picked))
     # The items now show as in a work order, and cannot be put in a second one.
-    listing = as_manager.get(reverse("planning:due_list"), {"q": unit.fleet_number})
+    listing = as_manager.get(reverse("pages:due_list"), {"q": unit.fleet_number})
     assert "In a work order" in listing.content.decode()
-    as_manager.post(reverse("planning:work_orders_create"), {"item": [picked[0].pk]})
+    as_manager.post(reverse("pages:work_orders_create"), {"item": [picked[0].pk]})
     assert WorkOrder.objects.count() == 2
 
 
@@ -167,13 +168,11 @@ def test_mechanic_and_auditor_cannot_create_work_orders(
 ) -> None:
     item = DueItem.objects.first()
     assert (
-        as_mechanic.post(reverse("planning:work_orders_create"), {"item": [item.pk]}).status_code
+        as_mechanic.post(reverse("pages:work_orders_create"), {"item": [item.pk]}).status_code
         == 403
     )
     client.force_login(auditor)
-    assert (
-        client.post(reverse("planning:work_orders_create"), {"item": [item.pk]}).status_code == 403
-    )
+    assert client.post(reverse("pages:work_orders_create"), {"item": [item.pk]}).status_code == 403
     assert WorkOrder.objects.count() == 0
 
 
@@ -184,9 +183,32 @@ def test_a_manager_limited_to_one_site_sees_only_it(
     theirs = fleet_make(site=other_site, unit_class=unit_class, n=1, prefix="B")
     boss = f.user_make("manager", sites=[site])
     client.force_login(boss)
-    assert {i.unit.site_id for i in rows(client.get(reverse("planning:due_list")))} == {site.pk}
+    assert {i.unit.site_id for i in rows(client.get(reverse("pages:due_list")))} == {site.pk}
     foreign = DueItem.objects.filter(unit=theirs[0]).first()
-    assert client.get(reverse("planning:due_item_detail", args=[foreign.pk])).status_code == 404
+    assert client.get(reverse("pages:due_item_detail", args=[foreign.pk])).status_code == 404
+
+
+def test_a_high_pressure_flag_shows_the_caution_in_the_explanation(
+    as_manager: Any, small_fleet: list[Unit]
+) -> None:
+    item = DueItem.objects.order_by("pk").first()
+    assert item is not None
+    url = reverse("pages:due_item_detail", args=[item.pk])
+    assert "injection injury" not in as_manager.get(url).content.decode()
+    UnitFlag.objects.create(
+        unit=item.unit,
+        code="pumping_imbalance",
+        title="High-pressure pump: pumping imbalance",
+        reason="2 pumping-imbalance events",
+        checks=["Check the supply side first."],
+        since=timezone.now(),
+        high_pressure=True,
+        computed_at=timezone.now(),
+    )
+    fragment = as_manager.get(url, headers={"HX-Request": "true"}).content.decode()
+    # The one caution include, with the checks the flag lists.
+    assert "Check the supply side first." in fragment
+    assert fragment.count("High-pressure fuel: injection injury hazard") == 1
 
 
 @pytest.mark.parametrize("size", [10, 1000])
@@ -196,11 +218,10 @@ def test_query_count_does_not_grow_with_the_fleet(
     fleet_make(site=site, unit_class=unit_class, n=size)
     # 1 session, 2 user, 3 user's groups (role), 4 sites assigned to the user (exists),
     # 5 all sites' ids, 6 counts by status, 7 one page of items (+1, with unit, site, class,
-    # component and the open-work-order flag), 8 flags of the units on the page,
+    # component, and workorders' open-work-order mark as a subquery), 8 flags of the units on
+    # the page,
     # 9 the manager's recent work-list emails, 10 site choices, 11 class choices,
     # 12 the manager's profile (work-list subscription).
     with django_assert_num_queries(12):
-        response = as_manager.get(
-            reverse("planning:due_list"), {"status": "overdue", "sort": "unit"}
-        )
+        response = as_manager.get(reverse("pages:due_list"), {"status": "overdue", "sort": "unit"})
     assert response.status_code == 200 and len(rows(response)) == min(50, size * 3 // 4)

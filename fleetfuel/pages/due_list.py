@@ -1,0 +1,101 @@
+"""The manager's due list: planning's due items, marked where workorders already holds them,
+with work orders made from the ones picked. Composed here because it reads both apps."""
+
+from __future__ import annotations
+
+from django.contrib import messages
+from django.db.models import Exists, OuterRef
+from django.http import HttpResponse
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils import timezone
+from django.views.decorators.http import require_GET, require_POST
+from django.views.decorators.vary import vary_on_headers
+from django_htmx.http import HttpResponseClientRedirect, push_url
+
+from fleetfuel.accounts.access import due_item_for_user, role_required, site_ids_for_user
+from fleetfuel.accounts.models import Profile, Role
+from fleetfuel.fleet.models import Site, UnitClass
+from fleetfuel.planning.forms import DueFilterForm, WorkListSettingsForm
+from fleetfuel.planning.selectors import due_page
+from fleetfuel.planning.worklists import recent_dispatches
+from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_due_items
+from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
+
+
+def in_open_work_order() -> Exists:
+    """Whether a due item (the outer row) is a task of an open work order."""
+    return Exists(
+        WorkOrderTask.objects.filter(
+            due_item_id=OuterRef("pk"), work_order__status=WorkOrder.Status.OPEN
+        )
+    )
+
+
+@role_required(Role.MANAGER)
+@require_GET
+@vary_on_headers("HX-Request")
+def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
+    """The manager's home: every due item across their sites, filterable."""
+    site_ids = site_ids_for_user(request.user)
+    form = DueFilterForm(
+        request.GET or None,
+        sites=Site.objects.filter(pk__in=site_ids).order_by("name"),
+        classes=UnitClass.objects.order_by("name"),
+    )
+    data = form.cleaned_data if form.is_valid() else {}
+    page = due_page(
+        site_ids=site_ids,
+        data=data,
+        today=timezone.localdate(),
+        annotations={"in_work_order": in_open_work_order()},
+    )
+    query = request.GET.copy()
+    query.pop("page", None)
+    context = {"form": form, "page": page, "query": query.urlencode()}
+    if not request.htmx:
+        context["dispatches"] = recent_dispatches(user=request.user)
+        profile = getattr(request.user, "profile", None)
+        context["settings_form"] = WorkListSettingsForm(instance=profile or Profile())
+    if request.htmx and not request.htmx.boosted:
+        response = render(request, "pages/due_list.html#due-results", context)
+        return push_url(response, request.get_full_path())
+    return render(request, "pages/due_list.html", context)
+
+
+@role_required(Role.MANAGER)
+@require_GET
+def due_item_detail(request, pk: int) -> HttpResponse:  # type: ignore[no-untyped-def]
+    """The explanation of one row, expanded in place."""
+    item = due_item_for_user(request.user, pk)
+    template = "pages/_due_detail.html" if request.htmx else "pages/due_item.html"
+    return render(request, template, {"item": item})
+
+
+@role_required(Role.MANAGER)
+@require_POST
+def work_orders_create(request) -> HttpResponse:  # type: ignore[no-untyped-def]
+    ids = [int(v) for v in request.POST.getlist("item") if v.isdigit()]
+    try:
+        created = work_orders_from_due_items(
+            item_ids=ids,
+            site_ids=site_ids_for_user(request.user),
+            created_by=request.user,
+            today=timezone.localdate(),
+        )
+    except WorkOrderCreateError as exc:
+        messages.error(request, str(exc))
+    else:
+        if created.orders:
+            names = ", ".join(f"{o.number} ({o.unit.fleet_number})" for o in created.orders)
+            messages.success(request, f"Created {len(created.orders)} work order(s): {names}.")
+        if created.skipped:
+            messages.warning(
+                request, "Already in an open work order: " + "; ".join(created.skipped) + "."
+            )
+    target = reverse("pages:due_list") + (
+        "?" + request.POST["return_query"] if request.POST.get("return_query") else ""
+    )
+    if request.htmx:
+        return HttpResponseClientRedirect(target)
+    return redirect(target)
