@@ -19,6 +19,7 @@ from fleetfuel.fleet.models import (
     Unit,
 )
 from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.planning import selectors as planning_selectors
 from fleetfuel.planning.models import DueItem, UnitFlag
 from fleetfuel.workorders.models import WorkOrder
 from services import usage
@@ -102,14 +103,8 @@ def _hours_and_forecast(
         readings=[usage.MeterReading(at=at, hours=h) for at, h in readings],
         replacements=replacements,
     )
-    forecast = None
-    if engine:
-        forecast = usage.usage_forecast(
-            readings=[usage.MeterReading(at=at, hours=h) for at, h in readings],
-            replacements=replacements,
-            now=now,
-            class_rate=unit.unit_class.typical_hours_per_day,
-        )
+    # The engine's own forecast (the due dates on this page come from it), not a second one.
+    forecast = planning_selectors.unit_forecast_get(unit_id=unit.pk, now=now) if engine else None
     return engine, forecast
 
 
@@ -126,25 +121,15 @@ def _hours_chart(
         # Up to the furthest due item, and at least a month ahead so the line reads.
         horizon = max(d.latest_on for d in due_items)
         days = max(30, (horizon - now.date()).days)
-        steps = [now + timedelta(days=days * i / 10) for i in range(11)]
-        base = forecast.current_hours
+        path = usage.forecast_path(forecast=forecast, now=now, days=days)
         hours_chart.series.append(
             Series(
-                points=[
-                    (t, base + forecast.rate * (t - now).total_seconds() / 86400) for t in steps
-                ],
+                points=[(t, mid) for t, mid, _, _ in path],
                 css="forecast",
                 label=f"forecast {forecast.rate:.1f} h/day (dashed; band shaded)",
             )
         )
-        hours_chart.band = [
-            (
-                t,
-                base + forecast.rate_low * (t - now).total_seconds() / 86400,
-                base + forecast.rate_high * (t - now).total_seconds() / 86400,
-            )
-            for t in steps
-        ]
+        hours_chart.band = [(t, low, high) for t, _, low, high in path]
     return hours_chart
 
 

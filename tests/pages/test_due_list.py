@@ -14,6 +14,7 @@ from fleetfuel.fleet.models import Unit
 from fleetfuel.planning.benchmark import synthetic_fleet_make
 from fleetfuel.planning.models import DueItem, UnitFlag
 from fleetfuel.workorders.models import WorkOrder
+from services.safety import HP_CAUTION
 from tests import factories as f
 
 
@@ -194,7 +195,7 @@ def test_a_high_pressure_flag_shows_the_caution_in_the_explanation(
     item = DueItem.objects.order_by("pk").first()
     assert item is not None
     url = reverse("pages:due_item_detail", args=[item.pk])
-    assert "injection injury" not in as_manager.get(url).content.decode()
+    assert HP_CAUTION.title not in as_manager.get(url).content.decode()
     UnitFlag.objects.create(
         unit=item.unit,
         code="pumping_imbalance",
@@ -208,7 +209,7 @@ def test_a_high_pressure_flag_shows_the_caution_in_the_explanation(
     fragment = as_manager.get(url, headers={"HX-Request": "true"}).content.decode()
     # The one caution include, with the checks the flag lists.
     assert "Check the supply side first." in fragment
-    assert fragment.count("High-pressure fuel: injection injury hazard") == 1
+    assert fragment.count(HP_CAUTION.title) == 1
 
 
 @pytest.mark.parametrize("size", [10, 1000])
