@@ -4,16 +4,16 @@ from __future__ import annotations
 
 from datetime import datetime, timedelta
 
-from fleetfuel.ledger.actions import service_event_append
-from fleetfuel.ledger.models import ServiceEvent
-from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
-
-from ..models import (
+from fleetfuel.fleet.models import (
     Component,
     ComponentKind,
     EngineEvent,
     FilterPressureReading,
 )
+from fleetfuel.ledger.actions import service_event_append
+from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
+
 from .fleet_build import FleetBuilder
 from .scenario import (
     CLASSES,

@@ -19,20 +19,17 @@ from datetime import UTC, date, datetime, time
 
 from django.db import transaction
 
-from ..models import Site
-from .happenings import DemoBuilder
-from .scenario import DEMO_PASSWORD
+from fleetfuel.fleet.models import Site
+from fleetfuel.ledger.checkpoints import chain_checkpoints_record
+from fleetfuel.planning.actions import due_items_recompute
 
-__all__ = ["DEMO_PASSWORD", "DemoBuilder", "demo_seed"]
+from .happenings import DemoBuilder
 
 
 def demo_seed(*, anchor: date) -> bool:
     """Build the demo fleet unless it is already there. Returns True when it built it."""
     if Site.objects.filter(code="kestrel").exists():
         return False
-    from fleetfuel.ledger.checkpoints import chain_checkpoints_record
-    from fleetfuel.planning.actions import due_items_recompute
-
     with transaction.atomic():
         builder = DemoBuilder(anchor=anchor)
         builder.build()

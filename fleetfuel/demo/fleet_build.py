@@ -8,9 +8,8 @@ from datetime import date, datetime, timedelta
 from django.contrib.auth.models import Group, User
 
 from fleetfuel.accounts.models import Profile, Role
-
-from ..actions import unit_fuel_system_fit
-from ..models import (
+from fleetfuel.fleet.actions import unit_fuel_system_fit
+from fleetfuel.fleet.models import (
     ComponentKind,
     Fueling,
     FuelSample,
@@ -23,6 +22,7 @@ from ..models import (
     Unit,
     UnitClass,
 )
+
 from .scenario import (
     CLASS_LETTER,
     CLASSES,

@@ -5,7 +5,7 @@ from typing import Any
 from django.core.management.base import BaseCommand
 from django.utils import timezone
 
-from fleetfuel.fleet.demo import demo_seed
+from fleetfuel.demo.actions import demo_seed
 
 
 class Command(BaseCommand):
