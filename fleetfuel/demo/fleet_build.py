@@ -176,6 +176,8 @@ class FleetBuilder:
         )
 
     def fleet(self) -> None:
+        """The units, in one insert (no save signal queues a recompute of them at the wall
+        clock's time: demo_seed projects them at ``now``), then their fuel systems."""
         for _name, code, _tz, _system, _src, counts in SITES:
             site = self.sites[code]
             for class_key, count in counts.items():
@@ -183,7 +185,7 @@ class FleetBuilder:
                 for i in range(1, count + 1):
                     fleet_number = f"{PREFIX[code]}-{CLASS_LETTER[class_key]}{i:02d}"
                     year = self.now.year - 12 + self.rng.randrange(0, 11)
-                    unit = Unit.objects.create(
+                    self.units[fleet_number] = Unit(
                         site=site,
                         fleet_number=fleet_number,
                         unit_class=self.classes[class_key],
@@ -200,10 +202,11 @@ class FleetBuilder:
                         else "",
                         in_service_on=date(year, 3, 1),
                     )
-                    self.units[fleet_number] = unit
-                    self._components(unit, class_key)
+        Unit.objects.bulk_create(self.units.values())
+        for unit in self.units.values():
+            self._components(unit)
 
-    def _components(self, unit: Unit, class_key: str) -> None:
+    def _components(self, unit: Unit) -> None:
         def serial(kind: str, cylinder: int | None) -> str:
             if kind in {
                 ComponentKind.PRIMARY_FILTER,
@@ -314,13 +317,14 @@ class FleetBuilder:
                     run += rate * share
             run = round(run, 1)
             if meter_replaced_on is not None and days_ago <= meter_replaced_on:
-                MeterReplacement.objects.create(
+                replacement = MeterReplacement(
                     unit=unit,
                     replaced_at=self.at(meter_replaced_on, 7),
                     old_meter_final=round(meter, 1),
                     new_meter_start=0.0,
                     note="Meter failed; new meter fitted at zero.",
                 )
+                MeterReplacement.objects.bulk_create([replacement])
                 meter, meter_replaced_on = 0.0, None
             meter += run
             engine += run

@@ -14,7 +14,7 @@ from fleetfuel.fleet.models import (
     FilterPressureReading,
     Unit,
 )
-from fleetfuel.ledger.actions import service_event_append, service_events_append
+from fleetfuel.ledger.actions import service_events_append
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 
@@ -202,27 +202,29 @@ class DemoBuilder(FleetBuilder):
         injector.save()
         connector.installed_on, connector.installed_hours = self.local_day(unit, when), hours
         connector.save()
-        for kind, comp, extra in [
-            (
-                ServiceEvent.Kind.INJECTOR_REPLACED,
-                injector,
-                {"old_serial": old_serial, "new_serial": injector.serial, "part_number": "HV-INJ7"},
-            ),
-            (ServiceEvent.Kind.CONNECTOR_REPLACED, connector, {"part_number": "HV-HPC2"}),
-        ]:
-            service_event_append(
-                unit=unit,
-                kind=kind,
-                performed_at=when,
-                recorded_by=mechanic,
-                recorded_at=when,
-                hour_meter=hours,
-                component=comp,
-                component_kind=comp.kind,
-                cylinder=3,
-                work_order=wo,
-                **extra,
-            )
+        job = {"performed_at": when, "recorded_at": when, "recorded_by": mechanic,
+               "hour_meter": hours, "cylinder": 3, "work_order": wo}  # fmt: skip
+        service_events_append(
+            unit=unit,
+            entries=[
+                {
+                    **job,
+                    "kind": ServiceEvent.Kind.INJECTOR_REPLACED,
+                    "component": injector,
+                    "component_kind": injector.kind,
+                    "old_serial": old_serial,
+                    "new_serial": injector.serial,
+                    "part_number": "HV-INJ7",
+                },
+                {
+                    **job,
+                    "kind": ServiceEvent.Kind.CONNECTOR_REPLACED,
+                    "component": connector,
+                    "component_kind": connector.kind,
+                    "part_number": "HV-HPC2",
+                },
+            ],  # fmt: skip
+        )
 
     def work_orders(self) -> None:
         manager, mechanic = self.people["manager"], self.people["mechanic"]

@@ -12,7 +12,7 @@ same ``now`` as the build.
 from __future__ import annotations
 
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import datetime, timedelta
 from io import StringIO
 from typing import Any
@@ -24,6 +24,7 @@ from django.apps import apps
 from django.contrib.auth.models import User
 from django.core.management import call_command
 from django.db import transaction
+from django.test import TestCase
 from django.urls import reverse
 
 from fleetfuel.fleet.models import EngineEvent, Fueling, FuelSample, MeterReading, Site, Unit
@@ -38,6 +39,7 @@ DECOY_CLOCK = datetime.fromisoformat("2031-07-15T12:00:00Z")  # the wall clock o
 class Instant:
     now: datetime
     via_clock: bool  # plain seed_demo under a clock frozen at ``now``, else seed_demo --now
+    queued_on_commit: tuple[Any, ...] = ()  # what the build left to run after its commit
 
 
 INSTANTS = {
@@ -45,8 +47,9 @@ INSTANTS = {
     "as-reported-02:40-utc": Instant(datetime.fromisoformat("2026-12-02T02:40:00Z"), False),
     "05:59-utc": Instant(datetime.fromisoformat("2026-12-02T05:59:00Z"), False),
     "23:30-utc": Instant(datetime.fromisoformat("2026-12-02T23:30:00Z"), False),
-    # Europe/London: clocks go forward at 01:00 UTC on 2027-03-28; 02:05 BST, just after.
-    "london-clocks-forward": Instant(datetime.fromisoformat("2027-03-28T01:05:00Z"), False),
+    # Europe/London: clocks go forward at 01:00 UTC on 2027-03-28; 02:05 BST, just after,
+    # given to --now in London's time.
+    "london-clocks-forward": Instant(datetime.fromisoformat("2027-03-28T02:05:00+01:00"), False),
     # America/Chicago: clocks go back at 07:00 UTC on 2026-11-01; 01:30 CST, the hour twice.
     "chicago-clocks-back": Instant(datetime.fromisoformat("2026-11-01T07:30:00Z"), True),
     "29-february": Instant(datetime.fromisoformat("2028-02-29T12:00:00Z"), False),
@@ -59,13 +62,14 @@ def demo(request: Any, django_db_setup: Any, django_db_blocker: Any) -> Iterator
     instant = INSTANTS[request.param]
     iso = instant.now.isoformat()
     with django_db_blocker.unblock(), transaction.atomic():
-        if instant.via_clock:
-            with time_machine.travel(instant.now, tick=False):
-                call_command("seed_demo", stdout=StringIO())
-        else:
-            with time_machine.travel(DECOY_CLOCK, tick=False):
-                call_command("seed_demo", "--now", iso, stdout=StringIO())
-        yield instant
+        with TestCase.captureOnCommitCallbacks() as queued:
+            if instant.via_clock:
+                with time_machine.travel(instant.now, tick=False):
+                    call_command("seed_demo", stdout=StringIO())
+            else:
+                with time_machine.travel(DECOY_CLOCK, tick=False):
+                    call_command("seed_demo", "--now", iso, stdout=StringIO())
+        yield replace(instant, queued_on_commit=tuple(queued))
         transaction.set_rollback(True)
 
 
@@ -94,10 +98,12 @@ def test_seed_demo_is_idempotent_and_matches_the_scenario(at_demo_now: Instant) 
     # (dirtier than the WWFC 6th ed. 18/16/13 at the >=4 um(c) channel).
     assert FuelSample.objects.filter(water_mg_kg__gt=200).count() == 1
     assert FuelSample.objects.filter(code_4__gt=18).exists()
-    # The recompute ran at the build: every unit has its three tasks projected, at `now`.
+    # The recompute ran at the build: every unit has its three tasks projected, at `now`,
+    # and nothing is left to recompute them after the commit at the wall clock's time.
     assert first["planning.DueItem"] == 3 * Unit.objects.count()
     assert set(DueItem.objects.values_list("computed_at", flat=True)) == {at_demo_now.now}
     assert set(ChainCheckpoint.objects.values_list("recorded_at", flat=True)) == {at_demo_now.now}
+    assert at_demo_now.queued_on_commit == ()
 
 
 def test_demo_contaminated_deliveries_lead_the_due_list(at_demo_now: Instant, client: Any) -> None:

@@ -1,6 +1,6 @@
 from __future__ import annotations
 
-from datetime import datetime
+from datetime import UTC, datetime
 from typing import Any
 
 from django.core.management.base import BaseCommand, CommandError, CommandParser
@@ -10,7 +10,9 @@ from fleetfuel.demo.actions import demo_seed
 
 
 def instant_parse(value: str) -> datetime:
-    """An ISO 8601 instant with its UTC offset (``2026-12-02T02:40:00Z``), else CommandError."""
+    """An ISO 8601 instant with its UTC offset (``2026-12-02T02:40:00Z``), as UTC.
+
+    Raises CommandError for anything else (a date, a time without an offset, nonsense)."""
     try:
         when = datetime.fromisoformat(value)
     except ValueError:
@@ -20,7 +22,7 @@ def instant_parse(value: str) -> datetime:
             f"--now {value!r} is not an ISO 8601 instant with a time zone; "
             "give one like 2026-12-02T02:40:00Z or 2026-12-02T08:40:00+06:00."
         )
-    return when
+    return when.astimezone(UTC)
 
 
 class Command(BaseCommand):
