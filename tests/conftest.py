@@ -7,9 +7,11 @@ from __future__ import annotations
 import os
 from collections.abc import Iterator
 from contextlib import contextmanager
+from datetime import datetime
 from typing import Any
 
 import pytest
+import time_machine
 from django.db import connection, transaction
 from hypothesis import settings as hypothesis_settings
 
@@ -24,6 +26,37 @@ IN_CI = os.environ.get("CI", "").lower() in {"1", "true", "yes"}
 hypothesis_settings.register_profile("quick", max_examples=25, deadline=None, derandomize=True)
 hypothesis_settings.register_profile("thorough", max_examples=1000, deadline=None)
 hypothesis_settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "quick"))
+
+
+def frozen_now_parse(value: str) -> datetime | None:
+    """FLEETFUEL_FROZEN_NOW: an ISO 8601 instant with its time zone, or empty (the real clock)."""
+    if not value:
+        return None
+    try:
+        when = datetime.fromisoformat(value)
+    except ValueError:
+        when = None
+    if when is None or when.utcoffset() is None:
+        raise pytest.UsageError(
+            f"FLEETFUEL_FROZEN_NOW={value!r} is not an ISO 8601 instant with a time zone "
+            "(e.g. 2026-12-02T00:05:00Z)"
+        )
+    return when
+
+
+FROZEN_NOW = frozen_now_parse(os.environ.get("FLEETFUEL_FROZEN_NOW", ""))
+
+
+@pytest.fixture(autouse=True)
+def _wall_clock_at_frozen_now() -> Iterator[None]:
+    """With FLEETFUEL_FROZEN_NOW set, every test starts with the wall clock at that instant
+    (and ticking from there): a run at a few instants shows whether an outcome depends on
+    when the suite runs (DEVELOPERS.md, "The clock"). A test's own freeze still wins."""
+    if FROZEN_NOW is None:
+        yield
+        return
+    with time_machine.travel(FROZEN_NOW, tick=True):
+        yield
 
 
 def need(condition: bool, reason: str) -> None:
@@ -54,6 +87,15 @@ def db_shared(django_db_blocker: Any) -> Iterator[None]:
             yield
         finally:
             transaction.set_rollback(True)
+
+
+@pytest.fixture
+def clock_at_now() -> Iterator[datetime]:
+    """The wall clock at tests.factories.NOW (ticking from there), for a test whose data is
+    laid back from NOW and whose page reads the clock. List it before the fixtures that log in
+    or build data (or use ``pytest.mark.usefixtures``), so they run at NOW too."""
+    with time_machine.travel(f.NOW, tick=True):
+        yield f.NOW
 
 
 @pytest.fixture

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from datetime import date, datetime
 from typing import Any
 
@@ -68,42 +69,83 @@ def service_event_append(
     writers on different units do not contend.
     """
     with transaction.atomic():
-        Unit.objects.select_for_update().filter(pk=unit.pk).values_list("pk", flat=True).get()
-        head = (
-            ServiceEvent.objects.filter(unit_id=unit.pk)
-            .order_by("-seq")
-            .values_list("seq", "hash")
-            .first()
-        )
-        seq, prev_hash = (head[0] + 1, head[1]) if head else (1, GENESIS)
+        seq, prev_hash = _chain_head_lock(unit=unit)
         event = ServiceEvent(
             unit_id=unit.pk,
             kind=kind,
             performed_at=performed_at,
             recorded_by=recorded_by,
             recorded_at=recorded_at or timezone.now(),
-            seq=seq,
+            seq=seq + 1,
             prev_hash=prev_hash,
             **fields,
         )
-        # Normalise text fields the way the database hands them back, before hashing.
-        for name in (
-            "component_kind",
-            "part_number",
-            "old_serial",
-            "new_serial",
-            "water_appearance",
-            "measurement_name",
-            "parts_used",
-            "notes",
-            "reason",
-        ):
-            if getattr(event, name) is None:
-                setattr(event, name, "")
-        event.full_clean(exclude=["hash", "prev_hash", "seq"])
-        event.hash = entry_hash(content=event_content(event), prev_hash=prev_hash)
+        _event_seal(event)
         event.save(force_insert=True)
         return event
+
+
+def _chain_head_lock(*, unit: Unit) -> tuple[int, str]:
+    """Lock the unit row (writers on one unit queue up, so the chain never forks) and read
+    its chain head: (seq, hash), or (0, GENESIS) for an empty chain."""
+    Unit.objects.select_for_update().filter(pk=unit.pk).values_list("pk", flat=True).get()
+    head = ServiceEvent.objects.filter(unit_id=unit.pk).order_by("-seq").values_list("seq", "hash")
+    return head.first() or (0, GENESIS)
+
+
+# Text fields stored as "" when not given, the way the database hands them back.
+_BLANK_TEXT_FIELDS = (
+    "component_kind",
+    "part_number",
+    "old_serial",
+    "new_serial",
+    "water_appearance",
+    "measurement_name",
+    "parts_used",
+    "notes",
+    "reason",
+)
+# Checked by the database at the insert; full_clean would ask it once per row and relation.
+_RELATIONS = ["unit", "component", "work_order", "recorded_by", "corrects"]
+
+
+def _event_seal(event: ServiceEvent, *, relations_checked_by_database: bool = False) -> None:
+    """Normalise and validate ``event`` (its seq and prev_hash set), then seal its hash."""
+    for name in _BLANK_TEXT_FIELDS:
+        if getattr(event, name) is None:
+            setattr(event, name, "")
+    exclude = ["hash", "prev_hash", "seq"]
+    if relations_checked_by_database:
+        event.full_clean(
+            exclude=exclude + _RELATIONS, validate_unique=False, validate_constraints=False
+        )
+    else:
+        event.full_clean(exclude=exclude)
+    event.hash = entry_hash(content=event_content(event), prev_hash=event.prev_hash)
+
+
+def service_events_append(
+    *, unit: Unit, entries: Sequence[Mapping[str, Any]]
+) -> list[ServiceEvent]:
+    """Append several events to one unit's chain, in the order given, with the hashes
+    service_event_append would give them one by one: one lock of the unit row, one read of
+    its head, one insert. Each entry holds service_event_append's keyword arguments
+    (kind, performed_at, recorded_by, recorded_at and the fields); recorded_at defaults to now.
+
+    The fields are validated as there; the relations, the (unit, seq) and hash uniqueness and
+    the correction check are left to the database's constraints, which refuse the whole insert.
+    """
+    with transaction.atomic():
+        seq, prev_hash = _chain_head_lock(unit=unit)
+        events = []
+        for entry in entries:
+            seq += 1
+            fields = {**entry, "recorded_at": entry.get("recorded_at") or timezone.now()}
+            event = ServiceEvent(unit_id=unit.pk, seq=seq, prev_hash=prev_hash, **fields)
+            _event_seal(event, relations_checked_by_database=True)
+            prev_hash = event.hash
+            events.append(event)
+        return ServiceEvent.objects.bulk_create(events)
 
 
 # What a correction may restate: the hashed fields less the unit, the chain fields, the author,

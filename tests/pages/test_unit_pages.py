@@ -27,6 +27,7 @@ def test_unit_list_query_count_is_flat(
     assert len(response.context["page"].object_list) == min(size, 50)
 
 
+@pytest.mark.usefixtures("clock_at_now")  # the page draws its charts up to the clock's now
 def test_unit_page_shows_flags_due_items_and_labelled_charts(as_manager: Any, unit: Any) -> None:
     tank = f.source_make()
     history_make(unit=unit, source=tank, days=40)

@@ -4,9 +4,12 @@ due item still due), the reason kept on the task and in the work order's notes."
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from datetime import UTC, datetime
 from typing import Any
 
 import pytest
+import time_machine
 from django.contrib.messages import get_messages
 from django.forms.models import model_to_dict
 from django.urls import reverse
@@ -50,6 +53,15 @@ def job(hours: float | None = 2_000.0) -> JobEntry:
 def close(wo: WorkOrder, user: Any, token: str = "nd-1", **kw: Any) -> CloseOutcome:
     kw.setdefault("job", job())
     return work_order_close(work_order_id=wo.pk, user=user, token=token, **kw)
+
+
+@pytest.fixture
+def clock_months_after_the_filters_were_fitted() -> Iterator[None]:
+    """The unit's primary filter was fitted on 2026-01-01 (tests.factories.unit_make) on a
+    180-day plan; at this instant its calendar limit has governed for months, so the due date
+    stays put whatever the usage forecast says. A fixed instant, not the day the suite runs."""
+    with time_machine.travel(datetime(2026, 12, 1, 10, 0, tzinfo=UTC), tick=True):
+        yield
 
 
 @pytest.fixture
@@ -217,6 +229,7 @@ def test_undo_as_a_plain_form(
 # ----------------------------------------------------------------- the close
 
 
+@pytest.mark.usefixtures("clock_months_after_the_filters_were_fitted")
 def test_close_succeeds_with_a_task_not_done_and_leaves_its_due_item_due(
     as_mechanic: Any,
     mechanic: Any,

@@ -3,22 +3,23 @@
 from __future__ import annotations
 
 from datetime import datetime, timedelta
+from typing import Any
 
-from fleetfuel.ledger.actions import service_event_append
-from fleetfuel.ledger.models import ServiceEvent
-from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
+from django.contrib.auth.models import User
 
-from ..models import (
+from fleetfuel.fleet.models import (
     Component,
     ComponentKind,
     EngineEvent,
     FilterPressureReading,
+    Unit,
 )
+from fleetfuel.ledger.actions import service_events_append
+from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
+
 from .fleet_build import FleetBuilder
-from .scenario import (
-    CLASSES,
-    at_utc,
-)
+from .scenario import CLASSES
 
 
 class DemoBuilder(FleetBuilder):
@@ -44,14 +45,14 @@ class DemoBuilder(FleetBuilder):
         relief = EngineEvent.Kind.RELIEF_VALVE_OPENED
         # KQ-H04: rail relief valve opening again and again over the last week.
         for days_ago, hour in [(6, 10), (4, 14), (3, 9), (1, 11)]:
-            ev("KQ-H04", at_utc(self.anchor - timedelta(days=days_ago), hour), 5571, 0, relief)
+            ev("KQ-H04", self.at(days_ago, hour), 5571, 0, relief)
         for days_ago in (300, 210, 140):
-            ev("KQ-H04", at_utc(self.anchor - timedelta(days=days_ago), 12), 5571, 0, relief, 2)
+            ev("KQ-H04", self.at(days_ago, 12), 5571, 0, relief, 2)
         # Water-in-fuel alarms on Mill Lane units after the wet delivery.
         for key, d in [("ML-H01", 1), ("ML-H02", 15), ("ML-L01", 14), ("ML-G01", 16)]:
             ev(
                 key,
-                at_utc(self.anchor - timedelta(days=d), 8),
+                self.at(d, 8),
                 97,
                 0,
                 EngineEvent.Kind.WATER_IN_FUEL,
@@ -59,7 +60,7 @@ class DemoBuilder(FleetBuilder):
         # A filter differential-pressure warning at Kestrel after the dirty delivery.
         ev(
             "KQ-H01",
-            at_utc(self.anchor - timedelta(days=4), 15),
+            self.at(4, 15),
             95,
             16,
             EngineEvent.Kind.FILTER_DP_HIGH,
@@ -67,7 +68,7 @@ class DemoBuilder(FleetBuilder):
         # A pumping imbalance on a generator set.
         ev(
             "KQ-G01",
-            at_utc(self.anchor - timedelta(days=9), 3),
+            self.at(9, 3),
             1347,
             7,
             EngineEvent.Kind.PUMPING_IMBALANCE,
@@ -75,7 +76,7 @@ class DemoBuilder(FleetBuilder):
         # An unrelated proprietary code, stored but never interpreted.
         ev(
             "CF-H02",
-            at_utc(self.anchor - timedelta(days=30), 6),
+            self.at(30, 6),
             520_450,
             31,
             EngineEvent.Kind.OTHER,
@@ -84,95 +85,107 @@ class DemoBuilder(FleetBuilder):
 
     # ---- service history (through the ledger) ------------------------------------------
     def history(self) -> None:
+        """Filter changes on the hour interval, separator drains on a round, per unit."""
         mechanic = self.people["mechanic"]
+        components: list[Component] = []
+        dp_rows: list[FilterPressureReading] = []
         for key, unit in self.units.items():
-            log = self.unit_hours[key]
-            last_filter_hours = log[0][1]  # engine hours
-            last_drain_day = self.start
             filters = {
                 c.kind: c
                 for c in unit.components.filter(
                     kind__in=[ComponentKind.PRIMARY_FILTER, ComponentKind.FINE_FILTER]
                 )
             }
-            interval = 500 * self.rng.uniform(0.85, 1.0)
-            class_key = next(k for k, v in self.classes.items() if v.pk == unit.unit_class_id)
-            gaps = [3] if CLASSES[class_key].works_weekends else [5, 6]
-            wet = key.startswith("ML-")
-            for index, (at, engine, hours) in enumerate(log):
-                if engine - last_filter_hours >= interval:
-                    last_filter_hours = engine
-                    for kind, comp in filters.items():
-                        service_event_append(
-                            unit=unit,
-                            kind=ServiceEvent.Kind.FILTER_CHANGED,
-                            performed_at=at,
-                            recorded_by=mechanic,
-                            recorded_at=at,
-                            hour_meter=hours,
-                            component=comp,
-                            component_kind=kind,
-                            part_number=comp.part_number,
-                        )
-                        comp.installed_on = at.date()
-                        comp.installed_hours = hours
-                drain_gap = (at.date() - last_drain_day).days
-                # Drained on a regular round; the dry depots also had a round yesterday,
-                # while the wet depot's bowls are filling again after its last round.
-                final_round = index == len(log) - 1 and not wet
-                if at.date() > self.anchor - timedelta(days=120) and (
-                    drain_gap >= self.rng.choice(gaps) or (final_round and drain_gap >= 1)
-                ):
-                    last_drain_day = at.date()
-                    water = round(self.rng.uniform(5, 40))
-                    if wet and at.date() > self.wet_on:
-                        water = round(self.rng.uniform(120, 190))
-                    service_event_append(
-                        unit=unit,
-                        kind=ServiceEvent.Kind.SEPARATOR_DRAINED,
-                        performed_at=at,
-                        recorded_by=mechanic,
-                        recorded_at=at,
-                        hour_meter=hours,
-                        component=filters[ComponentKind.PRIMARY_FILTER],
-                        component_kind=ComponentKind.PRIMARY_FILTER,
-                        water_ml=water,
-                        water_appearance="cloudy" if water > 100 else "clear",
-                    )
-            for comp in filters.values():
-                comp.save(update_fields=["installed_on", "installed_hours"])
-            self._dp_readings(key, filters[ComponentKind.FINE_FILTER])
+            entries = self._unit_history(key, unit, filters, mechanic)
+            service_events_append(unit=unit, entries=entries)
+            components.extend(filters.values())
+            dp_rows.extend(self._dp_readings(key, filters[ComponentKind.FINE_FILTER]))
+        Component.objects.bulk_update(components, ["installed_on", "installed_hours"])
+        FilterPressureReading.objects.bulk_create(dp_rows)
         self._injector_job()
 
-    def _dp_readings(self, key: str, fine: Component) -> None:
+    def _unit_history(
+        self, key: str, unit: Unit, filters: dict[str, Component], mechanic: User
+    ) -> list[dict[str, Any]]:
+        log = self.unit_hours[key]
+        last_filter_hours = log[0][1]  # engine hours
+        last_drain = self.start
+        drains_from = self.at(119, 0)
+        interval = 500 * self.rng.uniform(0.85, 1.0)
+        class_key = next(k for k, v in self.classes.items() if v.pk == unit.unit_class_id)
+        gaps = [3] if CLASSES[class_key].works_weekends else [5, 6]
+        wet = key.startswith("ML-")
+        # Every Kestrel filter met the dirty delivery: none was changed after it, and a change
+        # that would fall due by now was made at the last reading before it.
+        kestrel = key.startswith("KQ-")
+        last_before_dirty = max(i for i, row in enumerate(log) if row[0] < self.dirty_at)
+        entries: list[dict[str, Any]] = []
+        by = {"recorded_by": mechanic}
+        for index, (at, engine, hours) in enumerate(log):
+            change = engine - last_filter_hours >= interval
+            if kestrel and at >= self.dirty_at:
+                change = False
+            elif kestrel and index == last_before_dirty:
+                change = change or log[-1][1] - last_filter_hours >= interval
+            if change:
+                last_filter_hours = engine
+                for kind, comp in filters.items():
+                    entries.append({
+                        "kind": ServiceEvent.Kind.FILTER_CHANGED, "performed_at": at,
+                        "recorded_at": at, "hour_meter": hours, "component": comp,
+                        "component_kind": kind, "part_number": comp.part_number, **by,
+                    })  # fmt: skip
+                    comp.installed_on, comp.installed_hours = self.local_day(unit, at), hours
+                    self.filter_changed_at[comp.pk] = at
+            gap = round((at - last_drain) / timedelta(days=1))
+            # Drained on a regular round; the dry depots also had a round yesterday,
+            # while the wet depot's bowls are filling again after its last round.
+            final_round = index == len(log) - 1 and not wet
+            if at >= drains_from and (gap >= self.rng.choice(gaps) or (final_round and gap >= 1)):
+                last_drain = at
+                water = round(self.rng.uniform(5, 40))
+                if wet and at > self.wet_at:
+                    water = round(self.rng.uniform(120, 190))
+                entries.append({
+                    "kind": ServiceEvent.Kind.SEPARATOR_DRAINED, "performed_at": at,
+                    "recorded_at": at, "hour_meter": hours,
+                    "component": filters[ComponentKind.PRIMARY_FILTER],
+                    "component_kind": ComponentKind.PRIMARY_FILTER, "water_ml": water,
+                    "water_appearance": "cloudy" if water > 100 else "clear", **by,
+                })  # fmt: skip
+        return entries
+
+    def _dp_readings(self, key: str, fine: Component) -> list[FilterPressureReading]:
+        """Fine-filter dP on Kestrel's haulers, every fifth day since the last change."""
         if not key.startswith("KQ-H0"):
-            return
+            return []
         rows = []
         start_hours = fine.installed_hours
+        changed_at = self.filter_changed_at.get(fine.pk, self.start)
         dirty = key in {"KQ-H01", "KQ-H02"}
         for at, _engine, hours in self.unit_hours[key]:
-            if at.date() < fine.installed_on or (at.date().toordinal() % 5):
+            if at < changed_at or round((self.now - at) / timedelta(days=1)) % 5:
                 continue
             run = hours - start_hours
             dp = 0.18 + 0.0006 * run + (0.00000125 * run * run if dirty else 0)
-            if dirty and at.date() > self.dirty_on:
+            if dirty and at > self.dirty_at:
                 dp *= 1.6
             rows.append(
                 FilterPressureReading(component=fine, taken_at=at, hours=hours, dp_bar=round(dp, 3))
             )
-        FilterPressureReading.objects.bulk_create(rows)
+        return rows
 
     def _injector_job(self) -> None:
         key = "KQ-H02"
         unit = self.units[key]
-        when = at_utc(self.anchor - timedelta(days=60), 10)
+        when = self.at(60, 10)
         hours = self.hours_at(key, when)
         mechanic = self.people["mechanic"]
         wo = WorkOrder.objects.create(
             number="WO-00001",
             unit=unit,
             status=WorkOrder.Status.CLOSED,
-            due_on=when.date(),
+            due_on=self.local_day(unit, when),
             assigned_to=mechanic,
             created_by=self.people["manager"],
             created_at=when - timedelta(days=2),
@@ -185,35 +198,37 @@ class DemoBuilder(FleetBuilder):
         connector = unit.components.get(kind=ComponentKind.HP_CONNECTOR, position=3)
         old_serial = injector.serial
         injector.serial = f"INJ{self.rng.randrange(10**6, 10**7)}"
-        injector.installed_on, injector.installed_hours = when.date(), hours
+        injector.installed_on, injector.installed_hours = self.local_day(unit, when), hours
         injector.save()
-        connector.installed_on, connector.installed_hours = when.date(), hours
+        connector.installed_on, connector.installed_hours = self.local_day(unit, when), hours
         connector.save()
-        for kind, comp, extra in [
-            (
-                ServiceEvent.Kind.INJECTOR_REPLACED,
-                injector,
-                {"old_serial": old_serial, "new_serial": injector.serial, "part_number": "HV-INJ7"},
-            ),
-            (ServiceEvent.Kind.CONNECTOR_REPLACED, connector, {"part_number": "HV-HPC2"}),
-        ]:
-            service_event_append(
-                unit=unit,
-                kind=kind,
-                performed_at=when,
-                recorded_by=mechanic,
-                recorded_at=when,
-                hour_meter=hours,
-                component=comp,
-                component_kind=comp.kind,
-                cylinder=3,
-                work_order=wo,
-                **extra,
-            )
+        job = {"performed_at": when, "recorded_at": when, "recorded_by": mechanic,
+               "hour_meter": hours, "cylinder": 3, "work_order": wo}  # fmt: skip
+        service_events_append(
+            unit=unit,
+            entries=[
+                {
+                    **job,
+                    "kind": ServiceEvent.Kind.INJECTOR_REPLACED,
+                    "component": injector,
+                    "component_kind": injector.kind,
+                    "old_serial": old_serial,
+                    "new_serial": injector.serial,
+                    "part_number": "HV-INJ7",
+                },
+                {
+                    **job,
+                    "kind": ServiceEvent.Kind.CONNECTOR_REPLACED,
+                    "component": connector,
+                    "component_kind": connector.kind,
+                    "part_number": "HV-HPC2",
+                },
+            ],  # fmt: skip
+        )
 
     def work_orders(self) -> None:
         manager, mechanic = self.people["manager"], self.people["mechanic"]
-        now = at_utc(self.anchor, 7)
+        created_at = self.at(0, 5)  # an hour ago
         specs = [
             (
                 "WO-00002",
@@ -264,10 +279,10 @@ class DemoBuilder(FleetBuilder):
                 number=number,
                 unit=unit,
                 priority=priority,
-                due_on=self.anchor + timedelta(days=1),
+                due_on=self.local_day(unit, self.now + timedelta(days=1)),  # tomorrow there
                 assigned_to=mechanic,
                 created_by=manager,
-                created_at=now,
+                created_at=created_at,
             )
             for kind, comp_kind, text in tasks:
                 comp = unit.components.filter(kind=comp_kind).first() if comp_kind else None

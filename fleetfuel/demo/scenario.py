@@ -1,13 +1,17 @@
-"""The invented demo scenario: its classes, depots and fixed numbers."""
+"""The invented demo scenario: its classes, depots, fixed numbers and its clock."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import UTC, date, datetime, time
+from datetime import datetime, timedelta
 
 DEMO_PASSWORD = "fleetfuel-demo"
 SEED = 4406
 HISTORY_DAYS = 450
+NOW_HOUR = 6  # on the demo's own clock, `now` is 06:00 of day 0
+# Classes that do not work weekends rest two days in seven, counted back from `now` (not
+# calendar weekends, so the demo built on any weekday is the same fleet).
+REST_DAYS = (5, 6)  # days ago, modulo 7
 
 
 @dataclass(frozen=True)
@@ -69,8 +73,12 @@ PREFIX = {"kestrel": "KQ", "mill-lane": "ML", "saltmarsh": "SW", "cedar-flats": 
 CLASS_LETTER = {"hauler": "H", "loader": "L", "excavator": "X", "genset": "G", "workboat": "B"}
 
 
-def at_utc(day: date, hour: int, minute: int = 0) -> datetime:
-    return datetime.combine(day, time(hour, minute), tzinfo=UTC)
+def demo_time(*, now: datetime, days_ago: int, hour: int, minute: int = 0) -> datetime:
+    """``hour:minute`` of the demo day ``days_ago`` days before ``now``, on the demo's clock
+    (on which ``now`` is 06:00). Every record is laid back from ``now`` by a fixed span, so
+    the demo built at any instant is the same fleet shifted in time: no calendar date,
+    weekday or time of day changes what it shows."""
+    return now + timedelta(days=-days_ago, hours=hour - NOW_HOUR, minutes=minute)
 
 
 # Invented part numbers of the demo's parts supplier.

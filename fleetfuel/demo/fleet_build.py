@@ -3,14 +3,15 @@
 from __future__ import annotations
 
 import random
+from bisect import bisect_right
 from datetime import date, datetime, timedelta
+from zoneinfo import ZoneInfo
 
 from django.contrib.auth.models import Group, User
 
 from fleetfuel.accounts.models import Profile, Role
-
-from ..actions import unit_fuel_system_fit
-from ..models import (
+from fleetfuel.fleet.actions import unit_fuel_system_fit
+from fleetfuel.fleet.models import (
     ComponentKind,
     Fueling,
     FuelSample,
@@ -23,6 +24,7 @@ from ..models import (
     Unit,
     UnitClass,
 )
+
 from .scenario import (
     CLASS_LETTER,
     CLASSES,
@@ -30,19 +32,30 @@ from .scenario import (
     HISTORY_DAYS,
     PART_NUMBERS,
     PREFIX,
+    REST_DAYS,
     SEED,
     SITES,
-    at_utc,
+    demo_time,
 )
 
 
 class FleetBuilder:
-    def __init__(self, *, anchor: date) -> None:
-        self.anchor = anchor
-        self.start = anchor - timedelta(days=HISTORY_DAYS)
+    """The fleet as it stands at ``now``: every record laid back from ``now`` (demo_time)."""
+
+    def __init__(self, *, now: datetime) -> None:
+        self.now = now
+        self.start = self.at(HISTORY_DAYS, 0)
         self.rng = random.Random(SEED)
         self.units: dict[str, Unit] = {}
         self.unit_hours: dict[str, list[tuple[datetime, float, float]]] = {}  # at, engine, meter
+        self.filter_changed_at: dict[int, datetime] = {}  # component pk -> last change
+
+    def at(self, days_ago: int, hour: int, minute: int = 0) -> datetime:
+        return demo_time(now=self.now, days_ago=days_ago, hour=hour, minute=minute)
+
+    def local_day(self, unit: Unit, when: datetime) -> date:
+        """The date at ``when`` at the unit's depot."""
+        return when.astimezone(ZoneInfo(unit.site.time_zone)).date()
 
     # ---- reference data -------------------------------------------------------------
     def build(self) -> None:
@@ -51,8 +64,12 @@ class FleetBuilder:
         self.sites_and_sources()
         self.fleet()
         self.samples()
+        readings: list[MeterReading] = []
+        fuelings: list[Fueling] = []
         for key, unit in self.units.items():
-            self.usage_and_fuel(key, unit)
+            self.usage_and_fuel(key, unit, readings, fuelings)
+        MeterReading.objects.bulk_create(readings)
+        Fueling.objects.bulk_create(fuelings)
         self.events()
         self.history()
         self.work_orders()
@@ -159,14 +176,16 @@ class FleetBuilder:
         )
 
     def fleet(self) -> None:
+        """The units, in one insert (no save signal queues a recompute of them at the wall
+        clock's time: demo_seed projects them at ``now``), then their fuel systems."""
         for _name, code, _tz, _system, _src, counts in SITES:
             site = self.sites[code]
             for class_key, count in counts.items():
                 spec = CLASSES[class_key]
                 for i in range(1, count + 1):
                     fleet_number = f"{PREFIX[code]}-{CLASS_LETTER[class_key]}{i:02d}"
-                    year = 2014 + self.rng.randrange(0, 11)
-                    unit = Unit.objects.create(
+                    year = self.now.year - 12 + self.rng.randrange(0, 11)
+                    self.units[fleet_number] = Unit(
                         site=site,
                         fleet_number=fleet_number,
                         unit_class=self.classes[class_key],
@@ -183,10 +202,11 @@ class FleetBuilder:
                         else "",
                         in_service_on=date(year, 3, 1),
                     )
-                    self.units[fleet_number] = unit
-                    self._components(unit, class_key)
+        Unit.objects.bulk_create(self.units.values())
+        for unit in self.units.values():
+            self._components(unit)
 
-    def _components(self, unit: Unit, class_key: str) -> None:
+    def _components(self, unit: Unit) -> None:
         def serial(kind: str, cylinder: int | None) -> str:
             if kind in {
                 ComponentKind.PRIMARY_FILTER,
@@ -200,7 +220,7 @@ class FleetBuilder:
         unit_fuel_system_fit(
             unit=unit,
             installed_on=unit.in_service_on,
-            filters_installed_on=self.start,
+            filters_installed_on=self.start.date(),
             part_numbers=PART_NUMBERS,
             serial=serial,
         )
@@ -209,18 +229,18 @@ class FleetBuilder:
     def samples(self) -> None:
         n = 0
         rows: list[FuelSample] = []
-        self.dirty_on = self.anchor - timedelta(days=12)
-        self.wet_on = self.anchor - timedelta(days=20)
+        self.dirty_at = self.at(12, 10)
+        self.wet_at = self.at(20, 10)
         for code, source in self.sources.items():
-            day = self.start + timedelta(days=10)
-            while day < self.anchor - timedelta(days=25):
+            days_ago = HISTORY_DAYS - 10
+            while days_ago > 25:
                 n += 1
                 c14 = self.rng.choice([11, 12, 12, 13])
                 rows.append(
                     FuelSample(
                         reference=f"FS-{n:04d}",
                         source=source,
-                        sampled_at=at_utc(day, 9),
+                        sampled_at=self.at(days_ago, 9),
                         iso4406=f"{c14 + 5}/{c14 + 3}/{c14}",
                         code_4=c14 + 5,
                         code_6=c14 + 3,
@@ -231,13 +251,13 @@ class FleetBuilder:
                         lab_method="ISO 11171 APC; EN ISO 12937",
                     )
                 )
-                day += timedelta(days=30 if code != "cedar-flats" else 60)
+                days_ago -= 30 if code != "cedar-flats" else 60
         # The two bad deliveries.
         rows.append(
             FuelSample(
                 reference="FS-W001",
                 source=self.sources["mill-lane"],
-                sampled_at=at_utc(self.wet_on, 10),
+                sampled_at=self.wet_at,
                 iso4406="19/17/14",
                 code_4=19,
                 code_6=17,
@@ -252,7 +272,7 @@ class FleetBuilder:
             FuelSample(
                 reference="FS-D001",
                 source=self.sources["kestrel"],
-                sampled_at=at_utc(self.dirty_on, 10),
+                sampled_at=self.dirty_at,
                 iso4406="22/20/17",
                 code_4=22,
                 code_6=20,
@@ -269,49 +289,46 @@ class FleetBuilder:
         FuelSample.objects.bulk_create(rows)
 
     # ---- usage ----------------------------------------------------------------------
-    def usage_and_fuel(self, key: str, unit: Unit) -> None:
+    def usage_and_fuel(
+        self, key: str, unit: Unit, readings: list[MeterReading], fuelings: list[Fueling]
+    ) -> None:
+        """Hour-meter readings every 1 to 3 days, each with the fuel put in since the last."""
         class_key = next(k for k, v in self.classes.items() if v.pk == unit.unit_class_id)
         spec = CLASSES[class_key]
         rate = spec.hours_per_day * self.rng.uniform(0.7, 1.25)
         meter = float(self.rng.randrange(1500, 14000))
         engine = meter
-        day = self.start
-        readings: list[MeterReading] = []
-        fuelings: list[Fueling] = []
         hours_log: list[tuple[datetime, float, float]] = []
-        idle_from = self.start + timedelta(days=self.rng.randrange(60, 300))
-        idle_to = idle_from + timedelta(days=self.rng.randrange(7, 20))
-        replaced = key == "ML-H03"
-        replace_day = self.anchor - timedelta(days=200)
+        idle_from = HISTORY_DAYS - self.rng.randrange(60, 300)  # days ago, as all below
+        idle_to = idle_from - self.rng.randrange(7, 20)
+        meter_replaced_on = 200 if key == "ML-H03" else None
         source = self.sources[unit.site.code]
-        retail = self.sources["cedar-flats"]
-        while day <= self.anchor - timedelta(days=1):
+        days_ago = HISTORY_DAYS
+        while True:
             step = self.rng.choice([1, 2, 2, 3])
-            day += timedelta(days=step)
-            if day > self.anchor - timedelta(days=1):
+            days_ago -= step
+            if days_ago < 1:
                 break
             run = 0.0
-            for d in range(step):
-                dd = day - timedelta(days=d)
-                if idle_from <= dd < idle_to:
-                    continue
-                if not spec.works_weekends and dd.weekday() >= 5:
-                    continue
-                run += rate * self.rng.uniform(0.6, 1.3)
+            for ago in range(days_ago, days_ago + step):
+                share = self.rng.uniform(0.6, 1.3)  # drawn every day: no draw hangs on the day
+                idle = idle_to < ago <= idle_from
+                if not idle and (spec.works_weekends or ago % 7 not in REST_DAYS):
+                    run += rate * share
             run = round(run, 1)
-            if replaced and day >= replace_day and not getattr(self, "_replaced_done", False):
-                MeterReplacement.objects.create(
+            if meter_replaced_on is not None and days_ago <= meter_replaced_on:
+                replacement = MeterReplacement(
                     unit=unit,
-                    replaced_at=at_utc(replace_day, 7),
+                    replaced_at=self.at(meter_replaced_on, 7),
                     old_meter_final=round(meter, 1),
                     new_meter_start=0.0,
                     note="Meter failed; new meter fitted at zero.",
                 )
-                meter = 0.0
-                self._replaced_done = True
+                MeterReplacement.objects.bulk_create([replacement])
+                meter, meter_replaced_on = 0.0, None
             meter += run
             engine += run
-            at = at_utc(day, 17, self.rng.randrange(0, 59))
+            at = self.at(days_ago, 17, self.rng.randrange(0, 59))
             readings.append(
                 MeterReading(
                     unit=unit,
@@ -322,27 +339,20 @@ class FleetBuilder:
             )
             hours_log.append((at, round(engine, 1), round(meter, 1)))
             if run > 0:
-                litres = round(run * spec.burn_l_per_h * self.rng.uniform(0.85, 1.15), 1)
-                src = (
-                    retail
-                    if (source.kind == FuelSource.Kind.BULK_TANK and self.rng.random() < 0.05)
-                    else source
-                )
-                fuelings.append(
-                    Fueling(
-                        unit=unit, source=src, fueled_at=at - timedelta(minutes=30), litres=litres
-                    )
-                )
-        MeterReading.objects.bulk_create(readings)
-        Fueling.objects.bulk_create(fuelings)
+                fuelings.append(self._fueling(unit, source, at, run * spec.burn_l_per_h))
         self.unit_hours[key] = hours_log
+
+    def _fueling(self, unit: Unit, source: FuelSource, at: datetime, litres: float) -> Fueling:
+        """Fuel put in half an hour before the reading; now and then bought on a fuel card."""
+        litres = round(litres * self.rng.uniform(0.85, 1.15), 1)
+        if source.kind == FuelSource.Kind.BULK_TANK and self.rng.random() < 0.05:
+            source = self.sources["cedar-flats"]
+        return Fueling(
+            unit=unit, source=source, fueled_at=at - timedelta(minutes=30), litres=litres
+        )
 
     def hours_at(self, key: str, when: datetime, *, meter: bool = True) -> float:
         """The hour meter as read (or engine hours) at the last reading before ``when``."""
         log = self.unit_hours[key]
-        best = log[0]
-        for row in log:
-            if row[0] > when:
-                break
-            best = row
-        return best[2] if meter else best[1]
+        row = log[max(0, bisect_right(log, when, key=lambda r: r[0]) - 1)]
+        return row[2] if meter else row[1]
