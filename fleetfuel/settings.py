@@ -150,6 +150,7 @@ INSTALLED_APPS = [
     "fleetfuel.ledger",
     "fleetfuel.pages",
     "fleetfuel.demo",
+    "fleetfuel.intake",
 ]
 
 MIDDLEWARE = [

@@ -8,5 +8,7 @@ urlpatterns = [
     path("due/", include("fleetfuel.planning.urls")),
     path("work/", include("fleetfuel.workorders.urls")),
     path("history/", include("fleetfuel.ledger.urls")),
+    path("intake/", include("fleetfuel.intake.urls")),
+    path("api/v1/", include("fleetfuel.intake.api_urls")),
     path("admin/", admin.site.urls),
 ]

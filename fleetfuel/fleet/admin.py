@@ -2,6 +2,7 @@ from django.contrib import admin
 
 from .models import (
     Component,
+    Delivery,
     EngineEvent,
     FilterPressureReading,
     Fueling,
@@ -105,6 +106,15 @@ class MeterReplacementAdmin(admin.ModelAdmin):
 class FuelSourceAdmin(admin.ModelAdmin):
     list_display = ["name", "kind", "site", "density_kg_l", "fame_pct_v"]
     list_filter = ["kind", "site"]
+
+
+@admin.register(Delivery)
+class DeliveryAdmin(admin.ModelAdmin):
+    list_display = ["source", "delivered_at", "litres", "supplier", "ticket"]
+    list_filter = ["source"]
+    search_fields = ["ticket", "supplier"]
+    date_hierarchy = "delivered_at"
+    list_select_related = ["source"]
 
 
 @admin.register(Fueling)

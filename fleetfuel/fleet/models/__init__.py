@@ -23,6 +23,7 @@ from .assets import (
     validate_time_zone,
 )
 from .observations import (
+    Delivery,
     EngineEvent,
     FilterPressureReading,
     Fueling,
@@ -38,6 +39,7 @@ __all__ = [
     "PER_CYLINDER_KINDS",
     "Component",
     "ComponentKind",
+    "Delivery",
     "EngineEvent",
     "FilterPressureReading",
     "FuelSample",

@@ -64,6 +64,13 @@ class UnitClass(models.Model):
         validators=[MinValueValidator(0.1)],
         help_text="Fuel burned per engine hour when no fuel log is available.",
     )
+    typical_tank_l = models.FloatField(
+        "typical fuel tank (L)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(1)],
+        help_text="The class's usual tank size, for units whose own is not recorded.",
+    )
 
     class Meta:
         ordering = ["name"]
@@ -92,6 +99,13 @@ class Unit(models.Model):
     tire_size = models.CharField(max_length=40, blank=True, help_text="Where the unit has tyres.")
     owner = models.CharField(
         max_length=120, blank=True, help_text="Owner, if not the operating company."
+    )
+    tank_capacity_l = models.FloatField(
+        "fuel tank capacity (L)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(1), MaxValueValidator(100_000)],
+        help_text="Blank: the unit class's typical tank.",
     )
     in_service_on = models.DateField()
     disposed_on = models.DateField(null=True, blank=True)

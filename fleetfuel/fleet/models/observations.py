@@ -113,6 +113,31 @@ class FuelSource(models.Model):
         return self.name
 
 
+class Delivery(models.Model):
+    """A bulk delivery of fuel into a source (tank or bowser), with the supplier's ticket."""
+
+    source = models.ForeignKey(FuelSource, on_delete=models.PROTECT, related_name="deliveries")
+    delivered_at = models.DateTimeField()
+    litres = models.FloatField(validators=[MinValueValidator(1), MaxValueValidator(1_000_000)])
+    supplier = models.CharField(max_length=100, blank=True)
+    ticket = models.CharField("ticket number", max_length=60, blank=True)
+
+    class Meta:
+        ordering = ["source", "-delivered_at"]
+        verbose_name_plural = "deliveries"
+        constraints = [
+            models.UniqueConstraint(
+                fields=["source", "delivered_at"],
+                name="delivery_one_per_source_and_time",
+                violation_error_message="This source already has a delivery at that time.",
+            ),
+        ]
+        indexes = [models.Index(fields=["source", "delivered_at"], name="delivery_source_at")]
+
+    def __str__(self) -> str:
+        return f"{self.litres:.0f} L into {self.source} at {self.delivered_at:%Y-%m-%d}"
+
+
 class Fueling(models.Model):
     unit = models.ForeignKey(Unit, on_delete=models.CASCADE, related_name="fuelings")
     source = models.ForeignKey(
@@ -168,6 +193,29 @@ class FuelSample(models.Model):
     lab_method = models.CharField(
         max_length=80, blank=True, help_text="e.g. ISO 11171 APC; EN ISO 12937 (Karl Fischer)"
     )
+    delivery = models.ForeignKey(
+        Delivery,
+        on_delete=models.PROTECT,
+        related_name="samples",
+        null=True,
+        blank=True,
+        help_text="The delivery this sample was taken from, if any.",
+    )
+    total_contamination_mg_kg = models.FloatField(
+        "total contamination (mg/kg)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0)],
+        help_text="EN 12662 or ASTM D6217.",
+    )
+    appearance = models.CharField(
+        max_length=40, blank=True, help_text="ASTM D4176 rating, e.g. clear and bright; haze 2"
+    )
+    microbial = models.CharField(
+        "microbial result", max_length=80, blank=True, help_text="e.g. ASTM D7687, as reported"
+    )
+    lab = models.CharField("laboratory", max_length=100, blank=True)
+    report_ref = models.CharField("lab report reference", max_length=60, blank=True)
 
     class Meta:
         ordering = ["-sampled_at"]
