@@ -202,6 +202,30 @@ class DemoBuilder(FleetBuilder):
         injector.save()
         connector.installed_on, connector.installed_hours = self.local_day(unit, when), hours
         connector.save()
+        # The closed work order shows what was done on it, as a close leaves it.
+        WorkOrderTask.objects.bulk_create(
+            [
+                WorkOrderTask(
+                    work_order=wo,
+                    kind=WorkOrderTask.Kind.INJECTOR_REPLACE,
+                    component=injector,
+                    cylinder=3,
+                    description="Replace injector, cylinder 3",
+                    entry={"old_serial": old_serial, "new_serial": injector.serial,
+                           "part_number": "HV-INJ7"},
+                    done=True,
+                ),
+                WorkOrderTask(
+                    work_order=wo,
+                    kind=WorkOrderTask.Kind.CONNECTOR_REPLACE,
+                    component=connector,
+                    cylinder=3,
+                    description="Replace high-pressure connector, cylinder 3",
+                    entry={"part_number": "HV-HPC2"},
+                    done=True,
+                ),
+            ]
+        )  # fmt: skip
         job = {"performed_at": when, "recorded_at": when, "recorded_by": mechanic,
                "hour_meter": hours, "cylinder": 3, "work_order": wo}  # fmt: skip
         service_events_append(
