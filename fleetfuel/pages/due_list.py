@@ -4,7 +4,6 @@ with work orders made from the ones picked. Composed here because it reads both 
 from __future__ import annotations
 
 from django.contrib import messages
-from django.db.models import Exists, OuterRef
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
@@ -19,17 +18,8 @@ from fleetfuel.fleet.models import Site, UnitClass
 from fleetfuel.planning.forms import DueFilterForm, WorkListSettingsForm
 from fleetfuel.planning.selectors import due_page
 from fleetfuel.planning.worklists import recent_dispatches
+from fleetfuel.workorders import selectors
 from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_due_items
-from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
-
-
-def in_open_work_order() -> Exists:
-    """Whether a due item (the outer row) is a task of an open work order."""
-    return Exists(
-        WorkOrderTask.objects.filter(
-            due_item_id=OuterRef("pk"), work_order__status=WorkOrder.Status.OPEN
-        )
-    )
 
 
 @role_required(Role.MANAGER)
@@ -48,7 +38,7 @@ def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
         site_ids=site_ids,
         data=data,
         today=timezone.localdate(),
-        annotations={"in_work_order": in_open_work_order()},
+        annotations={"in_work_order": selectors.due_item_in_open_work_order()},
     )
     query = request.GET.copy()
     query.pop("page", None)

@@ -29,6 +29,7 @@ from fleetfuel.planning.models import DueItem
 from .forms import JobEntry, TaskDraft
 from .kinds import kind_for_due_task
 from .models import WorkOrder, WorkOrderTask
+from .selectors import due_item_ids_in_open_work_orders
 from .tasks import NewTask
 
 
@@ -181,13 +182,15 @@ def job_draft_keep(*, work_order_id: int, job: JobEntry, now: datetime) -> None:
             wo.save(update_fields=JOB_FIELDS)
 
 
-def task_add(*, work_order_id: int, user: Any, new: NewTask) -> WorkOrderTask:
+def task_add(
+    *, work_order_id: int, user: Any, new: NewTask, now: datetime | None = None
+) -> WorkOrderTask:
     """Add a task the mechanic found necessary (e.g. a connector on cylinder 3)."""
     with transaction.atomic():
         wo = _lock_open(
             work_order_id,
             user=user,
-            now=timezone.now(),
+            now=now or timezone.now(),
             what="add a task",
             entered=new.description,
         )
@@ -324,7 +327,12 @@ def mechanic_for_site(site_id: int) -> User | None:
 
 
 def work_orders_from_due_items(
-    *, item_ids: list[int], site_ids: list[int], created_by: Any, today: date
+    *,
+    item_ids: list[int],
+    site_ids: list[int],
+    created_by: Any,
+    today: date,
+    now: datetime | None = None,
 ) -> CreatedOrders:
     """One work order per unit with one task per selected item, assigned to a mechanic of the
     unit's site, due on the earliest item's date (today for overdue items).
@@ -344,11 +352,7 @@ def work_orders_from_due_items(
             raise WorkOrderCreateError(
                 "Some selected items no longer exist or are not at your sites; reload the list."
             )
-        busy = set(
-            WorkOrderTask.objects.filter(
-                due_item_id__in=item_ids, work_order__status=WorkOrder.Status.OPEN
-            ).values_list("due_item_id", flat=True)
-        )
+        busy = due_item_ids_in_open_work_orders(item_ids=item_ids)
         by_unit: dict[int, list[DueItem]] = defaultdict(list)
         skipped = []
         for item in items:
@@ -356,7 +360,7 @@ def work_orders_from_due_items(
                 skipped.append(f"{item.unit.fleet_number}: {item.get_task_display()}")
             else:
                 by_unit[item.unit_id].append(item)
-        now = timezone.now()
+        now = now or timezone.now()
         orders = [
             _work_order_from_items(unit_items, created_by=created_by, today=today, now=now)
             for unit_items in by_unit.values()

@@ -18,7 +18,12 @@ from typing import TYPE_CHECKING, Any
 
 from django.db import models
 
-from fleetfuel.fleet.models import Component, ComponentKind
+from fleetfuel.fleet.models import (
+    HIGH_PRESSURE_KINDS,
+    PER_CYLINDER_KINDS,
+    Component,
+    ComponentKind,
+)
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.models import DueItem
 
@@ -53,11 +58,19 @@ class TaskKindSpec:
     event_fields: EventFields  # that event's own fields, from the task's entry
     component_kind: str | None  # the fitted part it works on; None: chosen, or none
     rule_kind: str  # services.rules.TASK_KINDS
-    per_cylinder: bool = False
-    high_pressure: bool = False
     renews_component: bool = False  # closing it fits a new part (serial, part number, hours)
     chooses: str = ""  # "filter" (which fitted filter) or "limit" (which measurement)
     due_tasks: tuple[str, ...] = ()  # DueItem.Task values a task of this kind does
+
+    @property
+    def per_cylinder(self) -> bool:
+        """Done on one cylinder (it must name it): its part is fitted per cylinder."""
+        return self.component_kind in PER_CYLINDER_KINDS
+
+    @property
+    def high_pressure(self) -> bool:
+        """Opens the high-pressure side (the page shows the caution): its part is there."""
+        return self.component_kind in HIGH_PRESSURE_KINDS
 
     @property
     def label(self) -> str:
@@ -149,8 +162,6 @@ KINDS: dict[Kind, TaskKindSpec] = {
             event_fields=_injector_fields,
             component_kind=ComponentKind.INJECTOR,
             rule_kind="injector_replaced",
-            per_cylinder=True,
-            high_pressure=True,
             renews_component=True,
         ),
         TaskKindSpec(
@@ -161,8 +172,6 @@ KINDS: dict[Kind, TaskKindSpec] = {
             event_fields=_connector_fields,
             component_kind=ComponentKind.HP_CONNECTOR,
             rule_kind="connector_replaced",
-            per_cylinder=True,
-            high_pressure=True,
             renews_component=True,
         ),
         TaskKindSpec(
@@ -173,7 +182,6 @@ KINDS: dict[Kind, TaskKindSpec] = {
             event_fields=_part_fields,
             component_kind=ComponentKind.RELIEF_VALVE,
             rule_kind="relief_valve_replaced",
-            high_pressure=True,
             renews_component=True,
         ),
         TaskKindSpec(

@@ -20,7 +20,7 @@ from django.urls import reverse
 from django.views.decorators.http import require_POST
 
 from fleetfuel.accounts.access import (
-    require_write,
+    WRITERS,
     role_required,
     task_for_user,
     work_order_for_user,
@@ -29,7 +29,7 @@ from fleetfuel.accounts.access import (
 from . import actions, selectors
 from .forms import not_done_reason_clean
 from .models import WorkOrder, WorkOrderTask
-from .page import WRITERS, HtmxHttpRequest, not_saved_text, page_context_build, response_vary
+from .page import HtmxHttpRequest, not_saved_text, page_context_build, response_vary
 from .presenters import task_view
 
 
@@ -78,9 +78,8 @@ def _to_task(wo: WorkOrder, task: WorkOrderTask) -> HttpResponse:
 @role_required(*WRITERS)
 @require_POST
 def task_not_done(request: HtmxHttpRequest, pk: int) -> HttpResponse:
-    require_write(request.user)
-    task = task_for_user(request.user, pk)
-    wo = work_order_for_user(request.user, task.work_order_id)
+    task = task_for_user(request.user, pk, write=True)
+    wo = work_order_for_user(request.user, task.work_order_id, write=True)
     typed = str(request.POST.get("reason", ""))[:2000]
     reason, error = not_done_reason_clean(raw=typed)
     if error:
@@ -93,7 +92,7 @@ def task_not_done(request: HtmxHttpRequest, pk: int) -> HttpResponse:
         actions.task_not_done_mark(task_id=task.pk, user=request.user, reason=reason)
     except actions.WorkOrderNotOpen as exc:
         return _refused(request, exc, task)
-    task = task_for_user(request.user, pk)
+    task = task_for_user(request.user, pk, write=True)
     if not request.htmx:
         messages.success(
             request,
@@ -107,14 +106,13 @@ def task_not_done(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 @role_required(*WRITERS)
 @require_POST
 def task_not_done_undo(request: HtmxHttpRequest, pk: int) -> HttpResponse:
-    require_write(request.user)
-    task = task_for_user(request.user, pk)
-    wo = work_order_for_user(request.user, task.work_order_id)
+    task = task_for_user(request.user, pk, write=True)
+    wo = work_order_for_user(request.user, task.work_order_id, write=True)
     try:
         actions.task_not_done_undo(task_id=task.pk, user=request.user)
     except actions.WorkOrderNotOpen as exc:
         return _refused(request, exc, task)
-    task = task_for_user(request.user, pk)
+    task = task_for_user(request.user, pk, write=True)
     if not request.htmx:
         messages.success(request, f"“{task.description}” is to be done again: fill in its fields.")
         return _to_task(wo, task)
@@ -125,8 +123,8 @@ def _refused(
     request: HtmxHttpRequest, exc: actions.WorkOrderNotOpen, task: WorkOrderTask
 ) -> HttpResponse:
     """The work order closed meanwhile: 409 for htmx (the card, read-only, says so)."""
-    wo = work_order_for_user(request.user, exc.work_order.pk)
-    task = task_for_user(request.user, task.pk)
+    wo = work_order_for_user(request.user, exc.work_order.pk, write=True)
+    task = task_for_user(request.user, task.pk, write=True)
     if not request.htmx:
         messages.error(request, not_saved_text(exc))
         return _to_task(wo, task)

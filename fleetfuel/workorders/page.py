@@ -10,8 +10,7 @@ from django.http import HttpRequest, HttpResponse
 from django.utils.cache import patch_vary_headers
 from django_htmx.middleware import HtmxDetails
 
-from fleetfuel.accounts.access import user_role
-from fleetfuel.accounts.models import Role
+from fleetfuel.accounts.access import WRITERS, user_role
 from fleetfuel.fleet.models import MeterReading
 from services import hour_meter, rules
 
@@ -20,9 +19,6 @@ from .close import CloseOutcome
 from .kinds import KINDS
 from .models import WorkOrder
 from .presenters import task_view
-
-ALL_ROLES = (Role.MANAGER, Role.MECHANIC, Role.AUDITOR)
-WRITERS = (Role.MANAGER, Role.MECHANIC)
 
 
 class HtmxHttpRequest(HttpRequest):

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from django.db.models import Count, OuterRef, Q, QuerySet, Subquery
+from django.db.models import Count, Exists, OuterRef, Q, QuerySet, Subquery
 from django.db.models.functions import Coalesce
 
 from fleetfuel.accounts.access import site_ids_for_user, user_role
@@ -124,4 +124,24 @@ def work_order_page(work_order: WorkOrder) -> PageData:
         last_reading=last_meter_reading(unit_id),
         ctx=task_context(work_order),
         follow_ups=list(work_order.follow_ups.order_by("pk")),
+    )
+
+
+def _open_work_order_tasks() -> QuerySet[WorkOrderTask]:
+    return WorkOrderTask.objects.filter(
+        due_item__isnull=False, work_order__status=WorkOrder.Status.OPEN
+    )
+
+
+def due_item_in_open_work_order() -> Exists:
+    """Whether a due item (the outer row of a query) is a task of an open work order."""
+    return Exists(_open_work_order_tasks().filter(due_item_id=OuterRef("pk")))
+
+
+def due_item_ids_in_open_work_orders(*, item_ids: list[int]) -> set[int]:
+    """Which of these due items are tasks of an open work order. One query."""
+    return set(
+        _open_work_order_tasks()
+        .filter(due_item_id__in=item_ids)
+        .values_list("due_item_id", flat=True)
     )

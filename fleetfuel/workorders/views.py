@@ -19,7 +19,8 @@ from django.utils import timezone
 from django.views.decorators.http import require_POST
 
 from fleetfuel.accounts.access import (
-    require_write,
+    READERS,
+    WRITERS,
     role_required,
     task_for_user,
     user_role,
@@ -32,8 +33,6 @@ from . import actions, selectors
 from .close import work_order_close
 from .forms import job_entry_clean
 from .page import (
-    ALL_ROLES,
-    WRITERS,
     HtmxHttpRequest,
     meter_backwards,
     not_saved_text,
@@ -77,7 +76,7 @@ def work_order_list(request: HtmxHttpRequest) -> HttpResponse:
 # --------------------------------------------------------------------------- the page
 
 
-@role_required(*ALL_ROLES)
+@role_required(*READERS)
 def detail(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     wo = work_order_for_user(request.user, pk)
     return render(request, "workorders/detail.html", page_context_build(request, wo))
@@ -103,9 +102,8 @@ def _posted(request: HttpRequest) -> dict[str, str]:
 @role_required(*WRITERS)
 @require_POST
 def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
-    require_write(request.user)
-    task = task_for_user(request.user, pk)
-    wo = work_order_for_user(request.user, task.work_order_id)
+    task = task_for_user(request.user, pk, write=True)
+    wo = work_order_for_user(request.user, task.work_order_id, write=True)
     ctx = selectors.task_context(wo)
     draft = task_draft_clean(task, request.POST, ctx)
     status = 200
@@ -135,8 +133,7 @@ def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 @role_required(*WRITERS)
 @require_POST
 def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
-    require_write(request.user)
-    wo = work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk, write=True)
     job = job_entry_clean(request.POST)
     status = 200
     save_error = ""
@@ -149,7 +146,7 @@ def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
         )
     except actions.WorkOrderNotOpen as exc:
         status, save_error = 409, not_saved_text(exc)
-    wo = work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk, write=True)
     if not request.htmx:
         _flash(request, save_error, job.errors.values(), "Saved the job fields.")
         return redirect(reverse("workorders:detail", args=[wo.pk]) + "#job")
@@ -173,8 +170,7 @@ def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 @role_required(*WRITERS)
 @require_POST
 def task_add(request: HtmxHttpRequest, pk: int) -> HttpResponse:
-    require_write(request.user)
-    wo = work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk, write=True)
     new, error = new_task_clean(request.POST, selectors.task_context(wo))
     if new is None:
         context = page_context_build(request, wo, add_error=error)
@@ -201,8 +197,7 @@ def _snapshot(request: HttpRequest) -> str:
 
 
 def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
-    require_write(request.user)
-    wo = work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk, write=True)
     token = request.POST.get("token", "")
     job = job_entry_clean(request.POST)
     try:
@@ -247,7 +242,7 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
                 text += f" Not done, so still due on the unit: {names}."
             messages.success(request, text)
         return redirect("workorders:detail", pk=wo.pk)
-    wo = work_order_for_user(request.user, pk)
+    wo = work_order_for_user(request.user, pk, write=True)
     if outcome.result == "closed_by_other":
         messages.warning(request, outcome.message)
         return redirect("workorders:detail", pk=wo.pk)

@@ -12,8 +12,6 @@ from django.urls import reverse
 from fleetfuel.accounts.models import Role
 from fleetfuel.fleet.models import (
     FILTER_KINDS,
-    HIGH_PRESSURE_KINDS,
-    PER_CYLINDER_KINDS,
     ComponentKind,
 )
 from fleetfuel.ledger.models import ServiceEvent
@@ -50,16 +48,16 @@ def test_an_entry_names_what_the_other_apps_and_the_rules_know(kind: Kind) -> No
     assert spec.chooses in ("", "filter", "limit")
 
 
-@pytest.mark.parametrize("kind", list(KINDS))
-def test_per_cylinder_and_high_pressure_agree_with_the_parts(kind: Kind) -> None:
-    # The fleet app says which parts are fitted per cylinder and which are on the high-pressure
-    # side; a kind working on such a part says the same of itself.
-    spec = KINDS[kind]
-    if spec.component_kind is not None:
-        assert spec.per_cylinder == (spec.component_kind in PER_CYLINDER_KINDS)
-        assert spec.high_pressure == (spec.component_kind in HIGH_PRESSURE_KINDS)
-    else:
-        assert not spec.per_cylinder and not spec.high_pressure
+def test_per_cylinder_and_high_pressure_marks_follow_the_fuel_system() -> None:
+    # common practice: injectors and their high-pressure connectors are fitted one per
+    # cylinder on the high-pressure side; the rail relief valve is on the high-pressure side
+    # (one per rail); filters, the separator and measurements are on the supply side.
+    marks = {kind: (spec.per_cylinder, spec.high_pressure) for kind, spec in KINDS.items()}
+    assert marks[Kind.INJECTOR_REPLACE] == (True, True)
+    assert marks[Kind.CONNECTOR_REPLACE] == (True, True)
+    assert marks[Kind.RELIEF_VALVE_REPLACE] == (False, True)
+    for kind in (Kind.FILTER_CHANGE, Kind.SEPARATOR_DRAIN, Kind.MEASUREMENT, Kind.INSPECTION):
+        assert marks[kind] == (False, False)
 
 
 def test_every_due_list_task_is_done_by_one_kind() -> None:
