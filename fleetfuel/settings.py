@@ -143,11 +143,13 @@ INSTALLED_APPS = [
     "django.contrib.staticfiles",
     "django.contrib.humanize",
     "django_htmx",
+    # fleetfuel's apps in the order they may import each other (lower first), then the
+    # composing apps (DEVELOPERS.md, "Rules of the house").
     "fleetfuel.accounts",
     "fleetfuel.fleet",
+    "fleetfuel.ledger",
     "fleetfuel.planning",
     "fleetfuel.workorders",
-    "fleetfuel.ledger",
     "fleetfuel.pages",
     "fleetfuel.demo",
     "fleetfuel.intake",

@@ -14,6 +14,7 @@ from django_htmx.http import HttpResponseClientRedirect, push_url
 
 from fleetfuel.accounts.access import due_item_for_user, role_required, site_ids_for_user
 from fleetfuel.accounts.models import Profile, Role
+from fleetfuel.accounts.requests import HtmxHttpRequest
 from fleetfuel.fleet.models import Site, UnitClass
 from fleetfuel.planning.forms import DueFilterForm, WorkListSettingsForm
 from fleetfuel.planning.selectors import due_page
@@ -25,7 +26,7 @@ from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_
 @role_required(Role.MANAGER)
 @require_GET
 @vary_on_headers("HX-Request")
-def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
+def due_list(request: HtmxHttpRequest) -> HttpResponse:
     """The manager's home: every due item across their sites, filterable."""
     site_ids = site_ids_for_user(request.user)
     form = DueFilterForm(
@@ -55,7 +56,7 @@ def due_list(request) -> HttpResponse:  # type: ignore[no-untyped-def]
 
 @role_required(Role.MANAGER)
 @require_GET
-def due_item_detail(request, pk: int) -> HttpResponse:  # type: ignore[no-untyped-def]
+def due_item_detail(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     """The explanation of one row, expanded in place."""
     item = due_item_for_user(request.user, pk)
     template = "pages/_due_detail.html" if request.htmx else "pages/due_item.html"
@@ -64,7 +65,7 @@ def due_item_detail(request, pk: int) -> HttpResponse:  # type: ignore[no-untype
 
 @role_required(Role.MANAGER)
 @require_POST
-def work_orders_create(request) -> HttpResponse:  # type: ignore[no-untyped-def]
+def work_orders_create(request: HtmxHttpRequest) -> HttpResponse:
     ids = [int(v) for v in request.POST.getlist("item") if v.isdigit()]
     try:
         created = work_orders_from_due_items(

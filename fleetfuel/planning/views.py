@@ -16,6 +16,7 @@ from django.views.decorators.http import require_POST
 
 from fleetfuel.accounts.access import role_required, sites_for_user
 from fleetfuel.accounts.models import Profile, Role
+from fleetfuel.accounts.requests import HtmxHttpRequest
 
 from .forms import WorkListSettingsForm
 from .tasks import worklist_send
@@ -23,7 +24,7 @@ from .tasks import worklist_send
 
 @role_required(Role.MANAGER)
 @require_POST
-def worklist_send_now(request) -> HttpResponse:  # type: ignore[no-untyped-def]
+def worklist_send_now(request: HtmxHttpRequest) -> HttpResponse:
     """Email today's work list for each of the manager's sites now (on top of the daily one)."""
     if not request.user.email:
         messages.error(
@@ -40,7 +41,7 @@ def worklist_send_now(request) -> HttpResponse:  # type: ignore[no-untyped-def]
 
 @role_required(Role.MANAGER)
 @require_POST
-def worklist_settings(request) -> HttpResponse:  # type: ignore[no-untyped-def]
+def worklist_settings(request: HtmxHttpRequest) -> HttpResponse:
     """The manager's own work-list preferences (subscribed, local hour, days ahead)."""
     profile, _ = Profile.objects.get_or_create(user=request.user)
     form = WorkListSettingsForm(request.POST, instance=profile)

@@ -30,7 +30,7 @@ from .forms import JobEntry, TaskDraft
 from .kinds import kind_for_due_task
 from .models import WorkOrder, WorkOrderTask
 from .selectors import due_item_ids_in_open_work_orders
-from .tasks import NewTask
+from .task_entries import NewTask
 
 
 class WorkOrderNotOpen(Exception):
@@ -172,16 +172,6 @@ def job_apply(wo: WorkOrder, job: JobEntry, now: datetime) -> None:
     wo.job_saved_at = now
 
 
-def job_draft_keep(*, work_order_id: int, job: JobEntry, now: datetime) -> None:
-    """Keep the job fields posted with a close as the draft, in their own transaction (a work
-    order no longer open is left as it is: the close says why)."""
-    with transaction.atomic():
-        wo = work_order_locked(work_order_id)
-        if wo.status == WorkOrder.Status.OPEN:
-            job_apply(wo, job, now)
-            wo.save(update_fields=JOB_FIELDS)
-
-
 def task_add(
     *, work_order_id: int, user: Any, new: NewTask, now: datetime | None = None
 ) -> WorkOrderTask:
@@ -262,27 +252,6 @@ def task_not_done_undo(*, task_id: int, user: Any, now: datetime | None = None) 
 
 
 NOT_DONE_FIELDS = ["not_done_reason", "not_done_by", "not_done_at"]
-
-
-def entered_text(
-    *, work_order: WorkOrder, job: JobEntry | None, override_reason: str, snapshot: str
-) -> str:
-    """What a refused close had entered, as one line for the notes."""
-    parts = []
-    if job is not None:
-        if job.hour_meter is not None:
-            parts.append(f"hour meter {job.hour_meter:g} h")
-        if job.meter_replaced:
-            parts.append(
-                f"meter replaced (old final {job.meter_old_final}, new start {job.meter_new_start})"
-            )
-        if job.notes and job.notes.strip() != work_order.notes.strip():
-            parts.append(f"notes: {job.notes.strip()}")
-    if override_reason.strip():
-        parts.append(f"override reason: {override_reason.strip()}")
-    if snapshot.strip():
-        parts.append(f"task entries on the tablet: {snapshot.strip()}")
-    return "; ".join(parts)
 
 
 def snapshot_text(data: dict[str, Any]) -> str:

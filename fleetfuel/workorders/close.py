@@ -37,8 +37,8 @@ from fleetfuel.ledger.models import ServiceEvent
 from services import hour_meter, rules
 
 from .actions import (
-    entered_text,
-    job_draft_keep,
+    JOB_FIELDS,
+    job_apply,
     local_time,
     lost_entry_note,
     note_append,
@@ -50,7 +50,7 @@ from .forms import JobEntry
 from .kinds import Kind, kind_spec
 from .models import WorkOrder, WorkOrderTask
 from .selectors import last_meter_reading, task_context
-from .tasks import closed_task, task_component, task_event_fields, task_missing
+from .task_entries import closed_task, task_component, task_event_fields, task_missing
 
 
 @dataclass
@@ -391,3 +391,34 @@ def _follow_up_create(*, wo: WorkOrder, user: Any, visit: _Visit, now: datetime)
             entry={"limit_id": limit.pk} if limit else {},
         )
     return follow_up
+
+
+def job_draft_keep(*, work_order_id: int, job: JobEntry, now: datetime) -> None:
+    """Keep the job fields posted with a close as the draft, in their own transaction (a work
+    order no longer open is left as it is: the close says why)."""
+    with transaction.atomic():
+        wo = work_order_locked(work_order_id)
+        if wo.status == WorkOrder.Status.OPEN:
+            job_apply(wo, job, now)
+            wo.save(update_fields=JOB_FIELDS)
+
+
+def entered_text(
+    *, work_order: WorkOrder, job: JobEntry | None, override_reason: str, snapshot: str
+) -> str:
+    """What a refused close had entered, as one line for the notes."""
+    parts = []
+    if job is not None:
+        if job.hour_meter is not None:
+            parts.append(f"hour meter {job.hour_meter:g} h")
+        if job.meter_replaced:
+            parts.append(
+                f"meter replaced (old final {job.meter_old_final}, new start {job.meter_new_start})"
+            )
+        if job.notes and job.notes.strip() != work_order.notes.strip():
+            parts.append(f"notes: {job.notes.strip()}")
+    if override_reason.strip():
+        parts.append(f"override reason: {override_reason.strip()}")
+    if snapshot.strip():
+        parts.append(f"task entries on the tablet: {snapshot.strip()}")
+    return "; ".join(parts)

@@ -25,11 +25,12 @@ from fleetfuel.accounts.access import (
     task_for_user,
     work_order_for_user,
 )
+from fleetfuel.accounts.requests import HtmxHttpRequest
 
 from . import actions, selectors
 from .forms import not_done_reason_clean
 from .models import WorkOrder, WorkOrderTask
-from .page import HtmxHttpRequest, not_saved_text, page_context_build, response_vary
+from .page import not_saved_text, page_context_build, response_vary
 from .presenters import task_view
 
 

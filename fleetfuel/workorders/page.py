@@ -8,7 +8,6 @@ from typing import Any
 
 from django.http import HttpRequest, HttpResponse
 from django.utils.cache import patch_vary_headers
-from django_htmx.middleware import HtmxDetails
 
 from fleetfuel.accounts.access import WRITERS, user_role
 from fleetfuel.fleet.models import MeterReading
@@ -19,10 +18,6 @@ from .close import CloseOutcome
 from .kinds import KINDS
 from .models import WorkOrder
 from .presenters import task_view
-
-
-class HtmxHttpRequest(HttpRequest):
-    htmx: HtmxDetails
 
 
 def response_vary(response: HttpResponse) -> HttpResponse:

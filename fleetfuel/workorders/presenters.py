@@ -16,7 +16,7 @@ from .fields import TaskField
 from .forms import TaskForm
 from .kinds import kind_spec
 from .models import WorkOrderTask
-from .tasks import task_form, task_is_high_pressure, task_missing
+from .task_entries import task_form, task_is_high_pressure, task_missing
 
 
 @dataclass

@@ -10,7 +10,7 @@ from django.db.models.functions import Coalesce
 
 from fleetfuel.accounts.access import site_ids_for_user, user_role
 from fleetfuel.accounts.models import Role
-from fleetfuel.fleet.models import Component, MeasurementLimit, MeterReading
+from fleetfuel.fleet.models import HIGH_PRESSURE_KINDS, Component, MeasurementLimit, MeterReading
 from fleetfuel.planning.models import DueItem, UnitFlag
 
 from .context import TaskContext
@@ -35,7 +35,9 @@ def _with_counts(qs: QuerySet[WorkOrder]) -> QuerySet[WorkOrder]:
         task_count=Count("tasks", distinct=True),
         hp_task_count=Count(
             "tasks",
-            filter=Q(tasks__kind__in=HIGH_PRESSURE_TASK_KINDS),
+            # As the page marks a task: by its kind, or by the part it works on.
+            filter=Q(tasks__kind__in=HIGH_PRESSURE_TASK_KINDS)
+            | Q(tasks__component__kind__in=HIGH_PRESSURE_KINDS),
             distinct=True,
         ),
         flag_count=Coalesce(Subquery(flags[:1]), 0),

@@ -23,24 +23,22 @@ from fleetfuel.accounts.access import (
     WRITERS,
     role_required,
     task_for_user,
-    user_role,
     work_order_for_user,
 )
 from fleetfuel.accounts.models import Role
-from services import rules
+from fleetfuel.accounts.requests import HtmxHttpRequest
 
 from . import actions, selectors
 from .close import work_order_close
 from .forms import job_entry_clean
 from .page import (
-    HtmxHttpRequest,
     meter_backwards,
     not_saved_text,
     page_context_build,
     response_vary,
 )
 from .presenters import task_view
-from .tasks import new_task_clean, task_draft_clean
+from .task_entries import new_task_clean, task_draft_clean
 
 log = logging.getLogger(__name__)
 
@@ -260,15 +258,6 @@ def close(request: HtmxHttpRequest, pk: int) -> HttpResponse:
 @role_required(*WRITERS)
 @require_POST
 def override(request: HtmxHttpRequest, pk: int) -> HttpResponse:
-    """Close despite overridable rules, with a written reason. Only a manager may: a
-    mechanic's attempt reaches the rules (which refuse it) and is answered 403."""
-    if not rules.override_permitted(role=user_role(request.user)):
-        wo = work_order_for_user(request.user, pk)
-        context = page_context_build(
-            request,
-            wo,
-            token=request.POST.get("token") or None,
-            server_error="Only a manager may override a closing rule. Nothing was recorded.",
-        )
-        return render(request, "workorders/detail.html", context, status=403)
+    """Close despite overridable rules, with a written reason. Only a manager may: the close
+    refuses anyone else's override (``services.rules.override_permitted``), answered 403."""
     return _close(request, pk, override=True)

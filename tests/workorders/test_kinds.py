@@ -22,7 +22,7 @@ from fleetfuel.workorders.forms import JobEntry, TaskForm
 from fleetfuel.workorders.kinds import KINDS, Kind, kind_for_due_task
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 from fleetfuel.workorders.selectors import task_context
-from fleetfuel.workorders.tasks import task_form
+from fleetfuel.workorders.task_entries import task_form
 from services import rules
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
