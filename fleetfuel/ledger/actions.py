@@ -134,6 +134,10 @@ def service_events_append(
 
     The fields are validated as there; the relations, the (unit, seq) and hash uniqueness and
     the correction check are left to the database's constraints, which refuse the whole insert.
+
+    Unlike service_event_append, a bulk insert sends no ``post_save``, so planning queues no
+    recompute of the unit: the caller recomputes (the demo projects every unit at its ``now``
+    once the build is done, which is why it writes in bulk).
     """
     with transaction.atomic():
         seq, prev_hash = _chain_head_lock(unit=unit)
