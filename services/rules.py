@@ -45,10 +45,16 @@ class RuleViolation:
     overridable: bool
 
 
+def cylinder_numbers(*, cylinders: int) -> range:
+    """The cylinders of an engine of ``cylinders`` cylinders: numbered 1 to n (common
+    practice)."""
+    return range(1, cylinders + 1)
+
+
 def cylinder_exists(*, cylinder: float, cylinders: int) -> bool:
     """Whether an engine of ``cylinders`` cylinders has cylinder ``cylinder``: they are
     numbered 1 to n (common practice); a fraction is no cylinder."""
-    return cylinder == int(cylinder) and 1 <= cylinder <= cylinders
+    return cylinder == int(cylinder) and int(cylinder) in cylinder_numbers(cylinders=cylinders)
 
 
 def measurement_breach(*, value: float, low: float | None, high: float | None) -> str | None:

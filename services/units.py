@@ -144,16 +144,15 @@ UNIT_WORDS: Final = {"pressure_bar_gauge": "bar gauge", "volume_ml": "mL", "flow
 @dataclass(frozen=True, slots=True)
 class InputUnit:
     label: str  # shown beside the input
-    step: str  # the smallest step a gauge or measure reads, as an input's step attribute
 
 
 INPUT_UNITS: Final = {
-    ("pressure_bar_gauge", "metric"): InputUnit("bar(g)", "0.01"),
-    ("pressure_bar_gauge", "us"): InputUnit("psig", "0.1"),
-    ("volume_ml", "metric"): InputUnit("mL", "1"),
-    ("volume_ml", "us"): InputUnit("US fl oz", "0.1"),
-    ("flow_l_per_h", "metric"): InputUnit("L/h", "0.1"),
-    ("flow_l_per_h", "us"): InputUnit("US gal/h", "0.01"),
+    ("pressure_bar_gauge", "metric"): InputUnit("bar(g)"),
+    ("pressure_bar_gauge", "us"): InputUnit("psig"),
+    ("volume_ml", "metric"): InputUnit("mL"),
+    ("volume_ml", "us"): InputUnit("US fl oz"),
+    ("flow_l_per_h", "metric"): InputUnit("L/h"),
+    ("flow_l_per_h", "us"): InputUnit("US gal/h"),
 }
 
 # US customary: (typed -> stored, stored -> shown) for each quantity a form takes.

@@ -226,7 +226,7 @@ class CylinderField(PickField):
         super().bind(form, name)
 
     def options_for(self, form: TaskForm) -> list[tuple[str, str]]:
-        return [(str(n), f"Cylinder {n}") for n in range(1, self.cylinders + 1)]
+        return [(str(n), f"Cylinder {n}") for n in rules.cylinder_numbers(cylinders=self.cylinders)]
 
     def to_python(self, value: Any) -> int | None:
         raw = str(value or "")

@@ -74,7 +74,7 @@ def page_context_build(
         "add_kinds": list(KINDS.values()),
         "filters": data.ctx.filters(),
         "limits": list(data.ctx.limits.values()),
-        "cylinder_range": range(1, wo.unit.cylinders + 1),
+        "cylinder_range": rules.cylinder_numbers(cylinders=wo.unit.cylinders),
         "task_keys": [f"fleetfuel:task:{t.pk}" for t in data.tasks],
         "not_done_tasks": [t for t in data.tasks if t.is_not_done],
     }
