@@ -19,8 +19,12 @@ from fleetfuel.fleet.checks import (
     meter_readings_refusals,
 )
 from fleetfuel.fleet.models import MeterReading, MeterReplacement
+from fleetfuel.workorders.close import work_order_close
+from fleetfuel.workorders.forms import JobEntry
+from fleetfuel.workorders.models import WorkOrderTask
 from tests import factories as f
 from tests.factories import NOW
+from tests.workorders.conftest import task_make, work_order_make
 
 DAY = timedelta(days=1)
 
@@ -89,3 +93,22 @@ def test_a_fueling_fits_the_unit_tank_else_the_class_tank(unit: Any) -> None:
     unit.save()
     assert fueling_refusal_for(unit=unit, litres=500.0) is None
     assert fueling_refusal_for(unit=unit, litres=float("nan")) is not None
+
+
+def test_the_close_refuses_more_hours_than_elapsed(unit: Any, manager: Any) -> None:
+    # The close records its reading at ``now``: 100 h on a reading two days back is more than
+    # the 48 h the two days hold (ISO 8601-1:2019, 3.1.2.21).
+    MeterReading.objects.create(unit=unit, taken_at=NOW - 2 * DAY, hours=1_990.0)
+    wo = work_order_make(unit=unit, created_by=manager)
+    task_make(wo, WorkOrderTask.Kind.RELIEF_VALVE_REPLACE, description="Replace relief valve")
+    job = JobEntry(
+        hour_meter=2_090.0,
+        meter_replaced=False,
+        meter_old_final=None,
+        meter_new_start=None,
+        notes=None,
+    )
+    outcome = work_order_close(work_order_id=wo.pk, user=manager, token="t", job=job, now=NOW)
+    assert outcome.result == "refused"
+    assert any("48.0 h elapsed" in p and "1,990.0 h" in p for p in outcome.problems)
+    assert not MeterReading.objects.filter(source=MeterReading.Source.WORK_ORDER).exists()
