@@ -45,6 +45,20 @@ def _elapsed_h(*, earlier: datetime, later: datetime) -> float:
     return (later - earlier).total_seconds() / 3600.0
 
 
+def time_refusal(
+    *, at: datetime, now: datetime, what: str, clock_allowance: timedelta = timedelta(minutes=10)
+) -> str | None:
+    """None unless ``at`` lies in the future beyond the clock allowance (any dated entry:
+    a reading, a fueling, a delivery, a sample, an engine event; ``what`` names it)."""
+    if at <= now + clock_allowance:
+        return None
+    minutes = clock_allowance.total_seconds() / 60
+    return (
+        f"The {what} is dated {_when(at)}, in the future: no later than {minutes:g} "
+        f"minutes after now ({_when(now)})."
+    )
+
+
 def reading_refusal(
     *,
     at: datetime,
@@ -67,12 +81,9 @@ def reading_refusal(
         return "The hour meter reading must be a number."
     if hours < 0:
         return f"The hour meter reading cannot be negative ({hours:,.1f} h)."
-    if at > now + clock_allowance:
-        minutes = clock_allowance.total_seconds() / 60
-        return (
-            f"The reading is dated {_when(at)}, in the future: no later than {minutes:g} "
-            f"minutes after now ({_when(now)})."
-        )
+    future = time_refusal(at=at, now=now, clock_allowance=clock_allowance, what="reading")
+    if future:
+        return future
     if before is not None and not replaced_before:
         refusal = _pair_refusal(
             earlier=before, later=Neighbour(at=at, hours=hours), checked_is_later=True

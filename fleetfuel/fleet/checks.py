@@ -81,7 +81,10 @@ def surroundings_load(
     return found
 
 
-def _refusal(s: Surroundings | None, *, at: datetime, hours: float, now: datetime) -> str | None:
+def surroundings_refusal(
+    s: Surroundings | None, *, at: datetime, hours: float, now: datetime
+) -> str | None:
+    """The rule for a reading among surroundings already loaded (None: no neighbours)."""
     s = s or Surroundings(before=None, after=None, replaced_before=False, replaced_after=False)
     return reading_refusal(
         at=at,
@@ -102,7 +105,7 @@ def meter_readings_refusals(
     around = surroundings_load(unit_ids=hours_by_unit, at=at)
     refusals = {}
     for unit_id, hours in hours_by_unit.items():
-        reason = _refusal(around.get(unit_id), at=at, hours=hours, now=now)
+        reason = surroundings_refusal(around.get(unit_id), at=at, hours=hours, now=now)
         if reason:
             refusals[unit_id] = reason
     return refusals
@@ -114,7 +117,7 @@ def meter_reading_refusal(
     """Why one reading of ``unit`` is implausible among its stored neighbours, or None.
     ``exclude_pk`` leaves the reading itself out when it is being edited."""
     around = surroundings_load(unit_ids=[unit.pk], at=at, exclude_pk=exclude_pk)
-    return _refusal(around.get(unit.pk), at=at, hours=hours, now=now)
+    return surroundings_refusal(around.get(unit.pk), at=at, hours=hours, now=now)
 
 
 def unit_tank_l(unit: models.Unit) -> float | None:

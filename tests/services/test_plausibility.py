@@ -14,7 +14,7 @@ from datetime import UTC, datetime, timedelta
 from hypothesis import given
 from hypothesis import strategies as st
 
-from services.plausibility import Neighbour, fueling_refusal, reading_refusal
+from services.plausibility import Neighbour, fueling_refusal, reading_refusal, time_refusal
 
 NOW = datetime(2026, 11, 21, 12, 0, tzinfo=UTC)
 DAY = timedelta(days=1)
@@ -131,3 +131,9 @@ def test_a_fueling_fits_its_tank_with_a_margin() -> None:
 def test_a_fueling_is_a_finite_positive_amount() -> None:
     for bad in (0.0, -5.0, float("nan"), float("inf")):
         assert fueling_refusal(litres=bad, tank_l=400.0) is not None
+
+
+def test_any_dated_entry_may_not_lie_in_the_future() -> None:
+    assert time_refusal(at=NOW + timedelta(minutes=5), now=NOW, what="fueling") is None
+    reason = time_refusal(at=NOW + DAY, now=NOW, what="fueling")
+    assert reason is not None and reason.startswith("The fueling is dated")
