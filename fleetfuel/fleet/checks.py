@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
-from datetime import datetime
+from datetime import datetime, tzinfo
 
 from django.db.models import OuterRef, Subquery
 
@@ -66,7 +66,7 @@ def surroundings_load(
     if low < high:
         span = models.MeterReplacement.objects.filter(
             unit_id__in=ids, replaced_at__gt=low, replaced_at__lte=high
-        )
+        ).order_by()
         for unit_id, replaced_at in span.values_list("unit_id", "replaced_at"):
             replaced.setdefault(unit_id, []).append(replaced_at)
     found = {}
@@ -81,16 +81,28 @@ def surroundings_load(
     return found
 
 
+def _in_zone(n: Neighbour | None, zone: tzinfo | None) -> Neighbour | None:
+    return n if n is None or zone is None else Neighbour(at=n.at.astimezone(zone), hours=n.hours)
+
+
 def surroundings_refusal(
-    s: Surroundings | None, *, at: datetime, hours: float, now: datetime
+    s: Surroundings | None,
+    *,
+    at: datetime,
+    hours: float,
+    now: datetime,
+    zone: tzinfo | None = None,
 ) -> str | None:
-    """The rule for a reading among surroundings already loaded (None: no neighbours)."""
+    """The rule for a reading among surroundings already loaded (None: no neighbours).
+    ``zone``: the time zone the refusal's times are written in (the depot's)."""
     s = s or Surroundings(before=None, after=None, replaced_before=False, replaced_after=False)
+    if zone is not None:
+        at, now = at.astimezone(zone), now.astimezone(zone)
     return reading_refusal(
         at=at,
         hours=hours,
-        before=s.before,
-        after=s.after,
+        before=_in_zone(s.before, zone),
+        after=_in_zone(s.after, zone),
         replaced_before=s.replaced_before,
         replaced_after=s.replaced_after,
         now=now,
@@ -98,26 +110,37 @@ def surroundings_refusal(
 
 
 def meter_readings_refusals(
-    *, hours_by_unit: Mapping[int, float], at: datetime, now: datetime
+    *,
+    hours_by_unit: Mapping[int, float],
+    at: datetime,
+    now: datetime,
+    zone: tzinfo | None = None,
 ) -> dict[int, str]:
     """Why each refused reading of a round (unit id -> hours, all read at ``at``) is refused;
     units whose reading is plausible are absent. Two queries, whatever the number of units."""
     around = surroundings_load(unit_ids=hours_by_unit, at=at)
     refusals = {}
     for unit_id, hours in hours_by_unit.items():
-        reason = surroundings_refusal(around.get(unit_id), at=at, hours=hours, now=now)
+        reason = surroundings_refusal(around.get(unit_id), at=at, hours=hours, now=now, zone=zone)
         if reason:
             refusals[unit_id] = reason
     return refusals
 
 
 def meter_reading_refusal(
-    *, unit: models.Unit, at: datetime, hours: float, now: datetime, exclude_pk: int | None = None
+    *,
+    unit: models.Unit,
+    at: datetime,
+    hours: float,
+    now: datetime,
+    exclude_pk: int | None = None,
+    zone: tzinfo | None = None,
 ) -> str | None:
     """Why one reading of ``unit`` is implausible among its stored neighbours, or None.
-    ``exclude_pk`` leaves the reading itself out when it is being edited."""
+    ``exclude_pk`` leaves the reading itself out when it is being edited; ``zone`` is the
+    time zone the refusal's times are written in (UTC when None)."""
     around = surroundings_load(unit_ids=[unit.pk], at=at, exclude_pk=exclude_pk)
-    return surroundings_refusal(around.get(unit.pk), at=at, hours=hours, now=now)
+    return surroundings_refusal(around.get(unit.pk), at=at, hours=hours, now=now, zone=zone)
 
 
 def unit_tank_l(unit: models.Unit) -> float | None:
