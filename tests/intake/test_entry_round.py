@@ -122,7 +122,7 @@ def test_round_queries_do_not_grow_with_the_depot(
     # POST: 1-6 as above, 7 the units' neighbours, 8 replacements between, 9 savepoint,
     # 10 one insert of every reading, 11 release; 12 the rows again, with the new readings
     # (a row was refused, so the form comes back).
-    rows = {u: "1010" for u in units[:-1]} | {units[-1]: "9999"}
+    rows = dict.fromkeys(units[:-1], "1010") | {units[-1]: "9999"}
     with django_assert_num_queries(12):
         post(as_manager, site, rows)
     assert MeterReading.objects.filter(hours=1_010.0).count() == n - 1
