@@ -131,7 +131,7 @@ class RoundForm(SiteForm):
 
 class DeliveryForm(SiteForm):
     source = forms.ModelChoiceField(
-        queryset=None, label="Into (tank or bowser)", empty_label="(choose a tank or bowser)"
+        queryset=None, label="Into (tank or bowser)", empty_label="(choose)"
     )
     delivered_at = SiteTimeField(label="Delivered at", what="delivery")
     amount = AmountField(label="Delivered", volume=True, minimum=1)
@@ -173,7 +173,13 @@ class LabResultForm(forms.ModelForm):  # type: ignore[type-arg]
     class Meta:
         model = FuelSample
         fields = ["sampled_at", *LAB_FIELDS]
-        labels = {"reference": "Sample reference", "iso4406": "ISO 4406 code"}
+        labels = {
+            "reference": "Sample reference",
+            "iso4406": "ISO 4406 code",
+            "count_4_per_ml": "≥4 µm(c) per mL",
+            "count_6_per_ml": "≥6 µm(c) per mL",
+            "count_14_per_ml": "≥14 µm(c) per mL",
+        }
         help_texts = {
             "water_mg_kg": "Karl Fischer, EN ISO 12937 / ASTM D6304.",
             "iso4406": "e.g. 18/16/13, -/16/13 or >=24/21/18; or give the counts below.",
@@ -196,12 +202,8 @@ class SampleTieForm(SiteForm):
 
     TIES = [("source", "A fuel source"), ("delivery", "A delivery"), ("unit", "A unit's tank")]
     taken_from = forms.ChoiceField(choices=TIES, widget=forms.RadioSelect, initial="source")
-    source = forms.ModelChoiceField(
-        queryset=None, required=False, empty_label="(choose a tank or bowser)"
-    )
-    delivery = forms.ModelChoiceField(
-        queryset=None, required=False, empty_label="(choose a delivery)"
-    )
+    source = forms.ModelChoiceField(queryset=None, required=False, empty_label="(choose)")
+    delivery = forms.ModelChoiceField(queryset=None, required=False, empty_label="(choose)")
     unit = unit_field(required=False)
 
     def clean(self) -> dict[str, Any]:
