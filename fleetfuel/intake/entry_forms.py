@@ -5,7 +5,7 @@ bytes (Django's ``ProhibitNullCharactersValidator``), which PostgreSQL text cann
 from __future__ import annotations
 
 from collections.abc import Mapping
-from datetime import datetime
+from datetime import datetime, timedelta
 from typing import Any
 from zoneinfo import ZoneInfo
 
@@ -21,6 +21,7 @@ from services.plausibility import time_refusal
 from .entry_selectors import RoundRow, active_units, site_deliveries, site_sources
 
 TIME_FORMAT = "%Y-%m-%dT%H:%M"
+DELIVERY_CHOICE_DAYS = 120  # a sample's delivery is chosen among this many days' deliveries
 
 
 class SiteTimeField(forms.DateTimeField):
@@ -83,7 +84,10 @@ class SiteForm(forms.Form):
         if "source" in self.fields:
             self.fields["source"].queryset = site_sources(site=site)  # type: ignore[attr-defined]
         if "delivery" in self.fields:
-            self.fields["delivery"].queryset = site_deliveries(site=site)[:50]  # type: ignore[attr-defined]
+            since = now - timedelta(days=DELIVERY_CHOICE_DAYS)
+            self.fields["delivery"].queryset = site_deliveries(site=site).filter(  # type: ignore[attr-defined]
+                delivered_at__gte=since
+            )
 
     def clean_unit(self) -> Unit | None:
         number = self.cleaned_data.get("unit", "")

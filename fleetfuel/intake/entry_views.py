@@ -108,7 +108,8 @@ def hours_round(request: HttpRequest) -> HttpResponse:
             if not refused:
                 form.add_error(None, "Type at least one reading.")
         typed = {r.unit_id: str(request.POST.get(f"h-{r.unit_id}", ""))[:30] for r in rows}
-        typed = {k: v.replace("\x00", "") for k, v in typed.items() if k in refused}
+        kept = refused if form.is_valid() else typed  # a bad time keeps every typed row
+        typed = {k: v.replace("\x00", "") for k, v in typed.items() if k in kept}
     else:
         form = ef.RoundForm(
             initial={"taken_at": request.GET.get("at") or _local_now(site, now)},

@@ -213,3 +213,17 @@ def test_every_entry_page_is_a_managers_page(client: Any, mechanic: Any, auditor
         client.force_login(user)
         for name in ("home", "hours", "fuel", "delivery", "sample", "event"):
             assert client.get(reverse(f"intake:{name}")).status_code == 403
+
+
+def test_a_sample_tied_to_a_delivery_takes_its_source(
+    as_manager: Any, site: Any, tank: Any
+) -> None:
+    delivery = Delivery.objects.create(
+        source=tank, delivered_at=f.at(3, now=f.NOW), litres=8_000, ticket="T-1"
+    )
+    response = sample_post(
+        as_manager, site, taken_from="delivery", delivery=str(delivery.pk), water_mg_kg="150"
+    )
+    assert response.status_code == 302
+    (s,) = FuelSample.objects.all()
+    assert (s.delivery, s.source, s.unit) == (delivery, tank, None)

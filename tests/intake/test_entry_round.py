@@ -136,3 +136,11 @@ def test_the_round_reads_the_time_in_the_depots_zone(
         post(as_manager, site, {a: "1001"}, at="2026-06-15T12:30")
     reading = MeterReading.objects.latest()
     assert reading.taken_at == NOW - timedelta(minutes=30)  # BST is UTC+1 in June
+
+
+def test_a_bad_time_keeps_every_typed_row(as_manager: Any, site: Any, unit_class: Any) -> None:
+    a, b = depot(site, unit_class, 2)
+    page = post(as_manager, site, {a: "1010", b: "1020"}, at="yesterday").content.decode()
+    assert "Enter a valid date/time." in page
+    assert 'value="1010"' in page and 'value="1020"' in page
+    assert MeterReading.objects.count() == 2
