@@ -105,11 +105,16 @@ class SiteForm(forms.Form):
 
 
 def unit_field(required: bool = True) -> forms.CharField:
+    """A fleet number typed (suggested from the site's units), not picked from a long list;
+    a form that starts with it puts the cursor there, for the next entry."""
+    attrs = {"list": "site-units", "autocomplete": "off", "autocapitalize": "characters"}
+    if required:
+        attrs["autofocus"] = ""
     return forms.CharField(
         label="Unit (fleet number)",
         max_length=30,
         required=required,
-        widget=forms.TextInput(attrs={"list": "site-units", "autocomplete": "off"}),
+        widget=forms.TextInput(attrs=attrs),
     )
 
 

@@ -66,8 +66,10 @@ def test_manager_enters_a_days_data(login_page: Any, width: int, height: int) ->
     page.fill("#id_amount", "250")
     page.keyboard.press("Enter")
     page.get_by_text("Fueling saved: QL-1").wait_for()
-    page.fill("#id_unit", "ql-2")
-    page.fill("#id_amount", "900")  # more than the 400 L tank holds
+    # The next blank form has the cursor in the unit: type, Tab to the fuel, type.
+    page.keyboard.type("ql-2")
+    page.keyboard.press("Tab")
+    page.keyboard.type("900")  # more than the 400 L tank holds
     page.keyboard.press("Enter")
     page.get_by_text("more than the tank holds").wait_for()
     shot(page, f"fuel-refused-{size}")
