@@ -227,3 +227,22 @@ def test_a_sample_tied_to_a_delivery_takes_its_source(
     assert response.status_code == 302
     (s,) = FuelSample.objects.all()
     assert (s.delivery, s.source, s.unit) == (delivery, tank, None)
+
+
+def test_a_nul_byte_in_any_text_is_a_field_error(as_manager: Any, site: Any, tank: Any) -> None:
+    data = {"site": site.code, "source": str(tank.pk), "delivered_at": AT, "amount": "900"}
+    page = as_manager.post(reverse("intake:delivery"), data | {"ticket": "T\x001"}).content
+    assert b"Null characters are not allowed." in page
+    page = sample_post(as_manager, site, source=str(tank.pk), water_mg_kg="80", lab="A\x00B")
+    assert b"Null characters are not allowed." in page.content
+    assert not Delivery.objects.exists() and not FuelSample.objects.exists()
+
+
+def test_a_manager_of_two_depots_picks_one(
+    as_manager: Any, site: Any, other_site: Any, unit: Any, unit_class: Any
+) -> None:
+    f.unit_make(site=other_site, unit_class=unit_class, fleet_number="S-001")
+    page = as_manager.get(reverse("intake:fuel"), {"site": other_site.code}).content.decode()
+    assert "Fuelings · South Depot" in page and '<option value="S-001">' in page
+    assert '<option value="N-001">' not in page
+    assert '<option value="north">North Depot</option>' in page  # the depot picker
