@@ -5,7 +5,7 @@ bytes (Django's ``ProhibitNullCharactersValidator``), which PostgreSQL text cann
 from __future__ import annotations
 
 from collections.abc import Mapping
-from datetime import datetime, timedelta
+from datetime import UTC, datetime, timedelta
 from typing import Any
 from zoneinfo import ZoneInfo
 
@@ -25,7 +25,11 @@ DELIVERY_CHOICE_DAYS = 120  # a sample's delivery is chosen among this many days
 
 
 class SiteTimeField(forms.DateTimeField):
-    """A ``datetime-local`` input read in the site's time zone, refused in the future."""
+    """A ``datetime-local`` input read in the site's time zone, refused in the future.
+
+    Of a wall-clock time that occurs twice (the hour the clocks go back) the first is taken,
+    which never lies in the future; one that does not occur (the clocks went forward) is
+    refused with that reason."""
 
     widget = forms.DateTimeInput(attrs={"type": "datetime-local"}, format=TIME_FORMAT)
 
@@ -34,9 +38,30 @@ class SiteTimeField(forms.DateTimeField):
         super().__init__(**kw)
         self.what, self.zone, self.now = what, ZoneInfo("UTC"), timezone.now()
 
+    def to_python(self, value: Any) -> datetime | None:
+        if isinstance(value, datetime):
+            return value if timezone.is_aware(value) else self._local(value)
+        text = str(value or "").strip()
+        if not text:
+            return None
+        for fmt in self.input_formats:
+            try:
+                return self._local(datetime.strptime(text, fmt))
+            except (TypeError, ValueError):
+                continue
+        raise ValidationError(self.error_messages["invalid"], code="invalid")
+
+    def _local(self, naive: datetime) -> datetime:
+        at = naive.replace(tzinfo=self.zone, fold=0)
+        if at.astimezone(UTC).astimezone(self.zone).replace(tzinfo=None) != naive:
+            raise ValidationError(
+                f"{naive:%Y-%m-%d %H:%M} does not occur in {self.zone.key}: the clocks "
+                "went forward that night."
+            )
+        return at
+
     def clean(self, value: Any) -> datetime | None:
-        with timezone.override(self.zone):
-            at = super().clean(value)
+        at = super().clean(value)
         if at is not None:
             refusal = time_refusal(at=at, now=self.now, what=self.what)
             if refusal:

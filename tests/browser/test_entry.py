@@ -46,7 +46,7 @@ def test_manager_enters_a_days_data(login_page: Any, width: int, height: int) ->
     page.fill("#h-" + str(units[0].pk), "1012.5")
     page.fill("#h-" + str(units[1].pk), "1160")
     page.keyboard.press("Enter")
-    page.get_by_text("48.0 h elapsed between them").wait_for()
+    page.get_by_text("elapsed between them").wait_for()
     shot(page, f"hours-refused-{size}")
     assert list(MeterReading.objects.filter(unit=units[0]).values_list("hours", flat=True)) == [
         1_012.5,

@@ -144,3 +144,17 @@ def test_a_bad_time_keeps_every_typed_row(as_manager: Any, site: Any, unit_class
     assert "Enter a valid date/time." in page
     assert 'value="1010"' in page and 'value="1020"' in page
     assert MeterReading.objects.count() == 2
+
+
+def test_the_hour_the_clocks_go_back_and_forward(
+    as_manager: Any, site: Any, unit_class: Any
+) -> None:
+    # Europe/London: BST ends 2025-10-26 02:00 BST (01:30 happens twice), and begins
+    # 2026-03-29 01:00 GMT (01:30 never happens) (the UK Summer Time Act 1972 as amended;
+    # the tz database).
+    (a,) = depot(site, unit_class, 1)
+    MeterReading.objects.all().delete()
+    post(as_manager, site, {a: "900"}, at="2025-10-26T01:30")
+    assert MeterReading.objects.get().taken_at.isoformat() == "2025-10-26T00:30:00+00:00"
+    page = post(as_manager, site, {a: "905"}, at="2026-03-29T01:30").content.decode()
+    assert "2026-03-29 01:30 does not occur in Europe/London" in page
