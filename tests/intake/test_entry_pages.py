@@ -246,3 +246,17 @@ def test_a_manager_of_two_depots_picks_one(
     assert "Fuelings · South Depot" in page and '<option value="S-001">' in page
     assert '<option value="N-001">' not in page
     assert '<option value="north">North Depot</option>' in page  # the depot picker
+
+
+@pytest.mark.parametrize("n", [2, 9])
+def test_entry_pages_queries_do_not_grow_with_the_depot(
+    as_manager: Any, site: Any, unit_class: Any, tank: Any, django_assert_num_queries: Any, n: int
+) -> None:
+    for i in range(n):
+        unit = f.unit_make(site=site, unit_class=unit_class, fleet_number=f"Q-{i}")
+        Fueling.objects.create(unit=unit, source=tank, fueled_at=f.at(1, now=f.NOW), litres=90)
+    # 1 session, 2 user, 3 role, 4-5 the manager's sites, 6 the latest fuelings with unit
+    # and source, 7 the fleet numbers for the suggestions, 8 the fuel sources (the select).
+    with django_assert_num_queries(8):
+        page = as_manager.get(reverse("intake:fuel"), {"site": site.code}).content.decode()
+    assert page.count("<td>Q-") == min(n, 8)
