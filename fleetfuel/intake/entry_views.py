@@ -123,8 +123,10 @@ def hours_round(request: HttpRequest) -> HttpResponse:
 
 
 def _simple_page(
-    request: HttpRequest, *, name: str, form_class: type[ef.SiteForm], keep: tuple[str, ...]
+    request: HttpRequest, *, form_class: type[ef.SiteForm], keep: tuple[str, ...]
 ) -> tuple[Site, list[Site], ef.SiteForm, datetime]:
+    """The site, the sites, the form (bound on POST; else blank, keeping ``keep`` from the
+    query string and the time, or now) and the time now."""
     site, sites = _site(request)
     now = timezone.now()
     if request.method == "POST":
@@ -150,9 +152,7 @@ def _units_context(site: Site, now: datetime) -> list[str]:
 @require_http_methods(["GET", "POST"])
 @vary_on_headers("HX-Request")
 def fueling_entry(request: HttpRequest) -> HttpResponse:
-    site, sites, form, now = _simple_page(
-        request, name="fuel", form_class=ef.FuelingForm, keep=("source", "at")
-    )
+    site, sites, form, now = _simple_page(request, form_class=ef.FuelingForm, keep=("source", "at"))
     if request.method == "POST" and form.is_valid():
         d = form.cleaned_data
         fueling = fueling_record(
@@ -171,9 +171,7 @@ def fueling_entry(request: HttpRequest) -> HttpResponse:
 @vary_on_headers("HX-Request")
 def delivery_entry(request: HttpRequest) -> HttpResponse:
     """A bulk delivery, with the sample taken from it if there is one."""
-    site, sites, form, now = _simple_page(
-        request, name="delivery", form_class=ef.DeliveryForm, keep=("source",)
-    )
+    site, sites, form, now = _simple_page(request, form_class=ef.DeliveryForm, keep=("source",))
     data = request.POST if request.method == "POST" else None
     lab = ef.LabResultForm(
         data, prefix="sample", site=site, now=now, initial=_lab_initial(site, now)
@@ -209,9 +207,7 @@ def delivery_entry(request: HttpRequest) -> HttpResponse:
 @vary_on_headers("HX-Request")
 def sample_entry(request: HttpRequest) -> HttpResponse:
     """A fuel sample's lab result, tied to a source, a delivery or a unit's tank."""
-    site, sites, tie, now = _simple_page(
-        request, name="sample", form_class=ef.SampleTieForm, keep=()
-    )
+    site, sites, tie, now = _simple_page(request, form_class=ef.SampleTieForm, keep=())
     data = request.POST if request.method == "POST" else None
     lab = ef.LabResultForm(data, site=site, now=now, initial=_lab_initial(site, now))
     if data is not None and tie.is_valid() and lab.is_valid():
@@ -230,9 +226,7 @@ def sample_entry(request: HttpRequest) -> HttpResponse:
 @vary_on_headers("HX-Request")
 def event_entry(request: HttpRequest) -> HttpResponse:
     """An engine-controller event typed from the controller's display or a service tool."""
-    site, sites, form, now = _simple_page(
-        request, name="event", form_class=ef.EngineEventForm, keep=("at",)
-    )
+    site, sites, form, now = _simple_page(request, form_class=ef.EngineEventForm, keep=("at",))
     if request.method == "POST" and form.is_valid():
         d = form.cleaned_data
         event = engine_event_record(
