@@ -1,16 +1,17 @@
 """One batch of the telematics feed, stored in one transaction, with a result per item.
 
-Queries, whatever the batch's size: the units its fleet numbers name (1), in the transaction
-the token's last use (1, which also locks the token's row so two batches of one token never
-race on the same ids), the ids it already sent (1), the engine events (1) and the receipts
-(1, both in bulk). Each hour reading goes through the plausibility rule against its
-neighbours, batch-mates included, so readings are checked and stored one at a time.
-The planning signals recompute each affected unit once, when the transaction commits.
+A fixed number of queries, whatever the batch's size: the units its fleet numbers name (1);
+in the transaction, the token's last use (1, which also locks the token's row, so two batches
+of one token never race on the same ids), the ids it already sent (1), what the plausibility
+rule needs for the hour readings (6, see feed_readings), then the readings, the engine events
+and the receipts in one insert each (3). Each reading is checked against its nearest readings,
+stored or accepted earlier in the batch. The bulk inserts send no save signals, so each
+affected unit's recompute is queued here, once, for when the transaction commits.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 
@@ -21,6 +22,7 @@ from fleetfuel.planning.signals import unit_recompute_enqueue
 from services.flags import event_kind_classify
 
 from .feed_items import FeedItem, item_id, item_parse
+from .feed_readings import ReadingTimeline, timeline_load
 from .models import FeedReceipt, FeedToken
 
 CREATED, DUPLICATE, REFUSED = "created", "duplicate", "refused"
@@ -61,12 +63,6 @@ def _unit_refusal(*, item: FeedItem, units: _Units, token: FeedToken) -> str | N
     return None
 
 
-def reading_refusal(*, unit: Unit, at: datetime, hours: float, now: datetime) -> str | None:
-    """The plausibility rule for an hour reading (neighbours in time, meter replacements).
-    The seam where ``fleetfuel.fleet.checks.meter_reading_refusal`` is called."""
-    return None
-
-
 def _result(raw: Any, status: str, error: str | None = None) -> dict[str, Any]:
     return {"id": item_id(raw), "status": status, "error": error}
 
@@ -85,28 +81,74 @@ def feed_batch_apply(*, token: FeedToken, raw_items: list[Any], now: datetime) -
         # Query: the token's last use; the row stays locked until this batch commits.
         FeedToken.objects.filter(pk=token.pk).update(last_used_at=now)
         sent = _ids_already_sent(token=token, items=[item for _, item in parsed])
-        events: list[tuple[str, EngineEvent]] = []
-        receipts: list[FeedReceipt] = []
+        timeline = _timeline_load(units=units, items=[item for _, item in parsed])
+        made = _Made()
         for n, item in parsed:
             raw = raw_items[n]
             if item.id in sent:
                 results[n] = _result(raw, DUPLICATE)
                 continue
-            error = _unit_refusal(item=item, units=units, token=token)
             unit = units.here.get(item.unit)
+            error = _unit_refusal(item=item, units=units, token=token)
             if error is None and unit is not None and item.type == "hours":
-                error = reading_refusal(unit=unit, at=item.at, hours=item.hours or 0.0, now=now)
+                assert item.hours is not None
+                error = timeline.refusal(unit_id=unit.pk, at=item.at, hours=item.hours, now=now)
             if error is not None or unit is None:
                 results[n] = _result(raw, REFUSED, error)
                 continue
             sent.add(item.id)
             results[n] = _result(raw, CREATED)
-            if item.type == "hours":
-                receipts.append(_receipt(token, item, now, reading=_reading_create(unit, item)))
-            else:
-                events.append((item.id, _event(unit, item)))
-        _events_store(token=token, events=events, receipts=receipts, now=now)
+            made.add(unit=unit, item=item, timeline=timeline)
+        made.store(token=token, now=now)
     return [r for r in results if r is not None]
+
+
+def _timeline_load(*, units: _Units, items: list[FeedItem]) -> ReadingTimeline:
+    readings = [i for i in items if i.type == "hours" and i.unit in units.here]
+    unit_ids = sorted({units.here[i.unit].pk for i in readings})
+    return timeline_load(unit_ids=unit_ids, times=[i.at for i in readings])
+
+
+@dataclass
+class _Made:
+    """The rows a batch creates, each with the client's id, inserted in bulk at the end."""
+
+    readings: list[tuple[str, MeterReading]] = field(default_factory=list)
+    events: list[tuple[str, EngineEvent]] = field(default_factory=list)
+
+    def add(self, *, unit: Unit, item: FeedItem, timeline: ReadingTimeline) -> None:
+        if item.type == "hours":
+            assert item.hours is not None
+            timeline.add(unit_id=unit.pk, at=item.at, hours=item.hours)
+            reading = MeterReading(
+                unit=unit, taken_at=item.at, hours=item.hours, source=MeterReading.Source.TELEMATICS
+            )
+            self.readings.append((item.id, reading))
+        else:
+            self.events.append((item.id, _event(unit, item)))
+
+    def store(self, *, token: FeedToken, now: datetime) -> None:
+        receipts: list[FeedReceipt] = []
+        if self.readings:
+            # Query: the batch's hour readings in one insert (no save signal: recompute below).
+            MeterReading.objects.bulk_create([r for _, r in self.readings])
+            receipts.extend(
+                FeedReceipt(token=token, client_id=i, received_at=now, reading=r)
+                for i, r in self.readings
+            )
+        if self.events:
+            # Query: the batch's engine events in one insert.
+            EngineEvent.objects.bulk_create([e for _, e in self.events])
+            receipts.extend(
+                FeedReceipt(token=token, client_id=i, received_at=now, event=e)
+                for i, e in self.events
+            )
+        if receipts:
+            # Query: every receipt of the batch in one insert.
+            FeedReceipt.objects.bulk_create(receipts)
+        # Each unit's recompute queued once, for when the transaction commits.
+        rows = [*(r for _, r in self.readings), *(e for _, e in self.events)]
+        unit_recompute_enqueue(sorted({row.unit_id for row in rows}))
 
 
 def _ids_already_sent(*, token: FeedToken, items: list[FeedItem]) -> set[str]:
@@ -116,14 +158,6 @@ def _ids_already_sent(*, token: FeedToken, items: list[FeedItem]) -> set[str]:
     # Query: which of the batch's ids this token has already sent.
     found = FeedReceipt.objects.filter(token=token, client_id__in=ids)
     return set(found.values_list("client_id", flat=True))
-
-
-def _reading_create(unit: Unit, item: FeedItem) -> MeterReading:
-    # Query (one per reading): stored at once, so the next reading of the batch sees it;
-    # its save signal queues the unit's recompute for the commit.
-    return MeterReading.objects.create(
-        unit=unit, taken_at=item.at, hours=item.hours, source=MeterReading.Source.TELEMATICS
-    )
 
 
 def _event(unit: Unit, item: FeedItem) -> EngineEvent:
@@ -137,34 +171,3 @@ def _event(unit: Unit, item: FeedItem) -> EngineEvent:
         occurrences=item.count,
         kind=event_kind_classify(spn=item.spn, fmi=item.fmi),
     )
-
-
-def _receipt(
-    token: FeedToken,
-    item_or_id: FeedItem | str,
-    now: datetime,
-    *,
-    reading: MeterReading | None = None,
-    event: EngineEvent | None = None,
-) -> FeedReceipt:
-    client_id = item_or_id if isinstance(item_or_id, str) else item_or_id.id
-    return FeedReceipt(
-        token=token, client_id=client_id, received_at=now, reading=reading, event=event
-    )
-
-
-def _events_store(
-    *,
-    token: FeedToken,
-    events: list[tuple[str, EngineEvent]],
-    receipts: list[FeedReceipt],
-    now: datetime,
-) -> None:
-    if events:
-        # Query: the batch's engine events in one insert (no save signal: recompute below).
-        EngineEvent.objects.bulk_create([e for _, e in events])
-        receipts.extend(_receipt(token, client_id, now, event=e) for client_id, e in events)
-        unit_recompute_enqueue(sorted({e.unit_id for _, e in events}))
-    if receipts:
-        # Query: every receipt of the batch in one insert.
-        FeedReceipt.objects.bulk_create(receipts)

@@ -11,8 +11,10 @@ from __future__ import annotations
 import json
 import math
 from dataclasses import dataclass
-from datetime import datetime, timedelta
+from datetime import datetime
 from typing import Any
+
+from services.plausibility import time_refusal
 
 MAX_ITEMS = 1_000
 MAX_BODY_BYTES = 1_000_000  # 1 MB
@@ -20,8 +22,6 @@ MAX_ID_LENGTH = 100
 SPN_MAX = 2**19 - 1  # 524,287: 19 bits (SAE J1939-71)
 FMI_MAX = 31  # 5 bits (SAE J1939-73)
 COUNT_MAX = 2**31 - 1  # what the occurrences column holds
-# A device's clock may run a little ahead of ours (common practice).
-CLOCK_ALLOWANCE = timedelta(minutes=10)
 TYPES = ("hours", "fault")
 
 
@@ -86,7 +86,7 @@ def _kind(value: Any) -> str:
     return {dict: "an object", list: "a list", str: "a string"}.get(type(value), "a number")
 
 
-def _time(value: Any, *, now: datetime) -> datetime:
+def _time(value: Any, *, kind: Any, now: datetime) -> datetime:
     if not isinstance(value, str):
         raise ValueError(f'"at" must be an ISO 8601 time as a string, not {_kind(value)}.')
     try:
@@ -95,8 +95,9 @@ def _time(value: Any, *, now: datetime) -> datetime:
         raise ValueError(f'"at" is not an ISO 8601 time: {value[:40]!r}.') from None
     if at.utcoffset() is None:
         raise ValueError(f'"at" has no UTC offset: {value[:40]!r} (add Z or +hh:mm).')
-    if at > now + CLOCK_ALLOWANCE:
-        raise ValueError(f'"at" ({value[:40]}) is in the future.')
+    future = time_refusal(at=at, now=now, what="reading" if kind == "hours" else "engine event")
+    if future:
+        raise ValueError(future)
     return at
 
 
@@ -141,7 +142,7 @@ def item_parse(raw: Any, *, now: datetime) -> FeedItem:
         raise ValueError(f'"id" is longer than {MAX_ID_LENGTH} characters.')
     if kind not in TYPES:
         raise ValueError(f'"type" must be "hours" or "fault", not {str(kind)[:20]!r}.')
-    at = _time(raw["at"], now=now)
+    at = _time(raw["at"], kind=kind, now=now)
     base = {"id": raw["id"], "unit": raw["unit"].strip(), "type": kind, "at": at}
     if kind == "hours":
         return FeedItem(**base, hours=_hours(raw["hours"]))
