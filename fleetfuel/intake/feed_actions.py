@@ -42,8 +42,10 @@ def _units_load(*, token: FeedToken, items: list[FeedItem]) -> _Units:
     elsewhere: set[str] = set()
     if names:
         # Query: every unit with one of the batch's fleet numbers, at any site.
-        for unit in Unit.objects.filter(fleet_number__in=names).only(
-            "pk", "fleet_number", "site_id", "disposed_on"
+        for unit in (
+            Unit.objects.filter(fleet_number__in=names)
+            .order_by()
+            .only("pk", "fleet_number", "site_id", "disposed_on")
         ):
             if unit.site_id == token.site_id:
                 here[unit.fleet_number] = unit
