@@ -123,11 +123,15 @@ def _hours(value: Any) -> float:
     return hours
 
 
+def _blank(value: Any) -> bool:
+    return value is None or (isinstance(value, str) and not value.strip())
+
+
 def item_parse(raw: Any, *, now: datetime) -> FeedItem:
     """One item of the body as a :class:`FeedItem`; ``ValueError`` saying what is wrong."""
     if not isinstance(raw, dict):
         raise ValueError(f"Each item must be a JSON object, not {_kind(raw)}.")
-    missing = [k for k in ("id", "unit", "type", "at") if raw.get(k) in (None, "")]
+    missing = [k for k in ("id", "unit", "type", "at") if _blank(raw.get(k))]
     kind = raw.get("type")
     if kind == "hours" and raw.get("hours") is None:
         missing.append("hours")

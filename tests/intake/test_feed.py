@@ -177,6 +177,7 @@ BAD_ITEMS = [
     (fault("x", "N-001", 97, 1.5), '"fmi" must be a whole number'),
     (fault("x", "N-001", 97, 0) | {"count": 0}, '"count" 0 is out of range'),
     ("not an object", "must be a JSON object"),
+    (hours("x", "  ", 10, ago_h=1), "Missing 'unit'"),
 ]
 
 
