@@ -69,7 +69,9 @@ def _result(raw: Any, status: str, error: str | None = None) -> dict[str, Any]:
     return {"id": item_id(raw), "status": status, "error": error}
 
 
-def feed_batch_apply(*, token: FeedToken, raw_items: list[Any], now: datetime) -> list[dict]:  # type: ignore[type-arg]
+def feed_batch_apply(
+    *, token: FeedToken, raw_items: list[Any], now: datetime
+) -> list[dict[str, Any]]:
     """Store what is acceptable of one batch; one result per item, in the batch's order."""
     results: list[dict[str, Any] | None] = [None] * len(raw_items)
     parsed: list[tuple[int, FeedItem]] = []
