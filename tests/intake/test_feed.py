@@ -312,3 +312,29 @@ def test_due_items_follow_the_feed_on_commit(
     # at 1,500 h; 80 h left at the last reading (1,420 h), less what ran in the 2 h since.
     assert fine.due_hours == 1_500
     assert 78 <= fine.hours_left <= 80
+
+
+def test_a_disposed_unit_takes_nothing_after_its_disposal(
+    client: Any, token: Any, unit: Any
+) -> None:
+    unit.disposed_on = (NOW - timedelta(days=3)).date()
+    unit.save()
+    body = {
+        "items": [
+            fault("late", "N-001", 97, 0, ago_h=24),
+            fault("early", "N-001", 97, 0, ago_h=24 * 5),
+        ]
+    }
+    results = post(client, body, secret=token.secret).json()["results"]
+    assert [r["status"] for r in results] == ["refused", "created"]
+    assert "disposed of on" in results[0]["error"]
+
+
+def test_a_fault_keeps_its_hours_and_count(client: Any, token: Any, unit: Any) -> None:
+    item = fault("f1", "N-001", 5571, 0) | {"hours": 1_234.5, "count": 3}
+    assert (
+        post(client, {"items": [item]}, secret=token.secret).json()["results"][0]["status"]
+        == "created"
+    )
+    event = EngineEvent.objects.get()
+    assert (event.hours, event.occurrences, event.kind) == (1_234.5, 3, "relief_valve_opened")
