@@ -8,9 +8,10 @@ asks here, so the same readings are refused everywhere.
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping
+from bisect import bisect_right
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from datetime import datetime
+from datetime import datetime, tzinfo
 
 from django.db.models import OuterRef, Subquery
 
@@ -66,7 +67,7 @@ def surroundings_load(
     if low < high:
         span = models.MeterReplacement.objects.filter(
             unit_id__in=ids, replaced_at__gt=low, replaced_at__lte=high
-        )
+        ).order_by()
         for unit_id, replaced_at in span.values_list("unit_id", "replaced_at"):
             replaced.setdefault(unit_id, []).append(replaced_at)
     found = {}
@@ -81,16 +82,28 @@ def surroundings_load(
     return found
 
 
+def _in_zone(n: Neighbour | None, zone: tzinfo | None) -> Neighbour | None:
+    return n if n is None or zone is None else Neighbour(at=n.at.astimezone(zone), hours=n.hours)
+
+
 def surroundings_refusal(
-    s: Surroundings | None, *, at: datetime, hours: float, now: datetime
+    s: Surroundings | None,
+    *,
+    at: datetime,
+    hours: float,
+    now: datetime,
+    zone: tzinfo | None = None,
 ) -> str | None:
-    """The rule for a reading among surroundings already loaded (None: no neighbours)."""
+    """The rule for a reading among surroundings already loaded (None: no neighbours).
+    ``zone``: the time zone the refusal's times are written in (the depot's)."""
     s = s or Surroundings(before=None, after=None, replaced_before=False, replaced_after=False)
+    if zone is not None:
+        at, now = at.astimezone(zone), now.astimezone(zone)
     return reading_refusal(
         at=at,
         hours=hours,
-        before=s.before,
-        after=s.after,
+        before=_in_zone(s.before, zone),
+        after=_in_zone(s.after, zone),
         replaced_before=s.replaced_before,
         replaced_after=s.replaced_after,
         now=now,
@@ -98,26 +111,111 @@ def surroundings_refusal(
 
 
 def meter_readings_refusals(
-    *, hours_by_unit: Mapping[int, float], at: datetime, now: datetime
+    *,
+    hours_by_unit: Mapping[int, float],
+    at: datetime,
+    now: datetime,
+    zone: tzinfo | None = None,
 ) -> dict[int, str]:
     """Why each refused reading of a round (unit id -> hours, all read at ``at``) is refused;
     units whose reading is plausible are absent. Two queries, whatever the number of units."""
     around = surroundings_load(unit_ids=hours_by_unit, at=at)
     refusals = {}
     for unit_id, hours in hours_by_unit.items():
-        reason = surroundings_refusal(around.get(unit_id), at=at, hours=hours, now=now)
+        reason = surroundings_refusal(around.get(unit_id), at=at, hours=hours, now=now, zone=zone)
         if reason:
             refusals[unit_id] = reason
     return refusals
 
 
 def meter_reading_refusal(
-    *, unit: models.Unit, at: datetime, hours: float, now: datetime, exclude_pk: int | None = None
+    *,
+    unit: models.Unit,
+    at: datetime,
+    hours: float,
+    now: datetime,
+    exclude_pk: int | None = None,
+    zone: tzinfo | None = None,
 ) -> str | None:
     """Why one reading of ``unit`` is implausible among its stored neighbours, or None.
-    ``exclude_pk`` leaves the reading itself out when it is being edited."""
+    ``exclude_pk`` leaves the reading itself out when it is being edited; ``zone`` is the
+    time zone the refusal's times are written in (UTC when None)."""
     around = surroundings_load(unit_ids=[unit.pk], at=at, exclude_pk=exclude_pk)
-    return surroundings_refusal(around.get(unit.pk), at=at, hours=hours, now=now)
+    return surroundings_refusal(around.get(unit.pk), at=at, hours=hours, now=now, zone=zone)
+
+
+@dataclass(frozen=True)
+class ReadingRow:
+    """A reading to check in a batch (an import's rows, a feed's items)."""
+
+    unit_id: int
+    at: datetime
+    hours: float
+
+
+def meter_readings_check(
+    *, rows: Sequence[ReadingRow], now: datetime, zone: tzinfo | None = None
+) -> list[str | None]:
+    """Each row's refusal (or None), in the order given, for readings at any times.
+
+    A row is checked against the stored readings and the batch's rows accepted before it in
+    time, so a batch cannot slip a reading in between its own. Three queries, whatever the
+    size of the batch: the stored readings nearest outside the batch's span, those inside
+    it, and the meter replacements in between.
+    """
+    if not rows:
+        return []
+    ids = sorted({r.unit_id for r in rows})
+    low, high = min(r.at for r in rows), max(r.at for r in rows)
+    stored = models.MeterReading.objects.filter(unit_id=OuterRef("pk"))
+    earlier = stored.filter(taken_at__lt=low).order_by("-taken_at", "-pk")
+    later = stored.filter(taken_at__gt=high).order_by("taken_at", "pk")
+    timelines: dict[int, list[tuple[datetime, float]]] = {i: [] for i in ids}
+    # Query 1: each unit's nearest stored readings outside the batch's span.
+    edges = models.Unit.objects.filter(pk__in=ids).annotate(
+        b_at=Subquery(earlier.values("taken_at")[:1]),
+        b_hours=Subquery(earlier.values("hours")[:1]),
+        a_at=Subquery(later.values("taken_at")[:1]),
+        a_hours=Subquery(later.values("hours")[:1]),
+    )
+    for pk, b_at, b_hours, a_at, a_hours in edges.values_list(
+        "pk", "b_at", "b_hours", "a_at", "a_hours"
+    ):
+        timelines[pk] += [(t, h) for t, h in ((b_at, b_hours), (a_at, a_hours)) if t is not None]
+    # Query 2: the stored readings inside the span; query 3: replacements since the first.
+    inside = models.MeterReading.objects.filter(
+        unit_id__in=ids, taken_at__gte=low, taken_at__lte=high
+    ).order_by()
+    for unit_id, taken_at, hours in inside.values_list("unit_id", "taken_at", "hours"):
+        timelines[unit_id].append((taken_at, hours))
+    for timeline in timelines.values():
+        timeline.sort(key=lambda th: th[0])
+    keys = {i: [t for t, _ in timeline] for i, timeline in timelines.items()}
+    start = min([low, *(t[0][0] for t in timelines.values() if t)])
+    replaced: dict[int, list[datetime]] = {i: [] for i in ids}
+    span = models.MeterReplacement.objects.filter(unit_id__in=ids, replaced_at__gt=start).order_by()
+    for unit_id, replaced_at in span.values_list("unit_id", "replaced_at"):
+        replaced[unit_id].append(replaced_at)
+    refusals: list[str | None] = [None] * len(rows)
+    for index in sorted(range(len(rows)), key=lambda i: (rows[i].unit_id, rows[i].at)):
+        row = rows[index]
+        timeline, times = timelines[row.unit_id], replaced[row.unit_id]
+        pos = bisect_right(keys[row.unit_id], row.at)
+        before = Neighbour(*timeline[pos - 1]) if pos else None
+        after = Neighbour(*timeline[pos]) if pos < len(timeline) else None
+        around = Surroundings(
+            before=before,
+            after=after,
+            replaced_before=before is not None and any(before.at < t <= row.at for t in times),
+            replaced_after=after is not None and any(row.at < t <= after.at for t in times),
+        )
+        refusals[index] = surroundings_refusal(
+            around, at=row.at, hours=row.hours, now=now, zone=zone
+        )
+        if refusals[index] is None:
+            timeline.insert(pos, (row.at, row.hours))
+            keys[row.unit_id].insert(pos, row.at)
+    return refusals
 
 
 def unit_tank_l(unit: models.Unit) -> float | None:

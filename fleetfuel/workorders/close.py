@@ -26,6 +26,7 @@ import uuid
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 from typing import Any
+from zoneinfo import ZoneInfo
 
 from django.db import transaction
 from django.utils import timezone
@@ -230,7 +231,8 @@ def _meter_implausible(
         return []
     if any(v.code == "hour_meter_backwards" for v in violations):
         return []
-    refusal = meter_reading_refusal(unit=wo.unit, at=now, hours=wo.hour_meter, now=now)
+    zone = ZoneInfo(wo.unit.site.time_zone)
+    refusal = meter_reading_refusal(unit=wo.unit, at=now, hours=wo.hour_meter, now=now, zone=zone)
     return [refusal] if refusal else []
 
 

@@ -14,8 +14,10 @@ import pytest
 from django.core.exceptions import ValidationError
 
 from fleetfuel.fleet.checks import (
+    ReadingRow,
     fueling_refusal_for,
     meter_reading_refusal,
+    meter_readings_check,
     meter_readings_refusals,
 )
 from fleetfuel.fleet.models import MeterReading, MeterReplacement
@@ -112,3 +114,37 @@ def test_the_close_refuses_more_hours_than_elapsed(unit: Any, manager: Any) -> N
     assert outcome.result == "refused"
     assert any("48.0 h elapsed" in p and "1,990.0 h" in p for p in outcome.problems)
     assert not MeterReading.objects.filter(source=MeterReading.Source.WORK_ORDER).exists()
+
+
+def test_a_batch_is_checked_against_the_store_and_itself(
+    readings: Any, site: Any, unit_class: Any, django_assert_num_queries: Any
+) -> None:
+    other = f.unit_make(site=site, unit_class=unit_class)
+    rows = [
+        ReadingRow(unit_id=readings.pk, at=NOW - 15 * DAY, hours=11_100.0),  # above 11,025
+        ReadingRow(unit_id=readings.pk, at=NOW - 5 * DAY, hours=11_100.0),  # fits
+        ReadingRow(unit_id=readings.pk, at=NOW - 4 * DAY, hours=11_090.0),  # below the row above
+        ReadingRow(unit_id=other.pk, at=NOW - 3 * DAY, hours=10.0),
+        ReadingRow(unit_id=other.pk, at=NOW - 2 * DAY, hours=60.0),  # 50 h in 24 h
+        ReadingRow(unit_id=readings.pk, at=NOW + 30 * DAY, hours=12_000.0),  # future
+    ]
+    # 1 the units' nearest readings outside the span, 2 those inside, 3 replacements.
+    with django_assert_num_queries(3):
+        refusals = meter_readings_check(rows=rows, now=NOW)
+    assert [r is None for r in refusals] == [False, True, False, True, False, False]
+    assert "next reading (11,025.0 h" in str(refusals[0])
+    assert "previous reading (11,100.0 h" in str(refusals[2])
+    assert "24.0 h elapsed" in str(refusals[4]) and "future" in str(refusals[5])
+
+
+def test_a_batch_crosses_a_meter_replacement(readings: Any) -> None:
+    MeterReplacement.objects.create(
+        unit=readings, replaced_at=NOW - 5 * DAY, old_meter_final=11_150.0, new_meter_start=0.0
+    )
+    rows = [
+        ReadingRow(unit_id=readings.pk, at=NOW - 6 * DAY, hours=11_100.0),
+        ReadingRow(unit_id=readings.pk, at=NOW - 4 * DAY, hours=20.0),
+        ReadingRow(unit_id=readings.pk, at=NOW - 3 * DAY, hours=15.0),  # backwards, same meter
+    ]
+    refusals = meter_readings_check(rows=rows, now=NOW)
+    assert refusals[:2] == [None, None] and refusals[2] is not None

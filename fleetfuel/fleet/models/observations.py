@@ -6,6 +6,8 @@ These are the inputs of the interval engine. All are indexed for "by unit, by ti
 
 from __future__ import annotations
 
+from zoneinfo import ZoneInfo
+
 from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
@@ -52,6 +54,7 @@ class MeterReading(models.Model):
             hours=self.hours,
             now=timezone.now(),
             exclude_pk=self.pk,
+            zone=ZoneInfo(self.unit.site.time_zone),
         )
         if refusal:
             raise ValidationError({"hours": refusal})
