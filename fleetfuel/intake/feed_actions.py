@@ -3,26 +3,26 @@
 A fixed number of queries, whatever the batch's size: the units its fleet numbers name (1);
 in the transaction, the token's last use (1, which also locks the token's row, so two batches
 of one token never race on the same ids), the ids it already sent (1), what the plausibility
-rule needs for the hour readings (6, see feed_readings), then the readings, the engine events
-and the receipts in one insert each (3). Each reading is checked against its nearest readings,
-stored or accepted earlier in the batch. The bulk inserts send no save signals, so each
+rule needs for the hour readings (3, ``fleetfuel.fleet.checks.meter_readings_check``: each
+reading against its nearest readings, stored or in the batch), then the readings, the engine
+events and the receipts in one insert each (3). The bulk inserts send no save signals, so each
 affected unit's recompute is queued here, once, for when the transaction commits.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from datetime import datetime
+from datetime import UTC, datetime
 from typing import Any
 
 from django.db import transaction
 
+from fleetfuel.fleet.checks import ReadingRow, meter_readings_check
 from fleetfuel.fleet.models import EngineEvent, MeterReading, Unit
 from fleetfuel.planning.signals import unit_recompute_enqueue
 from services.flags import event_kind_classify
 
 from .feed_items import FeedItem, item_id, item_parse
-from .feed_readings import ReadingTimeline, timeline_load
 from .models import FeedReceipt, FeedToken
 
 CREATED, DUPLICATE, REFUSED = "created", "duplicate", "refused"
@@ -85,32 +85,49 @@ def feed_batch_apply(
         # Query: the token's last use; the row stays locked until this batch commits.
         FeedToken.objects.filter(pk=token.pk).update(last_used_at=now)
         sent = _ids_already_sent(token=token, items=[item for _, item in parsed])
-        timeline = _timeline_load(units=units, items=[item for _, item in parsed])
-        made = _Made()
+        first: dict[str, int] = {}  # each id's first item in the batch
+        candidates: list[tuple[int, FeedItem, Unit]] = []
         for n, item in parsed:
-            raw = raw_items[n]
             if item.id in sent:
-                results[n] = _result(raw, DUPLICATE)
-                continue
-            unit = units.here.get(item.unit)
-            error = _unit_refusal(item=item, units=units, token=token)
-            if error is None and unit is not None and item.type == "hours":
-                assert item.hours is not None
-                error = timeline.refusal(unit_id=unit.pk, at=item.at, hours=item.hours, now=now)
-            if error is not None or unit is None:
-                results[n] = _result(raw, REFUSED, error)
-                continue
-            sent.add(item.id)
-            results[n] = _result(raw, CREATED)
-            made.add(unit=unit, item=item, timeline=timeline)
+                results[n] = _result(raw_items[n], DUPLICATE)
+            elif item.id not in first:
+                first[item.id] = n
+                unit = units.here.get(item.unit)
+                error = _unit_refusal(item=item, units=units, token=token)
+                if error is not None or unit is None:
+                    results[n] = _result(raw_items[n], REFUSED, error)
+                else:
+                    candidates.append((n, item, unit))
+        made = _Made()
+        for (n, item, unit), error in zip(
+            candidates, _plausibility(candidates, now=now), strict=True
+        ):
+            results[n] = _result(raw_items[n], REFUSED if error else CREATED, error)
+            if not error:
+                made.add(unit=unit, item=item)
         made.store(token=token, now=now)
+    for n, item in parsed:  # an id sent twice in the batch: the second follows the first
+        if results[n] is None:
+            earlier = results[first[item.id]]
+            assert earlier is not None
+            again = "The same id came earlier in this batch and was refused."
+            status = DUPLICATE if earlier["status"] == CREATED else REFUSED
+            results[n] = _result(raw_items[n], status, again if status == REFUSED else None)
     return [r for r in results if r is not None]
 
 
-def _timeline_load(*, units: _Units, items: list[FeedItem]) -> ReadingTimeline:
-    readings = [i for i in items if i.type == "hours" and i.unit in units.here]
-    unit_ids = sorted({units.here[i.unit].pk for i in readings})
-    return timeline_load(unit_ids=unit_ids, times=[i.at for i in readings])
+def _plausibility(
+    candidates: list[tuple[int, FeedItem, Unit]], *, now: datetime
+) -> list[str | None]:
+    """Each candidate's refusal by the hour-meter rule (None for faults and plausible
+    readings). Queries (3): the rule's neighbours of every reading, batch-mates included."""
+    rows = [
+        ReadingRow(unit_id=unit.pk, at=item.at, hours=item.hours)
+        for _, item, unit in candidates
+        if item.type == "hours" and item.hours is not None
+    ]
+    refusals = iter(meter_readings_check(rows=rows, now=now, zone=UTC))
+    return [next(refusals) if item.type == "hours" else None for _, item, _ in candidates]
 
 
 @dataclass
@@ -120,10 +137,8 @@ class _Made:
     readings: list[tuple[str, MeterReading]] = field(default_factory=list)
     events: list[tuple[str, EngineEvent]] = field(default_factory=list)
 
-    def add(self, *, unit: Unit, item: FeedItem, timeline: ReadingTimeline) -> None:
+    def add(self, *, unit: Unit, item: FeedItem) -> None:
         if item.type == "hours":
-            assert item.hours is not None
-            timeline.add(unit_id=unit.pk, at=item.at, hours=item.hours)
             reading = MeterReading(
                 unit=unit, taken_at=item.at, hours=item.hours, source=MeterReading.Source.TELEMATICS
             )

@@ -338,3 +338,11 @@ def test_a_fault_keeps_its_hours_and_count(client: Any, token: Any, unit: Any) -
     )
     event = EngineEvent.objects.get()
     assert (event.hours, event.occurrences, event.kind) == (1_234.5, 3, "relief_valve_opened")
+
+
+def test_an_id_again_after_its_refusal_is_refused(client: Any, token: Any, unit: Any) -> None:
+    body = {"items": [fault("f1", "N-404", 97, 0), fault("f1", "N-001", 97, 0)]}
+    results = post(client, body, secret=token.secret).json()["results"]
+    assert [r["status"] for r in results] == ["refused", "refused"]
+    assert "earlier in this batch" in results[1]["error"]
+    assert not EngineEvent.objects.exists()

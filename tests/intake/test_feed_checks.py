@@ -53,15 +53,17 @@ def send(client: Any, secret: str, *items: tuple[str, float, float]) -> list[dic
 
 
 def test_a_reading_between_neighbours_must_fit_both(client: Any, secret: str, unit: Any) -> None:
-    # 10,974 h and 11,025 h four days apart: 11,100 h between them gains 126 h on the earlier
-    # in 48 h (and stands above the later one); 11,000 h fits.
+    # 10,974 h and 11,025 h four days apart: 11,100 h between them stands above the later
+    # one and gains more on the earlier than the hours elapsed; 11,000 h fits.
     stored(unit, 10_974, days_ago=6)
     stored(unit, 11_025, days_ago=2)
     results = send(
         client, secret, ("between", 11_100, 4), ("above_next", 11_030, 3), ("fits", 11_000, 4.5)
     )
     assert [r["status"] for r in results] == ["refused", "refused", "created"]
-    assert "10,974.0 h" in results[0]["error"]
+    # Checked in time order, batch-mates included: 11,000 h (accepted, 4.5 days ago) is the
+    # previous reading by then, 100 h below it twelve hours earlier.
+    assert "previous reading (11,000.0 h" in results[0]["error"]
     assert "higher than the next reading (11,025.0 h" in results[1]["error"]
     assert MeterReading.objects.filter(unit=unit, source="telematics").count() == 1
 

@@ -52,12 +52,12 @@ def test_fixed_queries_per_batch(
     body = json.dumps({"items": batch(size)})
     # 1 the token by its hash; 2 the units named by the batch's fleet numbers; 3 SAVEPOINT
     # (the batch's transaction, inside the test's); 4 the token's last use (locks its row);
-    # 5 the ids this token already sent; 6 the stored readings within the batch's span;
-    # 7-8 the nearest reading before that span, and the meter replacements near it
-    # (checks.surroundings_load); 9-10 the same after the span; 11 the meter replacements
-    # between the outermost neighbours; 12 the readings in one insert; 13 the engine events
-    # in one insert; 14 the receipts in one insert; 15 RELEASE SAVEPOINT.
-    with django_assert_num_queries(15):
+    # 5 the ids this token already sent; 6-8 the plausibility rule's readings and meter
+    # replacements for the batch (checks.meter_readings_check: the nearest stored readings
+    # outside the batch's span, those inside it, the replacements); 9 the readings in one
+    # insert; 10 the engine events in one insert; 11 the receipts in one insert; 12 RELEASE
+    # SAVEPOINT.
+    with django_assert_num_queries(12):
         response = client.post(
             URL,
             data=body,
