@@ -346,3 +346,17 @@ LOGGING = {
 
 # Planning engine
 PLANNING_BATCH_SIZE = env_int("PLANNING_BATCH_SIZE", 200, low=1)
+
+# Cache: Redis in production (the feed's per-token request counts are shared by every web
+# worker there); without CACHE_URL, each process's own memory.
+CACHE_URL = env_url("CACHE_URL", "", schemes=REDIS, example="redis://host:6379/2")
+CACHES = {
+    "default": (
+        {"BACKEND": "django.core.cache.backends.redis.RedisCache", "LOCATION": CACHE_URL}
+        if CACHE_URL
+        else {"BACKEND": "django.core.cache.backends.locmem.LocMemCache"}
+    )
+}
+# The telematics feed: requests a token may make per window of this many seconds.
+FEED_RATE_LIMIT = 60
+FEED_RATE_WINDOW_SECONDS = 60

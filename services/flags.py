@@ -81,6 +81,43 @@ def spn_label(spn: int) -> str:
     return f"SPN {spn}: {label}" if label else f"SPN {spn}"
 
 
+# FMIs that report the measured condition itself or a mechanical fault (SAE J1939-73:
+# 0/1 and 15-18 above or below normal, 7 mechanical not responding, 14 special instructions,
+# 31 condition exists), as against faults of the sensor's circuit, its data or its
+# calibration (2-6, 8-13, 19-21), which say nothing about the fuel system.
+_FMI_HIGH: Final = frozenset({0, 15, 16, 31})
+_FMI_LOW: Final = frozenset({1, 17, 18, 31})
+_FMI_CONDITION: Final = frozenset({0, 1, 7, 14, 15, 16, 17, 18, 31})
+SPN_SUPPLY_PRESSURE = (94, 1381)
+SPN_PUMPING = 1347
+SPN_FILTER_DEGRADATION = 5584
+
+
+def event_kind_classify(*, spn: int, fmi: int) -> str:
+    """The kind (one of :data:`EVENT_KINDS`) of an engine event reported as SPN + FMI.
+
+    Relief valve (SPN 5571) and pump pressurizing assembly (SPN 1347) with a condition or
+    mechanical FMI; water in fuel (SPN 97) and fuel filter differential pressure (SPN 95,
+    16/1382) or filter degradation (SPN 5584) above normal; fuel delivery or supply-pump inlet
+    pressure (SPN 94, 1381) below normal. Anything else, a circuit fault of any of these and
+    every manufacturer-proprietary SPN (above 520,191) is "other": kept, never interpreted.
+    """
+    if spn < 0 or spn > LAST_STANDARD_SPN:
+        return "other"
+    if spn == SPN_RELIEF_VALVE and fmi in _FMI_CONDITION:
+        return "relief_valve_opened"
+    if spn == SPN_PUMPING and fmi in _FMI_CONDITION:
+        return "pumping_imbalance"
+    if spn == SPN_WATER_IN_FUEL and fmi in _FMI_HIGH:
+        return "water_in_fuel"
+    filter_spns = (SPN_FUEL_FILTER_DP, *SPN_FUEL_FILTER_SUCTION_DP, SPN_FILTER_DEGRADATION)
+    if spn in filter_spns and fmi in _FMI_HIGH:
+        return "filter_dp_high"
+    if spn in SPN_SUPPLY_PRESSURE and fmi in _FMI_LOW:
+        return "supply_pressure_low"
+    return "other"
+
+
 # --------------------------------------------------------------------------- events and plans
 
 EVENT_KINDS = (

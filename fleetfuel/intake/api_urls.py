@@ -1,6 +1,10 @@
 """Machine-to-machine endpoints, under /api/v1/ (the telematics feed)."""
 
-from django.urls import path  # noqa: F401
+from django.urls import path
+
+from . import feed_views
 
 app_name = "api"
-urlpatterns: list = []  # type: ignore[type-arg]
+urlpatterns = [
+    path("telematics/", feed_views.telematics, name="telematics"),
+]

@@ -2,7 +2,7 @@
 
 from django.urls import path
 
-from . import entry_views
+from . import entry_views, feed_pages
 
 app_name = "intake"
 urlpatterns = [
@@ -12,4 +12,11 @@ urlpatterns = [
     path("delivery/", entry_views.delivery_entry, name="delivery"),
     path("sample/", entry_views.sample_entry, name="sample"),
     path("event/", entry_views.event_entry, name="event"),
+    # The telematics feed's tokens (the feed itself is under /api/v1/).
+    path("feed-tokens/", feed_pages.feed_tokens, name="feed_tokens"),
+    path(
+        "feed-tokens/<int:pk>/revoke/",
+        feed_pages.feed_token_revoke_view,
+        name="feed_token_revoke",
+    ),
 ]
