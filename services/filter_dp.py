@@ -24,6 +24,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from datetime import datetime
 
+from services.inputs import number_check
 from services.schedule import MIN_DP_READINGS, fmt_hours, plural
 
 # One-sided 95 % quantiles of Student's t by degrees of freedom (any t table, e.g. NIST/SEMATECH
@@ -55,10 +56,9 @@ class DpReading:
     fuel_temperature_c: float | None = None
 
     def __post_init__(self) -> None:
-        for name in ("hours", "dp_bar", "flow_l_per_h", "load_pct"):
-            value = getattr(self, name)
-            if value is not None and not (math.isfinite(value) and value >= 0):
-                raise ValueError(f"{name} must be a finite number, 0 or more, got {value}")
+        for name in ("hours", "dp_bar", "flow_l_per_h"):
+            number_check(name, getattr(self, name))
+        number_check("load_pct", self.load_pct, most=100.0)
         if self.fuel_temperature_c is not None and not math.isfinite(self.fuel_temperature_c):
             raise ValueError(
                 f"fuel_temperature_c must be a finite number, got {self.fuel_temperature_c}"
@@ -193,6 +193,14 @@ def dp_fit(*, readings: Sequence[DpReading], limit_bar: float, h0: float) -> DpF
     return DpFit(
         a=a, b=b, h0=h0, readings=len(usable), crossing_hours=crossing, c=c, bounded=bounded
     )
+
+
+def dp_fit_inputs(fit: DpFit | None) -> dict[str, float | int | bool] | None:
+    """The fit's parameters for a projection's JSON inputs."""
+    if fit is None:
+        return None
+    keys = ("c_bar", "a_bar", "b_per_h", "h0", "readings", "bounded")
+    return dict(zip(keys, (fit.c, fit.a, fit.b, fit.h0, fit.readings, fit.bounded), strict=True))
 
 
 def dp_limit(

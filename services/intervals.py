@@ -29,7 +29,8 @@ from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta, tzinfo
 
 from services.common import Basis, DueDate, Projection, TaskKind, UsageForecast
-from services.filter_dp import DpFit, DpReading, dp_limit
+from services.filter_dp import DpFit, DpReading, dp_fit_inputs, dp_limit
+from services.inputs import dates_check, number_check
 from services.schedule import (
     due_status,
     earliest_due,
@@ -53,6 +54,13 @@ class FilterPlan:
     soon_days: int
     due_days: int
 
+    def __post_init__(self) -> None:
+        """A NaN must never switch a limit off: every figure is a positive number or None."""
+        for name in ("interval_hours", "reference_concentration_per_ml", "reference_burn_l_per_h"):
+            number_check(f"plan {name}", getattr(self, name), positive=True)
+        number_check("plan interval_litres", self.interval_litres, positive=True)
+        number_check("plan dp_limit_bar", self.dp_limit_bar, positive=True)
+
 
 @dataclass(frozen=True, slots=True)
 class Loading:
@@ -63,6 +71,10 @@ class Loading:
     concentration_per_ml: float
     reference_assumed: bool
     label: str  # e.g. "42 L from Bulk tank B on 2026-03-04, sample S-0142: 21/19/16"
+
+    def __post_init__(self) -> None:
+        number_check(f"{self.label}: litres", self.litres)
+        number_check(f"{self.label}: concentration_per_ml", self.concentration_per_ml)
 
 
 # --------------------------------------------------------------------------- projection
@@ -122,13 +134,18 @@ def filter_projection(
 ) -> Projection:
     """Project the next change of one filter: the earliest of its limits.
 
-    Raises ValueError for a plan whose interval or reference fuel is not positive.
+    Raises ValueError, naming the field, for a number that is not finite or out of range
+    (a plan's interval or reference fuel not positive) and for anything dated after ``now``.
     """
-    fuel = (plan.interval_hours, plan.reference_burn_l_per_h, plan.reference_concentration_per_ml)
-    if min(fuel) <= 0:
-        raise ValueError(
-            "a filter plan needs a positive interval, reference burn and concentration"
-        )
+    number_check("current_concentration_per_ml", current_concentration_per_ml)
+    number_check("burn_l_per_h", burn_l_per_h)
+    number_check("last_change_hours", last_change_hours)
+    dates_check(
+        items=[("last_change_at", last_change_at)]
+        + [(f"loading {ld.label}", ld.at) for ld in loadings]
+        + [(f"dP reading at {r.hours:g} h", r.at) for r in dp_readings],
+        now=now,
+    )
     since = [ld for ld in loadings if ld.at >= last_change_at]
     used_hours = max(0.0, forecast.current_hours - last_change_hours)
     burn, burn_source, burn_sentence = _burn(burn_l_per_h=burn_l_per_h, plan=plan)
@@ -348,11 +365,7 @@ def _inputs(
         },
         "sample_labels": [ld.label for ld in since],
         "reference_assumed": bool(spend.notes),
-        "dp_fit": (
-            {"a_bar": fit.a, "b_per_h": fit.b, "h0": fit.h0, "readings": fit.readings}
-            if fit
-            else None
-        ),
+        "dp_fit": dp_fit_inputs(fit),
     }
 
 
