@@ -161,8 +161,11 @@ def measured_burn(
 
     None when the engine ran fewer than :data:`MIN_BURN_HOURS` or no fuel went in: too
     little to tell (common practice: over a long enough run, fuel put in is fuel burned).
+    Hours that are NaN, infinite or negative are refused (ValueError naming them).
     """
     (t0, h0), (t1, h1) = start, end
+    number_check("start hours", h0)
+    number_check("end hours", h1)
     hours = h1 - h0
     if hours < MIN_BURN_HOURS:
         return None

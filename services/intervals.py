@@ -30,7 +30,7 @@ from datetime import date, datetime, time, timedelta, tzinfo
 
 from services.common import Basis, DueDate, Projection, TaskKind, UsageForecast
 from services.filter_dp import DpFit, DpReading, dp_fit_inputs, dp_limit
-from services.inputs import dates_check, number_check
+from services.filter_inputs import FilterPlan, Loading, door_check
 from services.schedule import (
     due_status,
     earliest_due,
@@ -39,43 +39,6 @@ from services.schedule import (
     plural,
     sentence,
 )
-
-
-@dataclass(frozen=True, slots=True)
-class FilterPlan:
-    """The plan's limits for one filter, and the fuel they assume."""
-
-    interval_hours: float
-    interval_days: int
-    interval_litres: float | None
-    reference_concentration_per_ml: float  # in the filter's size channel
-    reference_burn_l_per_h: float
-    dp_limit_bar: float | None
-    soon_days: int
-    due_days: int
-
-    def __post_init__(self) -> None:
-        """A NaN must never switch a limit off: every figure is a positive number or None."""
-        for name in ("interval_hours", "reference_concentration_per_ml", "reference_burn_l_per_h"):
-            number_check(f"plan {name}", getattr(self, name), positive=True)
-        number_check("plan interval_litres", self.interval_litres, positive=True)
-        number_check("plan dp_limit_bar", self.dp_limit_bar, positive=True)
-
-
-@dataclass(frozen=True, slots=True)
-class Loading:
-    """Fuel burned through the filter, with its particle concentration."""
-
-    at: datetime
-    litres: float
-    concentration_per_ml: float
-    reference_assumed: bool
-    label: str  # e.g. "42 L from Bulk tank B on 2026-03-04, sample S-0142: 21/19/16"
-
-    def __post_init__(self) -> None:
-        number_check(f"{self.label}: litres", self.litres)
-        number_check(f"{self.label}: concentration_per_ml", self.concentration_per_ml)
-
 
 # --------------------------------------------------------------------------- projection
 
@@ -137,13 +100,9 @@ def filter_projection(
     Raises ValueError, naming the field, for a number that is not finite or out of range
     (a plan's interval or reference fuel not positive) and for anything dated after ``now``.
     """
-    number_check("current_concentration_per_ml", current_concentration_per_ml)
-    number_check("burn_l_per_h", burn_l_per_h)
-    number_check("last_change_hours", last_change_hours)
-    dates_check(
-        items=[("last_change_at", last_change_at)]
-        + [(f"loading {ld.label}", ld.at) for ld in loadings]
-        + [(f"dP reading at {r.hours:g} h", r.at) for r in dp_readings],
+    door_check(
+        numbers=(current_concentration_per_ml, burn_l_per_h, last_change_hours),
+        dated=(last_change_at, loadings, dp_readings),
         now=now,
     )
     since = [ld for ld in loadings if ld.at >= last_change_at]

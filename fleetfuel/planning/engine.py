@@ -12,11 +12,11 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
 from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, FuelSource, ServicePlan
+from services import filter_inputs, intervals, usage, water
 from services import flags as fl
 from services import fuel_intake as fi
 from services import fuel_quality as fq
 from services import fuel_water as fw
-from services import intervals, usage, water
 from services.common import Projection, TaskKind, UsageForecast
 from services.filter_dp import DpReading
 from services.schedule import MAX_FORECAST_DAYS
@@ -131,11 +131,14 @@ def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
     burn = None
     if len(b.readings) >= 2:
         first, last = b.readings[0], b.readings[-1]
-        burn = fi.measured_burn(
-            start=(first.at, engine_hours_at(b, first.at, first.hours)),
-            end=(last.at, engine_hours_at(b, last.at, last.hours)),
-            fuelings=fuelings,
-        )
+        try:
+            burn = fi.measured_burn(
+                start=(first.at, engine_hours_at(b, first.at, first.hours)),
+                end=(last.at, engine_hours_at(b, last.at, last.hours)),
+                fuelings=fuelings,
+            )
+        except ValueError as exc:
+            refused.append(f"measured burn rate left out: {exc}")
     return UnitFuel(
         paired=fi.quality_for_fuelings(fuelings=fuelings, samples=samples),
         source_names={
@@ -218,7 +221,7 @@ def filter_compute(
             quality.label if quality else "no sample: reference fuel assumed"
         )
         loadings.append(
-            intervals.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
+            filter_inputs.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
                               reference_assumed=assumed, label=label)
         )  # fmt: skip
     current, current_assumed = fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)
@@ -251,8 +254,8 @@ def filter_compute(
     return projection
 
 
-def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> intervals.FilterPlan:
-    return intervals.FilterPlan(
+def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> filter_inputs.FilterPlan:
+    return filter_inputs.FilterPlan(
         interval_hours=float(plan.interval_hours or 0),
         interval_days=int(plan.interval_days or MAX_FORECAST_DAYS),  # no calendar limit
         interval_litres=plan.interval_litres,

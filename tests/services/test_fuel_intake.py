@@ -161,3 +161,9 @@ def test_measured_burn_needs_ten_hours_and_some_fuel() -> None:
     ten = ((NOW - timedelta(days=2), 1_000.0), (NOW, 1_010.0))
     assert fi.measured_burn(start=ten[0], end=ten[1], fuelings=fuel) == pytest.approx(20.0)
     assert fi.measured_burn(start=ten[0], end=ten[1], fuelings=[]) is None
+
+
+@pytest.mark.parametrize("hours", [float("nan"), float("inf"), -1.0])
+def test_measured_burn_refuses_impossible_hours_by_name(hours: float) -> None:
+    with pytest.raises(ValueError, match="end hours"):
+        fi.measured_burn(start=(_at(1), 100.0), end=(_at(2), hours), fuelings=[])

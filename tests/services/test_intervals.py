@@ -20,7 +20,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
-from services.intervals import FilterPlan, Loading, filter_projection, last_change
+from services.filter_inputs import FilterPlan, Loading
+from services.intervals import filter_projection, last_change
 
 CODE_18_UPPER = 2_500.0  # ISO 4406:1999 Table 1: code 18 is >1,300 and <=2,500 per mL
 CODE_20_UPPER = 10_000.0  # ISO 4406:1999 Table 1: code 20 is >5,000 and <=10,000 per mL
