@@ -15,6 +15,7 @@ from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.engine import unit_compute
 from fleetfuel.planning.models import DueItem
 from fleetfuel.planning.selectors import batch_inputs_load
+from services.fuel_water import diesel_saturation_mg_kg
 from tests import factories as f
 from tests.planning.builders import history_make, sample_make
 
@@ -106,3 +107,27 @@ def test_refused_records_are_left_out_with_their_reason(site: Any, unit_class: A
     assert "sample S-NAN left out: " in reasons
     assert "water_mg_kg must be" in reasons or "temperature_c must be" in reasons
     assert "litres must be a finite number, 0 or more, at most 20,000" in reasons
+
+
+def test_the_depots_coldest_fuel_brings_the_drain_forward(site: Any, unit_class: Any) -> None:
+    # A sample with 80 mg/kg water tested at 15 °C: petroleum diesel holds about 59 mg/kg there
+    # but about 16 mg/kg at -10 °C (Hibbard and Schalla, NACA RM E52D24, 1952), so at a depot
+    # whose fuel gets that cold about three times as much water reaches the bowl.
+    tank = f.source_make()
+    unit = f.unit_make(site=site, unit_class=unit_class, fleet_number="W-1")
+    history_make(unit=unit, source=tank, days=20)
+    sample_make(source=tank, at=NOW - timedelta(days=30), code="18/16/13", ref="S-W")
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)
+    mild = items(unit)["separator_drain"]
+    site.coldest_fuel_c = -10.0
+    site.save()
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)
+    cold = items(unit)["separator_drain"]
+    # No drain on record, so both are due now; the water rate the sample gives is what moves.
+    ratio = (80.0 - diesel_saturation_mg_kg(temperature_c=-10.0)) / (
+        80.0 - diesel_saturation_mg_kg(temperature_c=15.0)
+    )
+    assert 2.5 < ratio < 3.5
+    assert cold.inputs["sample_rate_ml_h"] == pytest.approx(
+        mild.inputs["sample_rate_ml_h"] * ratio, rel=1e-6
+    )
