@@ -210,6 +210,7 @@ REFERENCE_CODES: Final = (18, 16, 13)  # World-Wide Fuel Charter, 6th ed. (2019)
 EN590_WATER_MAX_MG_KG: Final = 200.0  # EN 590, by EN ISO 12937
 EN590_DENSITY_RANGE: Final = (820.0, 845.0)  # EN 590, kg/m3 at 15 °C
 ASTM_D975_WATER_SEDIMENT_MAX_PCT_V: Final = 0.05  # ASTM D975 No. 1-D and 2-D, by D2709
+FUEL_TEMPERATURE_RANGE_C: Final = (-50.0, 100.0)  # outside it, not a fuel in service
 DEFAULT_DENSITY_KG_L: Final = 0.835  # a typical value inside the EN 590 range, not a limit
 
 
@@ -242,8 +243,12 @@ class FuelQuality:
             math.isfinite(self.fame_pct_v) and 0 <= self.fame_pct_v <= 100
         ):
             raise ValueError(f"fame_pct_v must be 0 to 100 % V/V, got {self.fame_pct_v}")
-        if self.temperature_c is not None and not math.isfinite(self.temperature_c):
-            raise ValueError(f"temperature_c must be a finite number, got {self.temperature_c}")
+        low, high = FUEL_TEMPERATURE_RANGE_C
+        if self.temperature_c is not None and not low <= self.temperature_c <= high:
+            raise ValueError(
+                f"temperature_c must be a number from {low:g} to {high:g} °C, "
+                f"got {self.temperature_c}"
+            )
 
 
 def channel_for_rating(rating_um: float | None) -> int:

@@ -29,7 +29,7 @@ from __future__ import annotations
 import math
 from typing import Final
 
-from services.fuel_quality import FuelQuality
+from services.fuel_quality import FUEL_TEMPERATURE_RANGE_C, FuelQuality
 
 WATER_DENSITY_KG_L: Final = 1.0  # common practice for the mg/kg <-> % vol conversion
 WATER_MOLAR_MASS_G_MOL: Final = 18.015
@@ -40,11 +40,10 @@ DIESEL_MOLAR_MASS_G_MOL: Final = 200.0  # from memory: a typical middle-distilla
 # Fregolente et al. (2012): dissolved water in B100, (temperature K, mg/kg).
 B100_SATURATION_POINTS: Final = ((283.15, 1_500.0), (323.15, 1_980.0))
 B100_TO_DIESEL_RATIO_MAX: Final = 15.0  # Fregolente et al. (2012): B100 held 10-15x diesel
-TEMPERATURE_RANGE_C: Final = (-50.0, 100.0)  # refused outside: not a fuel in service
 
 
 def _kelvin(temperature_c: float) -> float:
-    low, high = TEMPERATURE_RANGE_C
+    low, high = FUEL_TEMPERATURE_RANGE_C
     if not (math.isfinite(temperature_c) and low <= temperature_c <= high):
         raise ValueError(
             f"temperature_c must be a number from {low:g} to {high:g} °C, got {temperature_c}"

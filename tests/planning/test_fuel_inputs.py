@@ -55,6 +55,14 @@ def test_a_bad_code_is_a_field_error() -> None:
     with pytest.raises(ValidationError) as caught:
         sample.full_clean()
     assert "iso4406" in caught.value.message_dict
+    # A temperature services/ would refuse is a field error on entry, not a crash later.
+    hot = FuelSample(
+        reference="S-T", source=f.source_make(name="T"), sampled_at=NOW, water_mg_kg=50.0,
+        temperature_c=150.0,
+    )  # fmt: skip
+    with pytest.raises(ValidationError) as caught:
+        hot.full_clean()
+    assert "temperature_c" in caught.value.message_dict
 
 
 def test_the_channel_follows_the_efficiency_size_and_says_so(site: Any, unit_class: Any) -> None:

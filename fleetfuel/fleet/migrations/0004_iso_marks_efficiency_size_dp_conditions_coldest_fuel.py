@@ -132,5 +132,10 @@ class Migration(migrations.Migration):
                 verbose_name="coldest fuel temperature (°C)",
             ),
         ),
+        migrations.AlterField(
+            model_name='fuelsample',
+            name='temperature_c',
+            field=models.FloatField(blank=True, null=True, validators=[django.core.validators.MinValueValidator(-50.0), django.core.validators.MaxValueValidator(100.0)], verbose_name='temperature (°C)'),
+        ),
         migrations.RunPython(marks_from_text, migrations.RunPython.noop),
     ]

@@ -15,6 +15,7 @@ from services.fuel_intake import MAX_FUELING_LITRES
 from services.fuel_quality import (
     ABOVE_TABLE,
     FEW_COUNTED,
+    FUEL_TEMPERATURE_RANGE_C,
     codes_marked_from_counts,
     format_iso4406,
     parse_iso4406_marked,
@@ -210,7 +211,15 @@ class FuelSample(models.Model):
         blank=True,
         validators=[MinValueValidator(0), MaxValueValidator(100)],
     )
-    temperature_c = models.FloatField("temperature (°C)", null=True, blank=True)
+    temperature_c = models.FloatField(
+        "temperature (°C)",
+        null=True,
+        blank=True,
+        validators=[
+            MinValueValidator(FUEL_TEMPERATURE_RANGE_C[0]),
+            MaxValueValidator(FUEL_TEMPERATURE_RANGE_C[1]),
+        ],
+    )
     lab_method = models.CharField(
         max_length=80, blank=True, help_text="e.g. ISO 11171 APC; EN ISO 12937 (Karl Fischer)"
     )
