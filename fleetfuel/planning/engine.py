@@ -81,8 +81,11 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
     primary = b.filters.get(ComponentKind.PRIMARY_FILTER)
     plan = b.plans.get(ComponentKind.PRIMARY_FILTER)
     if primary and plan and plan.bowl_capacity_ml and plan.drain_interval_days:
-        drain = drain_compute(b, plan, fuel, forecast, now)
-        results.append(ComponentProjection(primary.pk, drain))
+        try:
+            drain = drain_compute(b, plan, fuel, forecast, now)
+            results.append(ComponentProjection(primary.pk, drain))
+        except ValueError as exc:  # a number services/ refuses: skipped, with its reason
+            skipped.append(f"{TaskKind.SEPARATOR_DRAIN.label}: {exc}")
     else:
         skipped.append(
             f"{TaskKind.SEPARATOR_DRAIN.label}: no separator plan (bowl capacity, drain interval)"
@@ -222,7 +225,7 @@ def filter_compute(
         )
         loadings.append(
             filter_inputs.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
-                              reference_assumed=assumed, label=label)
+                                  reference_assumed=assumed, label=label)
         )  # fmt: skip
     current, current_assumed = fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)
     projection = intervals.filter_projection(
@@ -290,9 +293,7 @@ def drain_compute(
             free_water_mg_kg=fw.free_water_or_reference(
                 quality=quality, reference_mg_kg=reference_water, coldest_c=coldest
             ),
-            density_kg_l=quality.density_kg_l or fq.DEFAULT_DENSITY_KG_L
-            if quality
-            else fq.DEFAULT_DENSITY_KG_L,
+            density_kg_l=(quality.density_kg_l if quality else None) or fq.DEFAULT_DENSITY_KG_L,
             label=quality.label if quality else "no sample: the plan's reference water assumed",
         )
         for fueling, quality in fuel.paired
