@@ -9,7 +9,9 @@ housing and the clean media), so the rise is fitted *above* that baseline:
 by least squares (for each b the model is linear in c and a, so b is searched on one axis and
 c, a solved exactly: the variable-projection method of Golub and Pereyra, 1973). A pure
 exponential through total dP reads the baseline as part of the rise, flattens the fitted
-growth and puts the limit late. With more readings than parameters the limit is placed where
+growth and puts the limit late. From four readings the exponential must beat a straight line
+dP = c + a (h - h0) by an F-test (Seber and Wild, section 5.3), so noise on a flat curve is not
+read as a steep rise. With more readings than parameters the limit is placed where
 the one-sided 95 % upper prediction bound of dP meets it (Student's t on the residuals, the
 parameters' covariance by the delta method: Seber and Wild, Nonlinear Regression, 1989,
 section 5.1): the earliest plausible crossing, the conservative side.
@@ -21,7 +23,7 @@ import contextlib
 import math
 import statistics
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import datetime
 
 from services.inputs import number_check
@@ -67,7 +69,8 @@ class DpReading:
 
 @dataclass(frozen=True, slots=True)
 class DpFit:
-    """dp = c + a * exp(b * (h - h0)), least squares; c is the clean element's baseline."""
+    """dp = c + a * exp(b * (h - h0)), least squares; c is the clean element's baseline.
+    With ``linear``, dp = c + a * (h - h0) (b = 0)."""
 
     a: float
     b: float
@@ -76,6 +79,7 @@ class DpFit:
     crossing_hours: float | None  # engine hours at the limit; None if the fit does not rise
     c: float = 0.0
     bounded: bool = False  # crossing placed by the upper prediction bound
+    linear: bool = False  # the straight line won the F-test
 
 
 def _linear_for(b: float, xs: Sequence[float], ys: Sequence[float]) -> tuple[float, float, float]:
@@ -105,41 +109,46 @@ def _best_b(xs: Sequence[float], ys: Sequence[float]) -> float:
     return math.exp((lo + hi) / 2)
 
 
-def _upper_bound(
-    *, params: tuple[float, float, float], xs: Sequence[float], sse: float
-) -> Callable[[float], float]:
-    """dP's one-sided 95 % upper prediction bound as a function of x (needs 4+ readings)."""
-    c, a, b = params
-    dof = len(xs) - 3
+Curve = Callable[[float], float]
+Grad = Callable[[float], tuple[float, ...]]
 
-    def grad(x: float) -> tuple[float, float, float]:
-        e = math.exp(b * x)
-        return (1.0, e, a * x * e)
 
-    jtj = [[sum(grad(x)[i] * grad(x)[j] for x in xs) for j in range(3)] for i in range(3)]
-    inv = _inverse3(jtj)
-    s2 = sse / dof
-    t = t95_one_sided(dof)
+def _upper_bound(*, curve: Curve, grad: Grad, xs: Sequence[float], sse: float) -> Curve:
+    """The curve's one-sided 95 % upper prediction bound: curve(x) + t s sqrt(1 + g' C g),
+    C = (J'J)^-1 by the delta method (for a straight line, the textbook prediction interval).
+    Needs more readings than parameters; ZeroDivisionError when J'J is singular."""
+    rows = [grad(x) for x in xs]
+    k = len(rows[0])
+    dof = len(xs) - k
+    if dof < 1:
+        raise ZeroDivisionError("no residual degrees of freedom")
+    inv = _inverse([[sum(r[i] * r[j] for r in rows) for j in range(k)] for i in range(k)])
+    s2, t = sse / dof, t95_one_sided(dof)
 
     def bound(x: float) -> float:
         g = grad(x)
-        var = s2 * (1.0 + sum(g[i] * inv[i][j] * g[j] for i in range(3) for j in range(3)))
-        return c + a * math.exp(b * x) + t * math.sqrt(max(0.0, var))
+        var = s2 * (1.0 + sum(g[i] * inv[i][j] * g[j] for i in range(k) for j in range(k)))
+        return curve(x) + t * math.sqrt(max(0.0, var))
 
     return bound
 
 
-def _inverse3(m: list[list[float]]) -> list[list[float]]:
-    (p, q, r), (s, t, u), (v, w, z) = m
-    det = p * (t * z - u * w) - q * (s * z - u * v) + r * (s * w - t * v)
-    if det == 0 or not math.isfinite(det):
-        raise ZeroDivisionError("singular")
-    adj = [
-        [t * z - u * w, r * w - q * z, q * u - r * t],
-        [u * v - s * z, p * z - r * v, r * s - p * u],
-        [s * w - t * v, q * v - p * w, p * t - q * s],
-    ]
-    return [[x / det for x in row] for row in adj]
+def _inverse(m: list[list[float]]) -> list[list[float]]:
+    """Gauss-Jordan inverse with partial pivoting (2x2 and 3x3 here)."""
+    k = len(m)
+    aug = [[*row, *(1.0 if i == j else 0.0 for j in range(k))] for i, row in enumerate(m)]
+    for col in range(k):
+        pivot = max(range(col, k), key=lambda r: abs(aug[r][col]))
+        if not math.isfinite(aug[pivot][col]) or abs(aug[pivot][col]) < 1e-300:
+            raise ZeroDivisionError("singular")
+        aug[col], aug[pivot] = aug[pivot], aug[col]
+        head = aug[col][col]
+        aug[col] = [v / head for v in aug[col]]
+        for r in range(k):
+            if r != col:
+                factor = aug[r][col]
+                aug[r] = [v - factor * w for v, w in zip(aug[r], aug[col], strict=True)]
+    return [row[k:] for row in aug]
 
 
 def _first_crossing(curve: Callable[[float], float], *, start: float, limit: float) -> float | None:
@@ -162,8 +171,13 @@ def _first_crossing(curve: Callable[[float], float], *, start: float, limit: flo
 def dp_fit(*, readings: Sequence[DpReading], limit_bar: float, h0: float) -> DpFit | None:
     """Fit dP = c + a exp(b (h - h0)) to the readings and find where it meets the limit.
 
-    Returns None with fewer than three readings or all at the same hours. A fit that does not
-    rise (a <= 0) has no crossing. A limit already seen is the crossing (observed, not
+    With four or more readings the exponential must earn its extra parameter: it is kept only
+    when it beats the straight line dP = c + a (h - h0) by an F-test at 90 % (F(1, n - 3)'s
+    quantile is t(0.95, n - 3)^2); otherwise the line is used, so noise on a flat curve is
+    not read as a steep rise. 90 % rather than 95 % leans toward the exponential, the
+    conservative side (a straight line projects late where the curve does bend up).
+    Returns None with fewer than three readings or all at the same hours. A fit that
+    does not rise has no crossing. A limit already seen is the crossing (observed, not
     projected); otherwise the crossing is never before the last reading.
     """
     usable = sorted(readings, key=lambda r: r.hours)
@@ -172,35 +186,52 @@ def dp_fit(*, readings: Sequence[DpReading], limit_bar: float, h0: float) -> DpF
     xs = [r.hours - h0 for r in usable]
     ys = [r.dp_bar for r in usable]
     try:
-        b = _best_b(xs, ys)
-        c, a, sse = _linear_for(b, xs, ys)
+        fit, curve, grad, sse = _model_choose(xs=xs, ys=ys, h0=h0)
     except (statistics.StatisticsError, OverflowError):
         return None
-    if a <= 0:
-        return DpFit(a=a, b=-abs(b), h0=h0, readings=len(usable), crossing_hours=None, c=c)
+    if fit.a <= 0:
+        return fit
     reached = [r for r in usable if r.dp_bar >= limit_bar]
-    last_x = xs[-1]
     bounded = False
     if reached:
         crossing: float | None = reached[0].hours
     else:
-        curve: Callable[[float], float] = lambda x: c + a * math.exp(b * x)  # noqa: E731
-        if len(xs) > 3:
-            with contextlib.suppress(ZeroDivisionError):
-                curve, bounded = _upper_bound(params=(c, a, b), xs=xs, sse=sse), True
-        x = _first_crossing(curve, start=last_x, limit=limit_bar)
+        with contextlib.suppress(ZeroDivisionError):
+            curve, bounded = _upper_bound(curve=curve, grad=grad, xs=xs, sse=sse), True
+        x = _first_crossing(curve, start=xs[-1], limit=limit_bar)
         crossing = None if x is None else h0 + x
-    return DpFit(
-        a=a, b=b, h0=h0, readings=len(usable), crossing_hours=crossing, c=c, bounded=bounded
-    )
+    return replace(fit, crossing_hours=crossing, bounded=bounded)
+
+
+def _model_choose(
+    *, xs: Sequence[float], ys: Sequence[float], h0: float
+) -> tuple[DpFit, Curve, Grad, float]:
+    """(fit without its crossing, its curve, its gradient in the parameters, its SSE)."""
+    n = len(xs)
+    b = _best_b(xs, ys)
+    c, a, sse = _linear_for(b, xs, ys)
+    slope, intercept = statistics.linear_regression(xs, ys)
+    sse_line = sum((y - intercept - slope * x) ** 2 for x, y in zip(xs, ys, strict=True))
+    exp_wins = n == MIN_DP_READINGS or (sse_line - sse > t95_one_sided(n - 3) ** 2 * sse / (n - 3))
+    if exp_wins and a > 0:
+        fit = DpFit(a=a, b=b, h0=h0, readings=n, crossing_hours=None, c=c)
+        return (
+            fit,
+            lambda x: c + a * math.exp(b * x),
+            lambda x: (1.0, math.exp(b * x), a * x * math.exp(b * x)),
+            sse,
+        )
+    fit = DpFit(a=slope, b=0.0, h0=h0, readings=n, crossing_hours=None, c=intercept, linear=True)
+    return fit, lambda x: intercept + slope * x, lambda x: (1.0, x), sse_line
 
 
 def dp_fit_inputs(fit: DpFit | None) -> dict[str, float | int | bool] | None:
     """The fit's parameters for a projection's JSON inputs."""
     if fit is None:
         return None
-    keys = ("c_bar", "a_bar", "b_per_h", "h0", "readings", "bounded")
-    return dict(zip(keys, (fit.c, fit.a, fit.b, fit.h0, fit.readings, fit.bounded), strict=True))
+    keys = ("c_bar", "a_bar", "b_per_h", "h0", "readings", "bounded", "linear")
+    values = (fit.c, fit.a, fit.b, fit.h0, fit.readings, fit.bounded, fit.linear)
+    return dict(zip(keys, values, strict=True))
 
 
 def dp_limit(
@@ -219,13 +250,15 @@ def dp_limit(
             f"The {fit.readings} dP readings since the change do not rise toward the limit, so "
             "no dP projection was made."
         )
-    how = (
-        "where the 95 % upper prediction bound meets"
-        if fit.bounded
-        else "where the fitted curve meets"
+    how = "the 95 % upper prediction bound meets" if fit.bounded else "the fitted curve meets"
+    rise = (
+        f"rises in a straight line, {fit.a * 100:.3g} bar per 100 h (an exponential did not fit "
+        "significantly better)"
+        if fit.linear
+        else f"rises {fit.a:.3g} bar x e^({fit.b:.3g}/h)"
     )
     return fit, (
         f"Filter dP fitted on {plural(fit.readings, 'reading')} above a clean-element baseline "
-        f"of {fit.c:.2f} bar rises {fit.a:.3g} bar x e^({fit.b:.3g}/h); the change is due "
-        f"{how} the {limit_bar:g} bar limit, at {fmt_hours(fit.crossing_hours)}."
+        f"of {fit.c:.2f} bar {rise}; the change is due where {how} the {limit_bar:g} bar "
+        f"limit, at {fmt_hours(fit.crossing_hours)}."
     )

@@ -165,3 +165,59 @@ def test_dp_reading_refuses_bad_numbers_by_name(field: str, value: float) -> Non
 def test_conditions_at_the_reading_are_kept() -> None:
     r = DpReading(CHANGED_AT, 10.0, 0.3, flow_l_per_h=120.0, load_pct=80.0, fuel_temperature_c=-5)
     assert (r.flow_l_per_h, r.load_pct, r.fuel_temperature_c) == (120.0, 80.0, -5)
+
+
+def test_a_straight_rise_uses_the_textbook_prediction_bound() -> None:
+    # dP rising linearly with noise: the exponential does not earn its extra parameter, and
+    # the crossing is where the classical one-sided 95 % prediction bound of a straight-line
+    # regression meets the limit: y + t(0.95, n-2) s sqrt(1 + 1/n + (x - mean)^2 / Sxx)
+    # (computed here with scipy.stats.linregress, scipy.stats.t and scipy.optimize.brentq).
+    stats = pytest.importorskip("scipy.stats")
+    optimize = pytest.importorskip("scipy.optimize")
+    rng = random.Random(11171)
+    hours = [float(h) for h in range(0, 251, 25)]
+    ys = [0.2 + 0.001 * h + rng.gauss(0.0, 0.01) for h in hours]
+    readings = [
+        DpReading(CHANGED_AT + timedelta(hours=h), CHANGED_HOURS + h, y)
+        for h, y in zip(hours, ys, strict=True)
+    ]
+    fit = dp_fit(readings=readings, limit_bar=1.0, h0=CHANGED_HOURS)
+    assert fit is not None and fit.linear and fit.bounded and fit.crossing_hours is not None
+    line = stats.linregress(hours, ys)
+    n = len(hours)
+    mean = sum(hours) / n
+    sxx = sum((h - mean) ** 2 for h in hours)
+    s = math.sqrt(
+        sum((y - line.intercept - line.slope * h) ** 2 for h, y in zip(hours, ys, strict=True))
+        / (n - 2)
+    )
+    t = stats.t.ppf(0.95, n - 2)
+
+    def gap(x: float) -> float:
+        spread = s * math.sqrt(1 + 1 / n + (x - mean) ** 2 / sxx)
+        return line.intercept + line.slope * x + t * spread - 1.0
+
+    expected = optimize.brentq(gap, 250.0, 5_000.0)
+    # within 0.1 h: the t table is printed to three decimals
+    assert math.isclose(fit.crossing_hours - CHANGED_HOURS, expected, abs_tol=0.1)
+    assert math.isclose(fit.a, line.slope, rel_tol=1e-9)
+
+
+def test_noise_on_a_flat_curve_is_not_read_as_a_steep_rise() -> None:
+    # A clean element reading 0.30 bar +- 0.01 bar: no projection toward a 1.0 bar limit
+    # within the next thousand hours (a free exponential would fit the last point's noise).
+    rng = random.Random(16332)
+    readings = [
+        DpReading(CHANGED_AT + timedelta(hours=h), CHANGED_HOURS + h, 0.30 + rng.gauss(0, 0.01))
+        for h in range(0, 251, 25)
+    ]
+    fit = dp_fit(readings=readings, limit_bar=1.0, h0=CHANGED_HOURS)
+    assert fit is not None and fit.linear
+    assert fit.crossing_hours is None or fit.crossing_hours - CHANGED_HOURS > 1_250
+
+
+@pytest.mark.parametrize("dof", [1, 3, 8, 20])
+def test_the_f_test_quantile_is_t_squared(dof: int) -> None:
+    # F(1, v) at 90 % equals t(0.95, v)^2 (scipy.stats.f against our t table).
+    stats = pytest.importorskip("scipy.stats")
+    assert math.isclose(t95_one_sided(dof) ** 2, stats.f.ppf(0.90, 1, dof), rel_tol=2e-3)
