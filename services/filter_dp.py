@@ -10,11 +10,11 @@ by least squares (for each b the model is linear in c and a, so b is searched on
 c, a solved exactly: the variable-projection method of Golub and Pereyra, 1973). A pure
 exponential through total dP reads the baseline as part of the rise, flattens the fitted
 growth and puts the limit late. From four readings the exponential must beat a straight line
-dP = c + a (h - h0) by an F-test (Seber and Wild, section 5.3), so noise on a flat curve is not
+dP = c + a (h - h0) by an F-test (extra-sum-of-squares), so noise on a flat curve is not
 read as a steep rise. With more readings than parameters the limit is placed where
 the one-sided 95 % upper prediction bound of dP meets it (Student's t on the residuals, the
-parameters' covariance by the delta method: Seber and Wild, Nonlinear Regression, 1989,
-section 5.1): the earliest plausible crossing, the conservative side.
+parameters' covariance by the delta method, as in Seber and Wild, Nonlinear Regression,
+1989): the earliest plausible crossing, the conservative side.
 """
 
 from __future__ import annotations
