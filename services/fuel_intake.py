@@ -9,7 +9,6 @@ in days to weeks of normal running, so older fuel has been burned).
 from __future__ import annotations
 
 import bisect
-import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime, timedelta
@@ -22,10 +21,14 @@ from services.fuel_quality import (
     concentration_or_reference,
     count_range,
 )
+from services.inputs import dates_check, number_check
 
 CURRENT_FUEL_DAYS: Final = 14  # the fuel now in use: what went in over the last two weeks ...
 CURRENT_FUEL_LAST: Final = 3  # ... or, when nothing did, the last three fuelings
 MIN_BURN_HOURS: Final = 10.0  # fewer engine hours say too little about a burn rate
+# One fueling into one machine above this is a typing error, not fuel (common practice: the
+# largest machine tanks hold a few thousand litres, a road tanker's load about 40,000 L).
+MAX_FUELING_LITRES: Final = 20_000.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -38,8 +41,7 @@ class Fueling:
     ref: str
 
     def __post_init__(self) -> None:
-        if not (math.isfinite(self.litres) and self.litres >= 0):
-            raise ValueError(f"fueling {self.ref}: litres must be 0 or more, got {self.litres}")
+        number_check(f"fueling {self.ref}: litres", self.litres, most=MAX_FUELING_LITRES)
 
 
 Paired = tuple[Fueling, FuelQuality | None]  # a fueling and the quality of the fuel it brought
@@ -133,7 +135,9 @@ def current_concentration(
     *, pairs: Sequence[Paired], now: datetime, channel: int
 ) -> tuple[float, bool]:
     """(particles per mL of the fuel now in use, litre-weighted; whether all of it had no
-    sample and the reference fuel was assumed). No fuel at all: the reference fuel."""
+    sample and the reference fuel was assumed). No fuel at all: the reference fuel.
+    A fueling dated after ``now`` is refused (ValueError naming it)."""
+    dates_check(items=[(f"fueling {f.ref}", f.at) for f, _ in pairs], now=now)
     recent = current_fuel(pairs=pairs, now=now)
     if not recent:
         return concentration_or_reference(quality=None, channel=channel)
@@ -157,8 +161,11 @@ def measured_burn(
 
     None when the engine ran fewer than :data:`MIN_BURN_HOURS` or no fuel went in: too
     little to tell (common practice: over a long enough run, fuel put in is fuel burned).
+    Hours that are NaN, infinite or negative are refused (ValueError naming them).
     """
     (t0, h0), (t1, h1) = start, end
+    number_check("start hours", h0)
+    number_check("end hours", h1)
     hours = h1 - h0
     if hours < MIN_BURN_HOURS:
         return None

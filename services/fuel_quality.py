@@ -1,21 +1,21 @@
-"""Fuel quality: ISO 4406 cleanliness codes, and water in fuel.
+"""Fuel quality: ISO 4406 cleanliness codes, and what a sample says about a fuel.
 
 Which fuel each fueling brought, and which is "current": services/fuel_intake.py.
+Water dissolved and free: services/fuel_water.py.
 
 Sources:
 
 * ISO 4406:1999 Table 1 (kept in ISO 4406:2021): scale numbers 0 to 28 for particles
   per mL at >=4, >=6 and >=14 um(c). The limits are rounded, so the table is used,
   never a 2^n formula. Each scale number covers counts *more than* its lower limit
-  *up to and including* its upper limit.
+  *up to and including* its upper limit. A count above the last range is written ">28".
+  ISO 4406:2021 marks a scale number "≥" where fewer than 20 particles were counted in
+  that size range (the figure is statistically uncertain): the mark is kept, not dropped.
+* ISO 19438 (diesel fuel filters): an element's efficiency is stated at a particle size
+  (e.g. "beta 200 at 4 um(c)"); that size picks the ISO 4406 channel that loads it.
 * World-Wide Fuel Charter, 6th edition (2019), categories 2-4: 18/16/13 at the nozzle.
 * EN 590: water <= 200 mg/kg; density at 15 °C 820-845 kg/m3.
 * ASTM D975 (No. 1-D, 2-D): water and sediment <= 0.05 % vol.
-* Dissolved water: petroleum diesel about 100-200 ppm (trade guidance); B100
-  1,500-1,980 mg/kg between 10 and 50 °C (Fregolente et al., J. Chem. Eng. Data
-  57(6):1817, 2012).
-
-"ppm" for water in fuel means mg/kg throughout (as the World-Wide Fuel Charter uses it).
 """
 
 from __future__ import annotations
@@ -28,6 +28,11 @@ from typing import Final
 
 Codes = tuple[int | None, int, int]
 Counts = tuple[float | None, float, float]
+Marks = tuple[str, str, str]  # per channel: "", FEW_COUNTED or ABOVE_TABLE
+
+FEW_COUNTED: Final = "≥"  # fewer than 20 particles counted in that range (ISO 4406:2021)
+ABOVE_TABLE: Final = ">"  # more than the last range of Table 1: ">28"
+NO_MARKS: Final[Marks] = ("", "", "")
 
 # --- ISO 4406 -------------------------------------------------------------------------
 
@@ -49,16 +54,25 @@ def scale_number(particles_per_ml: float) -> int:
     """ISO 4406 scale number for a count per mL: the code whose range holds it.
 
     A range is "more than" its lower limit "up to and including" its upper one;
-    0 particles is code 0. Counts above 2,500,000/mL are outside Table 1.
+    0 particles is code 0. Counts above 2,500,000/mL are outside Table 1: use
+    :func:`scale_number_marked`, which reads them as ">28".
     """
-    if math.isnan(particles_per_ml) or particles_per_ml < 0:
+    if not (math.isfinite(particles_per_ml) and particles_per_ml >= 0):
         raise ValueError(f"particle count must be 0 or more per mL, got {particles_per_ml}")
     if particles_per_ml > _UPPER_PER_ML[-1]:
         raise ValueError(
             f"{particles_per_ml:,.0f} particles/mL is above ISO 4406 Table 1 range "
-            f"(code {MAX_SCALE_NUMBER} ends at {_UPPER_PER_ML[-1]:,.0f}/mL)"
+            f"(code {MAX_SCALE_NUMBER} ends at {_UPPER_PER_ML[-1]:,.0f}/mL): it reads "
+            f"{ABOVE_TABLE}{MAX_SCALE_NUMBER}"
         )
     return bisect.bisect_left(_UPPER_PER_ML, particles_per_ml)
+
+
+def scale_number_marked(particles_per_ml: float) -> tuple[int, str]:
+    """(scale number, mark): above Table 1's last range, (28, ">"), written ">28"."""
+    if math.isfinite(particles_per_ml) and particles_per_ml > _UPPER_PER_ML[-1]:
+        return MAX_SCALE_NUMBER, ABOVE_TABLE
+    return scale_number(particles_per_ml), ""
 
 
 def count_range(scale_number: int) -> tuple[float, float]:
@@ -66,6 +80,11 @@ def count_range(scale_number: int) -> tuple[float, float]:
     _check_scale_number(scale_number)
     lower = 0.0 if scale_number == 0 else _UPPER_PER_ML[scale_number - 1]
     return lower, _UPPER_PER_ML[scale_number]
+
+
+# A ">28" reading has no upper limit in Table 1; it is read as the next doubling of the table's
+# pattern (common practice), so a conservative figure stays finite.
+ABOVE_TABLE_PER_ML: Final = 2 * _UPPER_PER_ML[-1]
 
 
 def _check_scale_number(code: int) -> None:
@@ -93,11 +112,20 @@ def _check_codes(codes: Codes) -> None:
 
 
 def parse_iso4406(text: str) -> Codes:
-    """Read a code such as ``18/16/13``, ``-/16/13`` or ``≥22/18/13``.
+    """Read a code such as ``18/16/13``, ``-/16/13`` or ``≥22/18/13``; the scale numbers only.
 
-    ``-`` in the first place means a microscope count (no >=4 um(c) figure).
-    A ``≥`` or ``>=`` mark (fewer than 20 particles counted) is accepted and dropped:
-    the number stands. The two-number form of ISO 4406:1987 is refused.
+    :func:`parse_iso4406_marked` also returns the marks.
+    """
+    return parse_iso4406_marked(text)[0]
+
+
+def parse_iso4406_marked(text: str) -> tuple[Codes, Marks]:
+    """Read a code with its marks: ``18/16/13``, ``-/16/13``, ``≥22/18/13``, ``>28/26/20``.
+
+    ``-`` in the first place means a microscope count (no >=4 um(c) figure). A ``≥`` or
+    ``>=`` mark (fewer than 20 particles counted, ISO 4406:2021) is kept as ``≥``; ``>``
+    is allowed only before 28 (above Table 1). The two-number form of ISO 4406:1987 is
+    refused.
     """
     parts = [part.strip() for part in text.strip().split("/")]
     if len(parts) != 3:
@@ -106,44 +134,74 @@ def parse_iso4406(text: str) -> Codes:
             message += " (ISO 4406:1999 and later use three numbers, or '-' for the first)"
         raise ValueError(message)
     numbers: list[int | None] = []
+    marks: list[str] = []
     for position, part in enumerate(parts):
         if part == "-":
             if position != 0:
                 raise ValueError("'-' (no count) is allowed only in the first place")
             numbers.append(None)
+            marks.append("")
             continue
-        bare = part
-        for mark in _MARKS:
-            if bare.startswith(mark):
-                bare = bare.removeprefix(mark).strip()
-                break
-        if not _DIGITS.fullmatch(bare):
-            raise ValueError(f"{part!r} is not a scale number")
-        numbers.append(int(bare))
+        number, mark = _part_read(part)
+        numbers.append(number)
+        marks.append(mark)
     first, second, third = numbers
     if second is None or third is None:  # unreachable: '-' only in the first place
         raise ValueError("'-' (no count) is allowed only in the first place")
     codes: Codes = (first, second, third)
     _check_codes(codes)
-    return codes
+    return codes, (marks[0], marks[1], marks[2])
 
 
-def format_iso4406(codes: Codes) -> str:
-    """Write codes as ``18/16/13`` (``-`` for a missing first number)."""
+def _part_read(part: str) -> tuple[int, str]:
+    mark = ""
+    bare = part
+    for prefix, meaning in (("≥", FEW_COUNTED), (">=", FEW_COUNTED), (">", ABOVE_TABLE)):
+        if bare.startswith(prefix):
+            bare, mark = bare.removeprefix(prefix).strip(), meaning
+            break
+    if not _DIGITS.fullmatch(bare):
+        raise ValueError(f"{part!r} is not a scale number")
+    number = int(bare)
+    if mark == ABOVE_TABLE and number != MAX_SCALE_NUMBER:
+        raise ValueError(
+            f"{part!r}: '>' is written only as >{MAX_SCALE_NUMBER}, above ISO 4406 Table 1"
+        )
+    return number, mark
+
+
+def format_iso4406(codes: Codes, marks: Marks = NO_MARKS) -> str:
+    """Write codes as ``18/16/13`` (``-`` for a missing first number), with any marks."""
     _check_codes(codes)
-    return "/".join("-" if code is None else str(code) for code in codes)
+    for mark in marks:
+        if mark not in ("", FEW_COUNTED, ABOVE_TABLE):
+            raise ValueError(f"unknown ISO 4406 mark {mark!r}")
+    return "/".join(
+        "-" if code is None else f"{mark}{code}" for code, mark in zip(codes, marks, strict=True)
+    )
 
 
 def codes_from_counts(*, per_ml: Counts) -> Codes:
     """Scale numbers for cumulative counts per mL at >=4, >=6 and >=14 um(c)."""
+    return codes_marked_from_counts(per_ml=per_ml)[0]
+
+
+def codes_marked_from_counts(*, per_ml: Counts) -> tuple[Codes, Marks]:
+    """Scale numbers and marks for cumulative counts per mL: above Table 1 reads ">28"."""
     first, second, third = per_ml
+    for count in per_ml:
+        if count is not None and not (math.isfinite(count) and count >= 0):
+            raise ValueError(f"particle counts must be 0 or more per mL, got {per_ml}")
     if (first is not None and first < second) or second < third:
         raise ValueError(f"counts {per_ml} increase with particle size: cumulative counts cannot")
-    return (
-        None if first is None else scale_number(first),
-        scale_number(second),
-        scale_number(third),
+    read = [None if count is None else scale_number_marked(count) for count in per_ml]
+    codes: Codes = (
+        None if read[0] is None else read[0][0],
+        scale_number_marked(second)[0],
+        scale_number_marked(third)[0],
     )
+    marks: Marks = tuple("" if r is None else r[1] for r in read)  # type: ignore[assignment]
+    return codes, marks
 
 
 # --- reference fuel -------------------------------------------------------------------
@@ -152,6 +210,7 @@ REFERENCE_CODES: Final = (18, 16, 13)  # World-Wide Fuel Charter, 6th ed. (2019)
 EN590_WATER_MAX_MG_KG: Final = 200.0  # EN 590, by EN ISO 12937
 EN590_DENSITY_RANGE: Final = (820.0, 845.0)  # EN 590, kg/m3 at 15 °C
 ASTM_D975_WATER_SEDIMENT_MAX_PCT_V: Final = 0.05  # ASTM D975 No. 1-D and 2-D, by D2709
+FUEL_TEMPERATURE_RANGE_C: Final = (-50.0, 100.0)  # outside it, not a fuel in service
 DEFAULT_DENSITY_KG_L: Final = 0.835  # a typical value inside the EN 590 range, not a limit
 
 
@@ -165,20 +224,35 @@ class FuelQuality:
     fame_pct_v: float | None
     temperature_c: float | None
     label: str  # where it came from, e.g. "sample S-0142 of Bulk tank B, 2026-03-04"
+    marks: Marks = NO_MARKS  # per channel, as the lab wrote them
+    density_kg_l: float | None = None  # at 15 °C: the sample's, else its source's
 
     def __post_init__(self) -> None:
         if self.codes is not None:
             _check_codes(self.codes)
+            format_iso4406(self.codes, self.marks)  # validates the marks
         if self.counts_per_ml is not None:
             codes_from_counts(per_ml=self.counts_per_ml)  # validates range and order
-        if self.water_mg_kg is not None and not self.water_mg_kg >= 0:
-            raise ValueError(f"water must be 0 mg/kg or more, got {self.water_mg_kg}")
-        if self.fame_pct_v is not None and not 0 <= self.fame_pct_v <= 100:
-            raise ValueError(f"FAME must be 0 to 100 % V/V, got {self.fame_pct_v}")
+        for name in ("water_mg_kg", "density_kg_l"):
+            value = getattr(self, name)
+            if value is not None and not (math.isfinite(value) and value >= 0):
+                raise ValueError(f"{name} must be a finite number, 0 or more, got {value}")
+        if self.density_kg_l is not None and not 0.5 <= self.density_kg_l <= 1.2:
+            raise ValueError(f"density_kg_l must be 0.5 to 1.2 kg/L, got {self.density_kg_l}")
+        if self.fame_pct_v is not None and not (
+            math.isfinite(self.fame_pct_v) and 0 <= self.fame_pct_v <= 100
+        ):
+            raise ValueError(f"fame_pct_v must be 0 to 100 % V/V, got {self.fame_pct_v}")
+        low, high = FUEL_TEMPERATURE_RANGE_C
+        if self.temperature_c is not None and not low <= self.temperature_c <= high:
+            raise ValueError(
+                f"temperature_c must be a number from {low:g} to {high:g} °C, "
+                f"got {self.temperature_c}"
+            )
 
 
 def channel_for_rating(rating_um: float | None) -> int:
-    """ISO 4406 channel whose count loads a filter of this rating (common practice).
+    """ISO 4406 channel whose count loads a filter of this nominal rating (common practice).
 
     0 (>=4 um(c)) up to 4 um; 1 (>=6 um(c)) above 4 and below 10 um; 2 (>=14 um(c))
     from 10 um. Unknown rating: channel 0, the conservative choice, because the
@@ -191,6 +265,42 @@ def channel_for_rating(rating_um: float | None) -> int:
     return 0 if rating_um <= 4 else 1 if rating_um < 10 else 2
 
 
+def channel_for_efficiency_size(size_um_c: float) -> int:
+    """ISO 4406 channel for an element whose efficiency is rated at this size (ISO 19438).
+
+    The largest channel size at or below the rated size: the count there includes every
+    particle the element is rated to stop, so the loading is not understated. Rated at
+    4 um(c): channel 0; at 6 up to below 14: channel 1; from 14: channel 2. Below 4: 0.
+    """
+    if not (math.isfinite(size_um_c) and size_um_c > 0):
+        raise ValueError(f"efficiency size must be a positive number of um(c), got {size_um_c}")
+    return 2 if size_um_c >= 14 else 1 if size_um_c >= 6 else 0
+
+
+def filter_channel(
+    *, efficiency_size_um_c: float | None, nominal_rating_um: float | None
+) -> tuple[int, str]:
+    """(channel, sentence): by the size the element's efficiency is rated at (ISO 19438);
+    without it, by the nominal micrometre rating, and the sentence says it is a fallback."""
+    size = CHANNEL_SIZES_UM
+    if efficiency_size_um_c is not None:
+        channel = channel_for_efficiency_size(efficiency_size_um_c)
+        return channel, (
+            f"Dirt is counted at >={size[channel]} um(c), the channel at or below the "
+            f"{efficiency_size_um_c:g} um(c) size its efficiency is rated at (ISO 19438)."
+        )
+    channel = channel_for_rating(nominal_rating_um)
+    basis = (
+        "no rating is recorded"
+        if nominal_rating_um is None
+        else f"from its nominal {nominal_rating_um:g} um rating"
+    )
+    return channel, (
+        f"Dirt is counted at >={size[channel]} um(c), {basis}: record the size its "
+        "efficiency is rated at (ISO 19438) to choose the channel by it."
+    )
+
+
 def channel_check(channel: int) -> None:
     if channel not in (0, 1, 2):
         raise ValueError(f"channel must be 0, 1 or 2 (>=4, >=6, >=14 um(c)), got {channel}")
@@ -199,7 +309,8 @@ def channel_check(channel: int) -> None:
 def concentration_per_ml(*, quality: FuelQuality, channel: int) -> float:
     """Particles per mL in one channel: the lab count, else the code's upper limit.
 
-    The upper limit of the code's range is the conservative reading of a code.
+    The upper limit of the code's range is the conservative reading of a code; ">28"
+    reads as :data:`ABOVE_TABLE_PER_ML`.
     Raises LookupError when the sample has nothing for that channel.
     """
     channel_check(channel)
@@ -210,6 +321,8 @@ def concentration_per_ml(*, quality: FuelQuality, channel: int) -> float:
     if quality.codes is not None:
         code = quality.codes[channel]
         if code is not None:
+            if quality.marks[channel] == ABOVE_TABLE:
+                return ABOVE_TABLE_PER_ML
             return count_range(code)[1]
     raise LookupError(f"{quality.label} has no count at >={CHANNEL_SIZES_UM[channel]} um(c)")
 
@@ -237,97 +350,3 @@ def plan_reference_concentration(*, reference_iso4406: str, channel: int) -> flo
     channel_check(channel)
     code = parse_iso4406(reference_iso4406)[channel]
     return count_range(REFERENCE_CODES[channel] if code is None else code)[1]
-
-
-# --- water ----------------------------------------------------------------------------
-
-WATER_DENSITY_KG_L: Final = 1.0  # common practice for the mg/kg <-> % vol conversion
-DEFAULT_FUEL_TEMPERATURE_C: Final = 15.0  # EN 590 reference temperature for density
-
-# Dissolved-water saturation, mg/kg, linear between the two ends of the measured range.
-# B100: Fregolente et al. (2012), 1,500 mg/kg at 10 °C to 1,980 mg/kg at 50 °C.
-# Petroleum diesel: a linear model through the ends of the trade-guidance band
-# (100-200 ppm) placed at the same temperatures. A model, not a measurement.
-SATURATION_TEMPERATURE_RANGE_C: Final = (10.0, 50.0)
-_DIESEL_SATURATION_MG_KG: Final = (100.0, 200.0)
-_B100_SATURATION_MG_KG: Final = (1_500.0, 1_980.0)
-
-
-def mg_kg_to_pct_vol(*, mg_kg: float, density_kg_l: float) -> float:
-    """Water by mass (mg/kg, "ppm") to % by volume: mg/kg x density [kg/L] / 10,000.
-
-    Takes water at 1 kg/L. Example: 200 mg/kg in fuel of 0.820 kg/L is 0.0164 % vol.
-    """
-    _check_water_args(amount=mg_kg, density_kg_l=density_kg_l)
-    return mg_kg * density_kg_l / WATER_DENSITY_KG_L / 10_000.0
-
-
-def pct_vol_to_mg_kg(*, pct_vol: float, density_kg_l: float) -> float:
-    """Water % by volume to mg/kg ("ppm"); the inverse of :func:`mg_kg_to_pct_vol`."""
-    _check_water_args(amount=pct_vol, density_kg_l=density_kg_l)
-    return pct_vol * 10_000.0 * WATER_DENSITY_KG_L / density_kg_l
-
-
-def _check_water_args(*, amount: float, density_kg_l: float) -> None:
-    if not amount >= 0:
-        raise ValueError(f"water content must be 0 or more, got {amount}")
-    if not (math.isfinite(density_kg_l) and density_kg_l > 0):
-        raise ValueError(f"fuel density must be a positive number of kg/L, got {density_kg_l}")
-
-
-def dissolved_water_saturation_mg_kg(*, temperature_c: float, fame_pct_v: float) -> float:
-    """Most water (mg/kg) the fuel holds dissolved at this temperature and FAME content.
-
-    Temperature is clamped to 10-50 °C, the range of the B100 measurements; below
-    10 °C this overstates what the fuel can hold, so free water is understated there.
-    A blend is interpolated linearly by FAME fraction (an approximation, common practice).
-    """
-    if math.isnan(temperature_c):
-        raise ValueError("temperature must be a number")
-    if not 0 <= fame_pct_v <= 100:
-        raise ValueError(f"FAME must be 0 to 100 % V/V, got {fame_pct_v}")
-    low_t, high_t = SATURATION_TEMPERATURE_RANGE_C
-    share = (min(max(temperature_c, low_t), high_t) - low_t) / (high_t - low_t)
-    diesel = _DIESEL_SATURATION_MG_KG[0] + share * (
-        _DIESEL_SATURATION_MG_KG[1] - _DIESEL_SATURATION_MG_KG[0]
-    )
-    b100 = _B100_SATURATION_MG_KG[0] + share * (
-        _B100_SATURATION_MG_KG[1] - _B100_SATURATION_MG_KG[0]
-    )
-    fame = fame_pct_v / 100.0
-    return (1.0 - fame) * diesel + fame * b100
-
-
-def free_water_mg_kg(
-    *, total_mg_kg: float, temperature_c: float | None, fame_pct_v: float | None
-) -> float:
-    """Water above saturation (what a separator can remove), never below 0.
-
-    Unknown temperature: 15 °C (the EN 590 reference temperature for density).
-    Unknown FAME: 0 (petroleum diesel).
-    """
-    if not total_mg_kg >= 0:
-        raise ValueError(f"water content must be 0 mg/kg or more, got {total_mg_kg}")
-    saturation = dissolved_water_saturation_mg_kg(
-        temperature_c=DEFAULT_FUEL_TEMPERATURE_C if temperature_c is None else temperature_c,
-        fame_pct_v=0.0 if fame_pct_v is None else fame_pct_v,
-    )
-    return max(0.0, total_mg_kg - saturation)
-
-
-def free_water_or_reference(*, quality: FuelQuality | None, reference_mg_kg: float) -> float:
-    """Free water (mg/kg) in a fuel: its sample's water, else the plan's reference water.
-
-    The sample's temperature and FAME apply either way; without a sample, the defaults of
-    :func:`free_water_mg_kg` (15 °C, petroleum diesel).
-    """
-    total = (
-        quality.water_mg_kg
-        if quality is not None and quality.water_mg_kg is not None
-        else reference_mg_kg
-    )
-    return free_water_mg_kg(
-        total_mg_kg=total,
-        temperature_c=quality.temperature_c if quality is not None else None,
-        fame_pct_v=quality.fame_pct_v if quality is not None else None,
-    )

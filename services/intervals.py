@@ -29,7 +29,8 @@ from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta, tzinfo
 
 from services.common import Basis, DueDate, Projection, TaskKind, UsageForecast
-from services.filter_dp import DpFit, DpReading, dp_limit
+from services.filter_dp import DpFit, DpReading, dp_fit_inputs, dp_limit
+from services.filter_inputs import FilterPlan, Loading, door_check
 from services.schedule import (
     due_status,
     earliest_due,
@@ -38,32 +39,6 @@ from services.schedule import (
     plural,
     sentence,
 )
-
-
-@dataclass(frozen=True, slots=True)
-class FilterPlan:
-    """The plan's limits for one filter, and the fuel they assume."""
-
-    interval_hours: float
-    interval_days: int
-    interval_litres: float | None
-    reference_concentration_per_ml: float  # in the filter's size channel
-    reference_burn_l_per_h: float
-    dp_limit_bar: float | None
-    soon_days: int
-    due_days: int
-
-
-@dataclass(frozen=True, slots=True)
-class Loading:
-    """Fuel burned through the filter, with its particle concentration."""
-
-    at: datetime
-    litres: float
-    concentration_per_ml: float
-    reference_assumed: bool
-    label: str  # e.g. "42 L from Bulk tank B on 2026-03-04, sample S-0142: 21/19/16"
-
 
 # --------------------------------------------------------------------------- projection
 
@@ -122,13 +97,14 @@ def filter_projection(
 ) -> Projection:
     """Project the next change of one filter: the earliest of its limits.
 
-    Raises ValueError for a plan whose interval or reference fuel is not positive.
+    Raises ValueError, naming the field, for a number that is not finite or out of range
+    (a plan's interval or reference fuel not positive) and for anything dated after ``now``.
     """
-    fuel = (plan.interval_hours, plan.reference_burn_l_per_h, plan.reference_concentration_per_ml)
-    if min(fuel) <= 0:
-        raise ValueError(
-            "a filter plan needs a positive interval, reference burn and concentration"
-        )
+    door_check(
+        numbers=(current_concentration_per_ml, burn_l_per_h, last_change_hours),
+        dated=(last_change_at, loadings, dp_readings),
+        now=now,
+    )
     since = [ld for ld in loadings if ld.at >= last_change_at]
     used_hours = max(0.0, forecast.current_hours - last_change_hours)
     burn, burn_source, burn_sentence = _burn(burn_l_per_h=burn_l_per_h, plan=plan)
@@ -348,11 +324,7 @@ def _inputs(
         },
         "sample_labels": [ld.label for ld in since],
         "reference_assumed": bool(spend.notes),
-        "dp_fit": (
-            {"a_bar": fit.a, "b_per_h": fit.b, "h0": fit.h0, "readings": fit.readings}
-            if fit
-            else None
-        ),
+        "dp_fit": dp_fit_inputs(fit),
     }
 
 

@@ -99,9 +99,15 @@ def canonical_value(value: object) -> object:
     return _canonical_value(value)
 
 
-# 49 CFR 396.3(c): records are kept for 1 year, and for 6 months after the vehicle leaves the
-# carrier's control. fleetfuel keeps a disposed unit's history at least this long after disposal.
-RETENTION_MONTHS_AFTER_DISPOSAL = 18
+# 49 CFR 396.3(c): the records "shall be retained where the vehicle is either housed or
+# maintained for a period of 1 year and for 6 months after the motor vehicle leaves the motor
+# carrier's control". Two clocks: each record 1 year from when it is made, and all of a unit's
+# records 6 months past its disposal. fleetfuel keeps whichever runs longer.
+# Beside it, in Great Britain an operator licence holder keeps maintenance records for at least
+# 15 months (DVSA, Guide to maintaining roadworthiness): shown, not computed.
+RETENTION_MONTHS_PER_RECORD = 12
+RETENTION_MONTHS_AFTER_DISPOSAL = 6
+UK_OPERATOR_RECORD_MONTHS = 15
 
 
 def months_add(day: date, months: int) -> date:
@@ -113,6 +119,14 @@ def months_add(day: date, months: int) -> date:
     return date(year, month, min(day.day, last_day))
 
 
-def retention_ends_on(*, disposed_on: date) -> date:
-    """The first day a disposed unit's history is past its retention period."""
-    return months_add(disposed_on, RETENTION_MONTHS_AFTER_DISPOSAL)
+def retention_ends_on(*, disposed_on: date, last_record_on: date | None) -> date:
+    """The first day a disposed unit's history is past its 49 CFR 396.3(c) retention period.
+
+    The later of 6 months after disposal and 1 year after the unit's newest record
+    (``last_record_on``, the day its newest service event was performed; None when it has
+    none).
+    """
+    after_disposal = months_add(disposed_on, RETENTION_MONTHS_AFTER_DISPOSAL)
+    if last_record_on is None:
+        return after_disposal
+    return max(after_disposal, months_add(last_record_on, RETENTION_MONTHS_PER_RECORD))

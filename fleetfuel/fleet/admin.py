@@ -20,7 +20,7 @@ from .models import (
 
 @admin.register(Site)
 class SiteAdmin(admin.ModelAdmin):
-    list_display = ["name", "code", "time_zone", "unit_system"]
+    list_display = ["name", "code", "time_zone", "unit_system", "coldest_fuel_c"]
     search_fields = ["name", "code"]
 
 
@@ -38,6 +38,7 @@ class ComponentInline(admin.TabularInline):
         "part_number",
         "serial",
         "rating_um",
+        "efficiency_size_um_c",
         "installed_on",
         "installed_hours",
         "removed_on",
@@ -145,6 +146,13 @@ class EngineEventAdmin(admin.ModelAdmin):
 
 @admin.register(FilterPressureReading)
 class FilterPressureReadingAdmin(admin.ModelAdmin):
-    list_display = ["component", "taken_at", "hours", "dp_bar"]
+    list_display = [
+        "component",
+        "taken_at",
+        "hours",
+        "dp_bar",
+        "flow_l_per_h",
+        "fuel_temperature_c",
+    ]
     search_fields = ["component__unit__fleet_number"]
     list_select_related = ["component__unit"]

@@ -201,22 +201,34 @@ class RetentionError(Exception):
 def unit_history_purge(*, unit: Unit, today: date) -> None:
     """Refuse, always: fleetfuel does not purge service history.
 
-    49 CFR 396.3(c) asks for the records to be kept 1 year, and 6 months after the unit leaves
-    the operator's control; fleetfuel keeps a disposed unit's history at least 18 months after
-    disposal, and after that still refuses: the history is append-only and hash-chained, and a
-    removed entry would break the chain. Export the unit's history and archive it instead.
+    49 CFR 396.3(c) asks for the records to be kept where the unit is housed or maintained for
+    1 year, and for 6 months after the unit leaves the operator's control; fleetfuel keeps a
+    disposed unit's history until the later of 6 months after disposal and 1 year after its
+    newest record, and after that still refuses: the history is append-only and hash-chained,
+    and a removed entry would break the chain. Export the unit's history and archive it instead.
+    (In Great Britain, operator licence holders keep maintenance records for 15 months: DVSA,
+    Guide to maintaining roadworthiness.)
     """
     if unit.disposed_on is None:
         raise RetentionError(
-            f"{unit.fleet_number} is still in service: its history must be kept "
-            "(49 CFR 396.3(c): 1 year, and 6 months after the unit leaves your control)."
+            f"{unit.fleet_number} is still in service: its history must be kept (49 CFR "
+            "396.3(c): 1 year where the unit is housed or maintained, and 6 months after it "
+            "leaves your control; in Great Britain 15 months, DVSA Guide to maintaining "
+            "roadworthiness)."
         )
-    ends_on = retention_ends_on(disposed_on=unit.disposed_on)
+    newest = (
+        ServiceEvent.objects.filter(unit=unit)
+        .order_by("-performed_at")
+        .values_list("performed_at", flat=True)
+        .first()
+    )
+    last_record_on = None if newest is None else timezone.localdate(newest)
+    ends_on = retention_ends_on(disposed_on=unit.disposed_on, last_record_on=last_record_on)
     if today < ends_on:
         raise RetentionError(
             f"{unit.fleet_number} was disposed of on {unit.disposed_on:%Y-%m-%d}: its history "
-            f"must be kept until {ends_on:%Y-%m-%d} (1 year and 6 months after disposal, "
-            "49 CFR 396.3(c)). Purging is refused."
+            f"must be kept until {ends_on:%Y-%m-%d} (49 CFR 396.3(c): 6 months after disposal "
+            "and 1 year after the newest record, whichever is later). Purging is refused."
         )
     raise RetentionError(
         f"The retention period of {unit.fleet_number} ended on {ends_on:%Y-%m-%d}, but fleetfuel "

@@ -8,14 +8,15 @@ in services/.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
-from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, ServicePlan
+from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, FuelSource, ServicePlan
+from services import filter_inputs, intervals, usage, water
 from services import flags as fl
 from services import fuel_intake as fi
 from services import fuel_quality as fq
-from services import intervals, usage, water
+from services import fuel_water as fw
 from services.common import Projection, TaskKind, UsageForecast
 from services.filter_dp import DpReading
 from services.schedule import MAX_FORECAST_DAYS
@@ -53,6 +54,7 @@ class UnitFuel:
     source_names: dict[int, str]  # by fueling id
     events: list[fl.EngineEvent]
     burn: float | None  # measured L/h over the forecast window, when there is enough to tell
+    refused: list[str] = field(default_factory=list)  # records left out, each with its reason
 
 
 def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
@@ -63,20 +65,27 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
         return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0)
     fuel = unit_fuel(b, batch)
     results: list[ComponentProjection] = []
-    skipped: list[str] = []
+    skipped: list[str] = list(fuel.refused)
     for comp_kind, task in FILTER_TASKS.items():
         comp = b.filters.get(comp_kind)
         plan = b.plans.get(comp_kind)
         if comp is None or plan is None or not plan.interval_hours:
             skipped.append(f"{task.label}: no fitted filter or no plan with an hour interval")
             continue
-        projection = filter_compute(b, comp, plan, task, fuel, forecast, now)
+        try:
+            projection = filter_compute(b, comp, plan, task, fuel, forecast, now)
+        except ValueError as exc:  # a number services/ refuses: skipped, with its reason
+            skipped.append(f"{task.label}: {exc}")
+            continue
         results.append(ComponentProjection(comp.pk, projection))
     primary = b.filters.get(ComponentKind.PRIMARY_FILTER)
     plan = b.plans.get(ComponentKind.PRIMARY_FILTER)
     if primary and plan and plan.bowl_capacity_ml and plan.drain_interval_days:
-        drain = drain_compute(b, plan, fuel, forecast, now)
-        results.append(ComponentProjection(primary.pk, drain))
+        try:
+            drain = drain_compute(b, plan, fuel, forecast, now)
+            results.append(ComponentProjection(primary.pk, drain))
+        except ValueError as exc:  # a number services/ refuses: skipped, with its reason
+            skipped.append(f"{TaskKind.SEPARATOR_DRAIN.label}: {exc}")
     else:
         skipped.append(
             f"{TaskKind.SEPARATOR_DRAIN.label}: no separator plan (bowl capacity, drain interval)"
@@ -103,32 +112,36 @@ def engine_hours_at(b: UnitInputs, at: datetime, meter: float) -> float:
 
 
 def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
-    samples = [
-        fi.Sample(
-            at=s.sampled_at,
-            source_id=s.source_id,
-            unit_sample=False,
-            quality=sample_quality(s, batch.sources[s.source_id].name if s.source_id else None),
-        )
-        for s in batch.source_samples
-    ] + [
-        fi.Sample(
-            at=s.sampled_at, source_id=None, unit_sample=True, quality=sample_quality(s, None)
-        )
-        for s in b.unit_samples
-    ]
-    fuelings = [
-        fi.Fueling(at=f.fueled_at, litres=f.litres, source_id=f.source_id, ref=str(f.pk))
-        for f in b.fuelings
-    ]
+    refused: list[str] = []  # records services/ refuses (NaN, infinity, out of range)
+    samples: list[fi.Sample] = []
+    for s in [*batch.source_samples, *b.unit_samples]:
+        source = batch.sources[s.source_id] if s.source_id else None
+        try:
+            quality = sample_quality(s, source)
+        except ValueError as exc:
+            refused.append(f"sample {s.reference} left out: {exc}")
+            continue
+        samples.append(fi.Sample(at=s.sampled_at, source_id=s.source_id,
+                                 unit_sample=s.unit_id is not None, quality=quality))  # fmt: skip
+    fuelings: list[fi.Fueling] = []
+    for f in b.fuelings:
+        try:
+            fuelings.append(
+                fi.Fueling(at=f.fueled_at, litres=f.litres, source_id=f.source_id, ref=str(f.pk))
+            )
+        except ValueError as exc:
+            refused.append(f"fueling of {f.fueled_at:%Y-%m-%d} left out: {exc}")
     burn = None
     if len(b.readings) >= 2:
         first, last = b.readings[0], b.readings[-1]
-        burn = fi.measured_burn(
-            start=(first.at, engine_hours_at(b, first.at, first.hours)),
-            end=(last.at, engine_hours_at(b, last.at, last.hours)),
-            fuelings=fuelings,
-        )
+        try:
+            burn = fi.measured_burn(
+                start=(first.at, engine_hours_at(b, first.at, first.hours)),
+                end=(last.at, engine_hours_at(b, last.at, last.hours)),
+                fuelings=fuelings,
+            )
+        except ValueError as exc:
+            refused.append(f"measured burn rate left out: {exc}")
     return UnitFuel(
         paired=fi.quality_for_fuelings(fuelings=fuelings, samples=samples),
         source_names={
@@ -147,11 +160,13 @@ def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
             for e in b.events
         ],
         burn=burn,
+        refused=refused,
     )
 
 
-def sample_quality(sample: FuelSample, source_name: str | None) -> fq.FuelQuality:
-    where = f"of {source_name}" if source_name else "from the unit's tank"
+def sample_quality(sample: FuelSample, source: FuelSource | None) -> fq.FuelQuality:
+    """The sample as services read it; the source's FAME and density where it has none."""
+    where = f"of {source.name}" if source else "from the unit's tank"
     codes = (
         (sample.code_4, sample.code_6, sample.code_14)
         if sample.code_6 is not None and sample.code_14 is not None
@@ -164,14 +179,19 @@ def sample_quality(sample: FuelSample, source_name: str | None) -> fq.FuelQualit
     )
     shown = sample.iso4406 or "no particle code"
     water_txt = f", water {sample.water_mg_kg:.0f} mg/kg" if sample.water_mg_kg is not None else ""
+    fame = sample.fame_pct_v
+    if fame is None and source is not None:
+        fame = source.fame_pct_v
     return fq.FuelQuality(
         codes=codes,  # type: ignore[arg-type]
         counts_per_ml=counts,  # type: ignore[arg-type]
         water_mg_kg=sample.water_mg_kg,
-        fame_pct_v=sample.fame_pct_v,
+        fame_pct_v=fame,
         temperature_c=sample.temperature_c,
         label=f"sample {sample.reference} {where}, {sample.sampled_at:%Y-%m-%d}: "
         f"{shown}{water_txt}",
+        marks=(sample.mark_4, sample.mark_6, sample.mark_14),
+        density_kg_l=source.density_kg_l if source is not None else None,
     )
 
 
@@ -184,7 +204,9 @@ def filter_compute(
     forecast: UsageForecast,
     now: datetime,
 ) -> Projection:
-    channel = fq.channel_for_rating(comp.rating_um)
+    channel, channel_note = fq.filter_channel(
+        efficiency_size_um_c=comp.efficiency_size_um_c, nominal_rating_um=comp.rating_um
+    )
     changed_at, changed_meter, _ = b.last_change.get(comp.kind, (None, None, None))
     last_at, last_meter = intervals.last_change(
         changed_at=changed_at,
@@ -202,11 +224,11 @@ def filter_compute(
             quality.label if quality else "no sample: reference fuel assumed"
         )
         loadings.append(
-            intervals.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
-                              reference_assumed=assumed, label=label)
+            filter_inputs.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
+                                  reference_assumed=assumed, label=label)
         )  # fmt: skip
     current, current_assumed = fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)
-    return intervals.filter_projection(
+    projection = intervals.filter_projection(
         task=task,
         plan=filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h),
         last_change_at=last_at,
@@ -216,7 +238,14 @@ def filter_compute(
         current_reference_assumed=current_assumed,
         burn_l_per_h=fuel.burn,
         dp_readings=[
-            DpReading(at=r.taken_at, hours=engine_hours_at(b, r.taken_at, r.hours), dp_bar=r.dp_bar)
+            DpReading(
+                at=r.taken_at,
+                hours=engine_hours_at(b, r.taken_at, r.hours),
+                dp_bar=r.dp_bar,
+                flow_l_per_h=r.flow_l_per_h,
+                load_pct=r.load_pct,
+                fuel_temperature_c=r.fuel_temperature_c,
+            )
             for r in b.dp_readings.get(comp.pk, [])
             if r.taken_at >= last_at
         ],
@@ -224,10 +253,12 @@ def filter_compute(
         now=now,
         priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
     )
+    projection.explanation.append(channel_note)
+    return projection
 
 
-def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> intervals.FilterPlan:
-    return intervals.FilterPlan(
+def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> filter_inputs.FilterPlan:
+    return filter_inputs.FilterPlan(
         interval_hours=float(plan.interval_hours or 0),
         interval_days=int(plan.interval_days or MAX_FORECAST_DAYS),  # no calendar limit
         interval_litres=plan.interval_litres,
@@ -253,14 +284,16 @@ def drain_compute(
     last = records[-1] if records else None
     since = last.at if last else now - timedelta(days=plan.drain_interval_days)
     reference_water = plan.reference_water_mg_kg
+    coldest = b.unit.site.coldest_fuel_c  # the depot's coldest fuel, where it is set
+    latest = fi.latest_fuel_quality(pairs=fuel.paired)
     intakes = [
         water.WaterIntake(
             at=fueling.at,
             litres=fueling.litres,
-            free_water_mg_kg=fq.free_water_or_reference(
-                quality=quality, reference_mg_kg=reference_water
+            free_water_mg_kg=fw.free_water_or_reference(
+                quality=quality, reference_mg_kg=reference_water, coldest_c=coldest
             ),
-            density_kg_l=fq.DEFAULT_DENSITY_KG_L,
+            density_kg_l=(quality.density_kg_l if quality else None) or fq.DEFAULT_DENSITY_KG_L,
             label=quality.label if quality else "no sample: the plan's reference water assumed",
         )
         for fueling, quality in fuel.paired
@@ -282,10 +315,10 @@ def drain_compute(
         burn_l_per_h=fuel.burn
         or plan.reference_burn_l_per_h
         or b.unit.unit_class.typical_burn_l_per_h,
-        current_free_water_mg_kg=fq.free_water_or_reference(
-            quality=fi.latest_fuel_quality(pairs=fuel.paired), reference_mg_kg=reference_water
+        current_free_water_mg_kg=fw.free_water_or_reference(
+            quality=latest, reference_mg_kg=reference_water, coldest_c=coldest
         ),
-        density_kg_l=fq.DEFAULT_DENSITY_KG_L,
+        density_kg_l=(latest.density_kg_l if latest else None) or fq.DEFAULT_DENSITY_KG_L,
         forecast=forecast,
         water_in_fuel_since_drain=fl.water_event_since(events=fuel.events, since=since),
         now=now,

@@ -58,6 +58,17 @@ def test_months_add_clamps_to_the_end_of_a_short_month() -> None:
     assert months_add(date(2023, 8, 31), 6) == date(2024, 2, 29)
 
 
-def test_retention_runs_one_year_and_six_months_after_disposal() -> None:
-    # 49 CFR 396.3(c): kept 1 year, and 6 months after the vehicle leaves the carrier's control.
-    assert retention_ends_on(disposed_on=date(2025, 3, 15)) == date(2026, 9, 15)
+def test_retention_is_six_months_after_disposal_or_a_year_after_the_newest_record() -> None:
+    # 49 CFR 396.3(c): kept "for a period of 1 year and for 6 months after the motor vehicle
+    # leaves the motor carrier's control". Not 18 months after disposal.
+    assert retention_ends_on(disposed_on=date(2025, 3, 15), last_record_on=None) == date(
+        2025, 9, 15
+    )
+    # newest record long before disposal: the 6 months after disposal decide
+    assert retention_ends_on(
+        disposed_on=date(2025, 3, 15), last_record_on=date(2024, 1, 10)
+    ) == date(2025, 9, 15)
+    # a record a month before disposal is kept its full year
+    assert retention_ends_on(
+        disposed_on=date(2025, 3, 15), last_record_on=date(2025, 2, 14)
+    ) == date(2026, 2, 14)

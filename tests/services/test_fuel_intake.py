@@ -71,9 +71,13 @@ def test_volume_weighted_concentration_with_no_fuel_is_the_reference():
     assert (mean, reference_litres, labels) == (80.0, 0.0, [])  # 13 -> 80/mL, Table 1
 
 
-def test_negative_fueling_is_refused():
-    with pytest.raises(ValueError, match="litres"):
-        fi.Fueling(at=_at(1), litres=-1.0, source_id=None, ref="F9")
+@pytest.mark.parametrize("litres", [-1.0, float("nan"), float("inf"), 1e12, 20_000.1])
+def test_impossible_fuelings_are_refused_by_name(litres):
+    # A 10^12 L fueling is a typing error; one fueling into one machine above 20,000 L is too
+    # (common practice: machine tanks hold a few thousand litres).
+    with pytest.raises(ValueError, match="fueling F9: litres"):
+        fi.Fueling(at=_at(1), litres=litres, source_id=None, ref="F9")
+    assert fi.Fueling(at=_at(1), litres=20_000.0, source_id=None, ref="F9").litres == 20_000.0
 
 
 # --- the fuel now in use ---------------------------------------------------------------
@@ -110,6 +114,12 @@ def test_current_concentration_hand_worked() -> None:
     concentration, assumed = fi.current_concentration(pairs=pairs, now=NOW, channel=0)
     assert concentration == pytest.approx((8 * 2_500 + 6 * 10_000) / 14)
     assert assumed is False
+
+
+def test_a_fueling_after_now_is_refused_by_name() -> None:
+    later = (_fueled(-1.0, ref="F-late"), None)
+    with pytest.raises(ValueError, match="fueling F-late: dated .* after now"):
+        fi.current_concentration(pairs=[(_fueled(2), None), later], now=NOW, channel=0)
 
 
 def test_current_concentration_without_samples_or_fuel_is_the_reference() -> None:
@@ -151,3 +161,9 @@ def test_measured_burn_needs_ten_hours_and_some_fuel() -> None:
     ten = ((NOW - timedelta(days=2), 1_000.0), (NOW, 1_010.0))
     assert fi.measured_burn(start=ten[0], end=ten[1], fuelings=fuel) == pytest.approx(20.0)
     assert fi.measured_burn(start=ten[0], end=ten[1], fuelings=[]) is None
+
+
+@pytest.mark.parametrize("hours", [float("nan"), float("inf"), -1.0])
+def test_measured_burn_refuses_impossible_hours_by_name(hours: float) -> None:
+    with pytest.raises(ValueError, match="end hours"):
+        fi.measured_burn(start=(_at(1), 100.0), end=(_at(2), hours), fuelings=[])

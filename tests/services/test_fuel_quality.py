@@ -1,5 +1,6 @@
-"""Fuel quality checked against ISO 4406 Table 1, EN 590, ASTM D975, the World-Wide Fuel
-Charter, Fregolente et al. (2012), hand-worked figures and pint."""
+"""Fuel quality checked against ISO 4406 Table 1 (1999, kept in 2021) and its worked example,
+ISO 4406:2021's marks, ISO 19438's efficiency size, EN 590, ASTM D975, the World-Wide Fuel
+Charter, hand-worked figures and pint. Water in fuel: test_fuel_water.py."""
 
 from __future__ import annotations
 
@@ -66,14 +67,34 @@ def test_zero_particles_is_code_0_and_negative_is_refused():
         fq.scale_number(-1.0)
 
 
-def test_above_table_1_is_refused_not_clamped():
-    # ISO 4406:1999 Table 1 ends with code 28 at 2,500,000/mL.
-    with pytest.raises(ValueError, match="above ISO 4406 Table 1 range"):
+def test_above_table_1_reads_28_with_a_mark_not_an_error():
+    # ISO 4406:1999 Table 1 ends with code 28 at 2,500,000/mL; a count above it is reported
+    # as ">28" (the code has no range of its own).
+    assert fq.scale_number_marked(2_500_000.0) == (28, "")
+    assert fq.scale_number_marked(2_500_001.0) == (28, ">")
+    with pytest.raises(ValueError, match="it reads >28"):
         fq.scale_number(2_500_001.0)
+    codes, marks = fq.codes_marked_from_counts(per_ml=(4_000_000.0, 3_000_000.0, 50_000.0))
+    assert codes == (28, 28, 23) and marks == (">", ">", "")  # 50,000/mL: code 23
+    assert fq.format_iso4406(codes, marks) == ">28/>28/23"
+    assert fq.codes_from_counts(per_ml=(4_000_000.0, 3_000_000.0, 50_000.0)) == (28, 28, 23)
     with pytest.raises(ValueError, match="outside ISO 4406 Table 1"):
         fq.count_range(29)
     with pytest.raises(ValueError, match="outside ISO 4406 Table 1"):
         fq.count_range(-1)
+
+
+def test_a_code_above_the_table_reads_more_than_code_28s_upper_limit():
+    # ">28" has no upper limit in Table 1; the conservative reading must exceed 2,500,000/mL.
+    quality = quality_make(codes=(28, 26, 20), marks=(">", "", ""))
+    assert fq.concentration_per_ml(quality=quality, channel=0) > 2_500_000.0
+    assert fq.concentration_per_ml(quality=quality, channel=1) == 640_000.0
+
+
+@pytest.mark.parametrize("bad", [float("nan"), float("inf"), -1.0])
+def test_counts_refuse_nan_infinity_and_negatives(bad):
+    with pytest.raises(ValueError, match="0 or more"):
+        fq.codes_from_counts(per_ml=(None, bad, 1.0))
 
 
 def test_worked_example_per_100_ml():
@@ -153,6 +174,31 @@ def test_format_then_parse_round_trip(numbers, microscope):
     assert fq.parse_iso4406(fq.format_iso4406(codes)) == codes
 
 
+@pytest.mark.parametrize(
+    ("text", "codes", "marks", "written"),
+    [
+        # ISO 4406:2021: "≥" where fewer than 20 particles were counted in that range.
+        ("≥22/18/13", (22, 18, 13), ("≥", "", ""), "≥22/18/13"),
+        (">=22/18/13", (22, 18, 13), ("≥", "", ""), "≥22/18/13"),
+        ("14/12/≥7", (14, 12, 7), ("", "", "≥"), "14/12/≥7"),
+        ("-/16/≥ 13", (None, 16, 13), ("", "", "≥"), "-/16/≥13"),
+        (">28/27/20", (28, 27, 20), (">", "", ""), ">28/27/20"),
+        ("18/16/13", (18, 16, 13), ("", "", ""), "18/16/13"),
+    ],
+)
+def test_marks_are_kept_through_parse_and_format(text, codes, marks, written):
+    assert fq.parse_iso4406_marked(text) == (codes, marks)
+    assert fq.parse_iso4406(text) == codes
+    assert fq.format_iso4406(codes, marks) == written
+
+
+def test_greater_than_is_only_for_28():
+    with pytest.raises(ValueError, match="only as >28"):
+        fq.parse_iso4406(">27/20/14")
+    with pytest.raises(ValueError, match="unknown ISO 4406 mark"):
+        fq.format_iso4406((18, 16, 13), ("<", "", ""))
+
+
 def test_format_writes_a_dash_and_refuses_impossible_codes():
     assert fq.format_iso4406((None, 16, 13)) == "-/16/13"
     with pytest.raises(ValueError, match="cannot have more particles"):
@@ -204,6 +250,27 @@ def test_channel_for_rating_refuses_nonsense():
         fq.channel_for_rating(0.0)
 
 
+@pytest.mark.parametrize(
+    ("size", "channel"),
+    [(2.0, 0), (4.0, 0), (5.0, 0), (6.0, 1), (10.0, 1), (13.9, 1), (14.0, 2), (25.0, 2)],
+)
+def test_channel_follows_the_efficiency_size(size, channel):
+    # ISO 19438 states an element's efficiency at a particle size in um(c) ("beta 200 at
+    # 4 um(c)"). ISO 4406 counts are cumulative (>=4, >=6, >=14 um(c)): the channel at or
+    # below that size holds every particle the element is rated to stop.
+    assert fq.channel_for_efficiency_size(size) == channel
+    chosen, sentence = fq.filter_channel(efficiency_size_um_c=size, nominal_rating_um=30.0)
+    assert chosen == channel and "ISO 19438" in sentence and "rated at" in sentence
+
+
+def test_without_an_efficiency_size_the_nominal_rating_is_the_fallback_and_says_so():
+    chosen, sentence = fq.filter_channel(efficiency_size_um_c=None, nominal_rating_um=10.0)
+    assert chosen == fq.channel_for_rating(10.0) == 2
+    assert "nominal 10 um rating" in sentence and "record the size" in sentence
+    # A 10 um nominal element rated "beta 200 at 4 um(c)" is loaded by the >=4 um(c) count.
+    assert fq.filter_channel(efficiency_size_um_c=4.0, nominal_rating_um=10.0)[0] == 0
+
+
 def test_lab_counts_win_over_codes_and_codes_read_as_upper_limit():
     both = quality_make(codes=(19, 16, 10), counts_per_ml=(3_000.0, 500.0, 7.0))
     assert fq.concentration_per_ml(quality=both, channel=1) == 500.0
@@ -224,101 +291,27 @@ def test_missing_channel_raises_or_falls_back_to_the_reference():
 def test_fuel_quality_refuses_impossible_values():
     with pytest.raises(ValueError, match="outside ISO 4406"):
         quality_make(codes=(30, 16, 13))
-    with pytest.raises(ValueError, match="FAME"):
+    with pytest.raises(ValueError, match="fame_pct_v"):
         quality_make(fame_pct_v=120.0)
-    with pytest.raises(ValueError, match="water"):
+    with pytest.raises(ValueError, match="water_mg_kg"):
         quality_make(water_mg_kg=-5.0)
 
 
-# --- water ----------------------------------------------------------------------------
-
-
-def test_mg_kg_to_pct_vol_worked_figures():
-    # Hand-worked, water at 1 g/mL: 200 mg/kg x 0.820 kg/L = 164 mg/L = 0.0164 % vol;
-    # 0.05 % vol = 500 mg/L / 0.820 kg/L = 610 mg/kg.
-    assert fq.mg_kg_to_pct_vol(mg_kg=200.0, density_kg_l=0.820) == pytest.approx(0.0164)
-    assert fq.pct_vol_to_mg_kg(pct_vol=0.05, density_kg_l=0.820) == pytest.approx(610, abs=0.5)
-
-
-@pytest.mark.parametrize(("mg_kg", "density"), [(200.0, 0.820), (610.0, 0.845), (35.0, 0.835)])
-def test_mg_kg_to_pct_vol_agrees_with_pint(mg_kg, density):
-    # pint: mass fraction x fuel density / water density (1 kg/L, common practice) -> %.
-    fraction = Q_(mg_kg, "mg/kg") * Q_(density, "kg/L") / Q_(1.0, "kg/L")
-    expected = fraction.to("percent").magnitude
-    assert fq.mg_kg_to_pct_vol(mg_kg=mg_kg, density_kg_l=density) == pytest.approx(expected)
-    assert fq.pct_vol_to_mg_kg(pct_vol=expected, density_kg_l=density) == pytest.approx(mg_kg)
-
-
-def test_astm_d975_limit_is_looser_than_en_590_in_mg_kg():
-    # ASTM D975 0.05 % vol is about 590-610 mg/kg over the EN 590 density range, three
-    # times EN 590's 200 mg/kg (hand-worked as above).
-    for density in (0.820, 0.845):
-        mg_kg = fq.pct_vol_to_mg_kg(
-            pct_vol=fq.ASTM_D975_WATER_SEDIMENT_MAX_PCT_V, density_kg_l=density
-        )
-        assert 590 < mg_kg <= 610
-        assert mg_kg > 2.9 * fq.EN590_WATER_MAX_MG_KG
-
-
-@pytest.mark.parametrize("temperature", [10.0, 20.0, 30.0, 40.0, 50.0])
-def test_diesel_saturation_within_the_trade_band(temperature):
-    # Trade guidance (common practice): petroleum diesel holds about 100-200 ppm dissolved.
-    saturation = fq.dissolved_water_saturation_mg_kg(temperature_c=temperature, fame_pct_v=0.0)
-    assert 100.0 <= saturation <= 200.0
-
-
-def test_b100_saturation_matches_fregolente():
-    # Fregolente et al., J. Chem. Eng. Data 57(6):1817 (2012): 1,500-1,980 mg/kg for B100
-    # between 283.15 K and 323.15 K (10 and 50 °C).
-    at = fq.dissolved_water_saturation_mg_kg
-    assert at(temperature_c=10.0, fame_pct_v=100.0) == pytest.approx(1_500.0)
-    assert at(temperature_c=50.0, fame_pct_v=100.0) == pytest.approx(1_980.0)
-    assert 1_500.0 < at(temperature_c=30.0, fame_pct_v=100.0) < 1_980.0
-
-
-@given(
-    st.floats(min_value=-30, max_value=80, allow_nan=False),
-    st.floats(min_value=-30, max_value=80, allow_nan=False),
-    st.floats(min_value=0, max_value=100, allow_nan=False),
+@pytest.mark.parametrize(
+    ("field", "value"),
+    [
+        ("water_mg_kg", float("nan")),
+        ("water_mg_kg", float("inf")),
+        ("fame_pct_v", float("nan")),
+        ("temperature_c", float("nan")),
+        ("temperature_c", float("-inf")),
+        ("density_kg_l", float("nan")),
+        ("density_kg_l", 5.0),
+    ],
 )
-def test_saturation_rises_with_temperature_and_fame(t1, t2, fame):
-    # Saturation rises with temperature (Fregolente 2012 for B100; common practice for
-    # diesel). Fregolente (2012): biodiesel holds 10 to 15 times more water than diesel,
-    # so more FAME never lowers it.
-    at = fq.dissolved_water_saturation_mg_kg
-    cold, warm = sorted((t1, t2))
-    assert at(temperature_c=cold, fame_pct_v=fame) <= at(temperature_c=warm, fame_pct_v=fame)
-    assert at(temperature_c=cold, fame_pct_v=0.0) <= at(temperature_c=cold, fame_pct_v=fame)
-
-
-def test_blend_is_interpolated_by_fame_fraction():
-    # common practice (an approximation): B7 (EN 590's FAME limit) sits 7 % of the way
-    # from diesel to B100.
-    at = fq.dissolved_water_saturation_mg_kg
-    diesel = at(temperature_c=20.0, fame_pct_v=0.0)
-    b100 = at(temperature_c=20.0, fame_pct_v=100.0)
-    assert at(temperature_c=20.0, fame_pct_v=7.0) == pytest.approx(diesel + 0.07 * (b100 - diesel))
-
-
-def test_temperature_is_clamped_to_the_measured_range():
-    at = fq.dissolved_water_saturation_mg_kg
-    assert at(temperature_c=-20.0, fame_pct_v=100.0) == pytest.approx(1_500.0)
-    assert at(temperature_c=90.0, fame_pct_v=100.0) == pytest.approx(1_980.0)
-
-
-def test_free_water():
-    # Free water = total - saturation, never below zero (common practice).
-    saturation_15 = fq.dissolved_water_saturation_mg_kg(temperature_c=15.0, fame_pct_v=0.0)
-    free = fq.free_water_mg_kg(total_mg_kg=500.0, temperature_c=None, fame_pct_v=None)
-    assert free == pytest.approx(500.0 - saturation_15)  # defaults: 15 °C, no FAME
-    # B100 dissolves at least 1,500 mg/kg (Fregolente 2012): EN 590's 200 mg/kg is all
-    # dissolved, whatever the temperature.
-    for temperature in (0.0, 25.0, 60.0):
-        assert (
-            fq.free_water_mg_kg(total_mg_kg=200.0, temperature_c=temperature, fame_pct_v=100.0) == 0
-        )
-    # Trade band ends at 200 ppm: 700 mg/kg in diesel leaves at least 500 free.
-    assert fq.free_water_mg_kg(total_mg_kg=700.0, temperature_c=50.0, fame_pct_v=0.0) >= 500.0
+def test_fuel_quality_refuses_nan_and_infinity_by_name(field, value):
+    with pytest.raises(ValueError, match=field):
+        quality_make(**{field: value})
 
 
 # --- what the engine reads from a plan and a sample -----------------------------------
@@ -333,18 +326,3 @@ def test_plan_reference_concentration_is_its_codes_upper_limit() -> None:
     # stands in for that channel only.
     assert fq.plan_reference_concentration(reference_iso4406="-/15/12", channel=0) == 2_500.0
     assert fq.plan_reference_concentration(reference_iso4406="-/15/12", channel=1) == 320.0
-
-
-def test_free_water_or_reference_uses_the_sample_where_it_has_water() -> None:
-    # B100 holds 1,500 mg/kg dissolved at 10 °C (Fregolente 2012): 1,700 leaves 200 free.
-    wet = quality_make(water_mg_kg=1_700.0, temperature_c=10.0, fame_pct_v=100.0)
-    assert fq.free_water_or_reference(quality=wet, reference_mg_kg=0.0) == pytest.approx(200.0)
-    # No water figure in the sample: the plan's reference water, at the sample's temperature
-    # and FAME (B100 at 10 °C dissolves all of 1,000 mg/kg).
-    dry_label = quality_make(temperature_c=10.0, fame_pct_v=100.0)
-    assert fq.free_water_or_reference(quality=dry_label, reference_mg_kg=1_000.0) == 0.0
-    # No sample at all: the reference water in petroleum diesel at 15 °C, the same as
-    # free_water_mg_kg's defaults.
-    assert fq.free_water_or_reference(quality=None, reference_mg_kg=500.0) == pytest.approx(
-        fq.free_water_mg_kg(total_mg_kg=500.0, temperature_c=15.0, fame_pct_v=0.0)
-    )

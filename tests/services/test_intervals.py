@@ -20,7 +20,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
-from services.intervals import FilterPlan, Loading, filter_projection, last_change
+from services.filter_inputs import FilterPlan, Loading
+from services.intervals import filter_projection, last_change
 
 CODE_18_UPPER = 2_500.0  # ISO 4406:1999 Table 1: code 18 is >1,300 and <=2,500 per mL
 CODE_20_UPPER = 10_000.0  # ISO 4406:1999 Table 1: code 20 is >5,000 and <=10,000 per mL
@@ -389,3 +390,46 @@ def test_a_change_without_a_meter_reading_keeps_the_fitted_hours() -> None:
         tz=UTC,
     )
     assert (at, meter) == (CHANGED_AT, 4_000.0)
+
+
+# ----------------------------------------------------------------- validation at the door
+
+
+@pytest.mark.parametrize(
+    ("over", "field"),
+    [
+        # A NaN concentration compares false with everything: it must not switch the budget off.
+        ({"current_concentration_per_ml": math.nan}, "current_concentration_per_ml"),
+        ({"current_concentration_per_ml": math.inf}, "current_concentration_per_ml"),
+        ({"burn_l_per_h": -5.0}, "burn_l_per_h"),
+        ({"last_change_hours": math.nan}, "last_change_hours"),
+    ],
+)
+def test_bad_numbers_are_refused_by_name(over: dict[str, object], field: str) -> None:
+    with pytest.raises(ValueError, match=field):
+        project(**over)
+
+
+@pytest.mark.parametrize(
+    "field",
+    ["interval_hours", "reference_concentration_per_ml", "reference_burn_l_per_h", "dp_limit_bar"],
+)
+def test_a_plan_with_nan_is_refused_not_unlimited(field: str) -> None:
+    with pytest.raises(ValueError, match=f"plan {field}"):
+        make_plan(**{field: math.nan})
+
+
+def test_a_loading_with_nan_or_a_dirty_date_in_the_future_is_refused() -> None:
+    with pytest.raises(ValueError, match="concentration_per_ml"):
+        reference_loading(conc=math.nan)
+    with pytest.raises(ValueError, match="litres"):
+        reference_loading(litres=math.inf)
+    late = Loading(
+        at=NOW + timedelta(hours=1),
+        litres=100.0,
+        concentration_per_ml=CODE_18_UPPER,
+        reference_assumed=False,
+        label="100 L tomorrow",
+    )
+    with pytest.raises(ValueError, match="loading 100 L tomorrow: dated .* after now"):
+        project(loadings=[reference_loading(), late])

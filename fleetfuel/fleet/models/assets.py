@@ -44,6 +44,15 @@ class Site(models.Model):
         max_length=10, choices=UnitSystem.choices, default=UnitSystem.METRIC
     )
     address = models.TextField(blank=True)
+    coldest_fuel_c = models.FloatField(
+        "coldest fuel temperature (°C)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(-50), MaxValueValidator(50)],
+        help_text="The coldest the fuel in tanks and machines gets here, in a normal year. "
+        "Water that stays dissolved in warm fuel comes out when it cools: free water is "
+        "estimated at this temperature. Blank: the sample's temperature, else 15 °C.",
+    )
 
     class Meta:
         ordering = ["name"]
@@ -179,6 +188,15 @@ class Component(models.Model):
         null=True,
         blank=True,
         validators=[MinValueValidator(0.5), MaxValueValidator(200)],
+    )
+    efficiency_size_um_c = models.FloatField(
+        "efficiency rated at (µm(c))",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(1), MaxValueValidator(100)],
+        help_text="The particle size at which the element's efficiency is stated (ISO 19438), "
+        "e.g. 4 for 'beta 200 at 4 µm(c)'. It picks the ISO 4406 count that loads the "
+        "filter; blank: the nominal rating is used instead.",
     )
     installed_on = models.DateField()
     installed_hours = models.FloatField(validators=[MinValueValidator(0)])

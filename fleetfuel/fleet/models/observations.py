@@ -14,7 +14,15 @@ from django.db import models
 from django.db.models import Q
 from django.utils import timezone
 
-from services.fuel_quality import codes_from_counts, format_iso4406, parse_iso4406
+from services.fuel_intake import MAX_FUELING_LITRES
+from services.fuel_quality import (
+    ABOVE_TABLE,
+    FEW_COUNTED,
+    FUEL_TEMPERATURE_RANGE_C,
+    codes_marked_from_counts,
+    format_iso4406,
+    parse_iso4406_marked,
+)
 
 from .. import checks
 from .assets import FILTER_KINDS, Component, Site, Unit
@@ -140,7 +148,9 @@ class Fueling(models.Model):
         FuelSource, on_delete=models.PROTECT, related_name="fuelings", null=True, blank=True
     )
     fueled_at = models.DateTimeField()
-    litres = models.FloatField(validators=[MinValueValidator(0.1), MaxValueValidator(20_000)])
+    litres = models.FloatField(
+        validators=[MinValueValidator(0.1), MaxValueValidator(MAX_FUELING_LITRES)]
+    )
 
     class Meta:
         ordering = ["unit", "-fueled_at"]
@@ -148,6 +158,13 @@ class Fueling(models.Model):
 
     def __str__(self) -> str:
         return f"{self.litres:.0f} L into {self.unit.fleet_number} at {self.fueled_at:%Y-%m-%d}"
+
+
+ISO_MARKS = [
+    ("", "none"),
+    (FEW_COUNTED, "fewer than 20 particles counted"),
+    (ABOVE_TABLE, "above ISO 4406 Table 1"),
+]
 
 
 class FuelSample(models.Model):
@@ -167,6 +184,11 @@ class FuelSample(models.Model):
     code_4 = models.PositiveSmallIntegerField(null=True, blank=True, editable=False)
     code_6 = models.PositiveSmallIntegerField(null=True, blank=True, editable=False)
     code_14 = models.PositiveSmallIntegerField(null=True, blank=True, editable=False)
+    # ISO 4406 marks per channel, as the lab wrote them: "≥" fewer than 20 particles counted
+    # (ISO 4406:2021), ">" above Table 1 (">28"), blank for none.
+    mark_4 = models.CharField(max_length=1, blank=True, editable=False, choices=ISO_MARKS)
+    mark_6 = models.CharField(max_length=1, blank=True, editable=False, choices=ISO_MARKS)
+    mark_14 = models.CharField(max_length=1, blank=True, editable=False, choices=ISO_MARKS)
     count_4_per_ml = models.FloatField(
         "particles ≥4 µm(c) per mL", null=True, blank=True, validators=[MinValueValidator(0)]
     )
@@ -185,7 +207,15 @@ class FuelSample(models.Model):
         blank=True,
         validators=[MinValueValidator(0), MaxValueValidator(100)],
     )
-    temperature_c = models.FloatField("temperature (°C)", null=True, blank=True)
+    temperature_c = models.FloatField(
+        "temperature (°C)",
+        null=True,
+        blank=True,
+        validators=[
+            MinValueValidator(FUEL_TEMPERATURE_RANGE_C[0]),
+            MaxValueValidator(FUEL_TEMPERATURE_RANGE_C[1]),
+        ],
+    )
     lab_method = models.CharField(
         max_length=80, blank=True, help_text="e.g. ISO 11171 APC; EN ISO 12937 (Karl Fischer)"
     )
@@ -234,22 +264,25 @@ class FuelSample(models.Model):
     def clean(self) -> None:
         counts = (self.count_4_per_ml, self.count_6_per_ml, self.count_14_per_ml)
         has_counts = self.count_6_per_ml is not None and self.count_14_per_ml is not None
+        marks = ("", "", "")
         if self.iso4406.strip():
             try:
-                codes = parse_iso4406(self.iso4406)
+                codes, marks = parse_iso4406_marked(self.iso4406)
             except ValueError as exc:
                 raise ValidationError({"iso4406": str(exc)}) from exc
+            self.iso4406 = format_iso4406(codes, marks)  # ">=" written as "≥"
         elif has_counts:
             try:
-                codes = codes_from_counts(per_ml=counts)  # type: ignore[arg-type]
+                codes, marks = codes_marked_from_counts(per_ml=counts)  # type: ignore[arg-type]
             except ValueError as exc:
                 raise ValidationError({"count_4_per_ml": str(exc)}) from exc
-            self.iso4406 = format_iso4406(codes)
+            self.iso4406 = format_iso4406(codes, marks)
         else:
             codes = None
         if codes is None and self.water_mg_kg is None:
             raise ValidationError("Give an ISO 4406 code, particle counts or a water content.")
         self.code_4, self.code_6, self.code_14 = codes if codes else (None, None, None)
+        self.mark_4, self.mark_6, self.mark_14 = marks
 
 
 class EngineEvent(models.Model):
@@ -294,6 +327,23 @@ class FilterPressureReading(models.Model):
     taken_at = models.DateTimeField()
     hours = models.FloatField("hour meter", validators=[MinValueValidator(0)])
     dp_bar = models.FloatField("differential pressure (bar)", validators=[MinValueValidator(0)])
+    # Conditions at the reading, where known: dP scales with flow and with viscosity (cold fuel
+    # reads higher), so a rise is read against them.
+    flow_l_per_h = models.FloatField(
+        "fuel flow (L/h)", null=True, blank=True, validators=[MinValueValidator(0)]
+    )
+    load_pct = models.FloatField(
+        "engine load (%)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(0), MaxValueValidator(100)],
+    )
+    fuel_temperature_c = models.FloatField(
+        "fuel temperature (°C)",
+        null=True,
+        blank=True,
+        validators=[MinValueValidator(-50), MaxValueValidator(120)],
+    )
 
     class Meta:
         ordering = ["component", "taken_at"]
