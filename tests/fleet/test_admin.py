@@ -6,7 +6,7 @@ from typing import Any
 
 from django.urls import reverse
 
-from fleetfuel.fleet.models import FuelSample, MeterReading
+from fleetfuel.fleet.models import Fueling, FuelSample, MeterReading
 from tests import factories as f
 
 
@@ -55,3 +55,19 @@ def test_service_history_and_closing_are_not_editable_in_the_admin(client: Any, 
     client.force_login(staff_manager())
     assert client.get(reverse("admin:ledger_serviceevent_add")).status_code == 403
     assert client.get(reverse("admin:fleet_unit_add")).status_code == 200
+
+
+def test_fueling_beyond_the_tank_is_refused_in_the_admin(client: Any, unit: Any) -> None:
+    # The same plausibility rule as the entry pages (services/plausibility.fueling_refusal):
+    # a fueling cannot exceed the unit's tank by more than the margin.
+    unit.tank_capacity_l = 500
+    unit.save()
+    client.force_login(staff_manager())
+    url = reverse("admin:fleet_fueling_add")
+    base = {"unit": unit.pk, "fueled_at_0": "2026-11-01", "fueled_at_1": "08:00"}
+    response = client.post(url, {**base, "litres": "2000"})
+    assert response.status_code == 200
+    assert "500" in response.content.decode()
+    assert not Fueling.objects.exists()
+    assert client.post(url, {**base, "litres": "450"}).status_code == 302
+    assert Fueling.objects.get().litres == 450

@@ -159,6 +159,14 @@ class Fueling(models.Model):
     def __str__(self) -> str:
         return f"{self.litres:.0f} L into {self.unit.fleet_number} at {self.fueled_at:%Y-%m-%d}"
 
+    def clean(self) -> None:
+        """The same plausibility rule as the entry pages, the import and the feed."""
+        if self.unit_id is None or self.litres is None:
+            return
+        refusal = checks.fueling_refusal_for(unit=self.unit, litres=self.litres)
+        if refusal:
+            raise ValidationError({"litres": refusal})
+
 
 ISO_MARKS = [
     ("", "none"),
