@@ -130,22 +130,33 @@ def test_idle_weeks_do_not_swing_the_rate():
     assert forecast.rate_low <= window_average <= forecast.rate_high
 
 
-def test_readings_before_the_window_and_after_now_are_ignored():
+def test_readings_before_the_window_are_ignored_and_after_now_refused():
     # By construction: 2 h/day for the first 30 days, then 12 h/day; the 90-day window
-    # sees only the 12 h/day part. A reading after `now` must not count.
+    # sees only the 12 h/day part. A reading after `now` is refused, naming the field.
     rates = [2.0] * 30 + [12.0] * 91
     readings = _series(rates)
-    readings.append(MeterReading(at=NOW + timedelta(days=5), hours=0.0))
     assert _forecast(readings).rate == pytest.approx(12.0, rel=1e-12)
+    readings.append(MeterReading(at=NOW + timedelta(days=5), hours=0.0))
+    with pytest.raises(ValueError, match="meter reading taken_at is after now"):
+        _forecast(readings)
 
 
 def test_current_hours_are_extrapolated_to_now():
     # Hand-worked: 10 h/day, last reading 2,200 h at day 120 00:00; now is day 121 12:00:
     # 2,200 + 10 x 1.5 = 2,215 h.
+    # Within one usual interval (the readings are daily) the hours are carried at the rate:
+    # 12 h after the last reading, 2,200 + 10 x 0.5 = 2,205 h.
+    forecast = _forecast(_series([10.0] * 121), now=T0 + timedelta(days=120, hours=12))
+    assert forecast.current_hours == pytest.approx(2_205.0)
+    assert "extrapolated" in forecast.note
+    # Past it, with no reading and no fueling since, they stop one interval (1 day) after
+    # the last reading: 2,200 + 10 x 1 = 2,210 h, not 2,215 h (common practice: hours a
+    # unit did not record are not invented).
     now = T0 + timedelta(days=121, hours=12)
     forecast = _forecast(_series([10.0] * 121), now=now)
-    assert forecast.current_hours == pytest.approx(2_215.0)
-    assert "extrapolated" in forecast.note
+    assert forecast.current_hours == pytest.approx(2_210.0)
+    assert "no reading since 2026-05-01" in forecast.note
+    assert forecast.carried_to == T0 + timedelta(days=121)
 
 
 def test_few_readings_widen_the_band():
@@ -166,13 +177,17 @@ def test_old_readings_are_used_when_the_window_has_too_few():
 
 
 def test_one_reading_falls_back_to_the_class_default():
-    # Brief: class default rate with a 0.5x-1.5x band. Hand-worked current hours:
-    # 1,000 h at day 0, 120 days at 8 h/day -> 1,960 h.
+    # Brief: class default rate with a 0.5x-1.5x band. One reading, 1,000 h at day 0, says
+    # nothing of how often the unit is read, and nothing since says it ran: current hours
+    # stay at 1,000 h (not 1,000 + 120 x 8 = 1,960 h), and the note says why.
     forecast = _forecast(_series([10.0])[:1], class_rate=8.0)
     assert forecast.basis == "class_default"
     assert (forecast.rate, forecast.rate_low, forecast.rate_high) == (8.0, 4.0, 12.0)
-    assert forecast.current_hours == pytest.approx(1_960.0)
-    assert "class default" in forecast.note
+    assert forecast.current_hours == pytest.approx(1_000.0)
+    assert "class default" in forecast.note and "no reading since 2026-01-01" in forecast.note
+    # A fueling 30 days later is evidence it ran until then: 1,000 + 30 x 8 = 1,240 h.
+    fuelled = _forecast(_series([10.0])[:1], class_rate=8.0, evidence_at=T0 + timedelta(days=30))
+    assert fuelled.current_hours == pytest.approx(1_240.0)
 
 
 def test_no_readings_falls_back_to_the_class_default():
@@ -291,8 +306,9 @@ def test_unit_forecast_is_fitted_on_ninety_days_and_the_latest_reading():
 
 def test_a_unit_read_rarely_keeps_its_latest_reading():
     # One reading in the window (day -20, 2,800 h) and the latest before it (day -120,
-    # 2,000 h, outside the window): 800 h in 100 days is 8 h/day, extrapolated 20 days to
-    # 2,960 h now. Without the latest reading the class default would stand.
+    # 2,000 h, outside the window): 800 h in 100 days is 8 h/day, carried one usual interval
+    # between readings past the last one, at most 7 days: 2,800 + 7 x 8 = 2,856 h now (no
+    # fueling since says it ran longer). Without the latest reading the class default stands.
     recent = MeterReading(at=NOW - timedelta(days=20), hours=2_800.0)
     old = MeterReading(at=NOW - timedelta(days=120), hours=2_000.0)
     forecast = unit_usage_forecast(
@@ -300,7 +316,7 @@ def test_a_unit_read_rarely_keeps_its_latest_reading():
     )
     assert forecast.basis == "readings"
     assert forecast.rate == pytest.approx(8.0)
-    assert forecast.current_hours == pytest.approx(2_960.0)
+    assert forecast.current_hours == pytest.approx(2_856.0)
     alone = unit_usage_forecast(
         window_readings=[recent], latest=None, replacements=[], now=NOW, class_rate=3.0
     )
