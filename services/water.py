@@ -11,7 +11,13 @@ The water rate in the bowl (mL per engine hour) is a blend of two things:
   of water per hour; water is 1 g/mL, so mL/h = mg/h / 1000; times the
   separator's efficiency (the fraction of free water it removes);
 * the rates observed at past drains: water drained / engine hours since the
-  drain before.
+  drain before. A drain recorded with no amount empties the bowl (the next interval
+  starts there) but gives no rate: an amount nobody wrote down is not 0 mL.
+
+The water in the bowl since the last drain comes from all the fuel burned since then
+(engine hours since the drain x the burn rate), carrying the volume-weighted free water of
+the fuel put in since the drain (or the current fuel's, with none put in): fuel delivered
+but not yet burned has not passed the separator.
 
 Observed rates are weighted by recency (the most recent weighs 1, each older one
 ``RECENCY_DECAY`` times the next newer). The sample estimate weighs 1/(1 + n)
@@ -27,7 +33,16 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 
-from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
+from services.common import (
+    Basis,
+    DueDate,
+    DueStatus,
+    Projection,
+    TaskKind,
+    UsageForecast,
+    amount_check,
+    moment_check,
+)
 from services.schedule import (
     due_status,
     earliest_due,
@@ -52,14 +67,31 @@ class DrainPlan:
     soon_days: int
     due_days: int
 
+    def __post_init__(self) -> None:
+        amount_check(name="bowl_capacity_ml", value=self.bowl_capacity_ml)
+        amount_check(name="drain_interval_hours", value=self.drain_interval_hours)
+        for name in ("drain_level_fraction", "separator_efficiency"):
+            amount_check(name=name, value=getattr(self, name))
+            if getattr(self, name) > 1:
+                raise ValueError(
+                    f"{name} must be a fraction from 0 to 1, got {getattr(self, name)}"
+                )
+        for name in ("drain_interval_days", "soon_days", "due_days"):
+            amount_check(name=name, value=getattr(self, name))
+
 
 @dataclass(frozen=True, slots=True)
 class DrainRecord:
-    """A drain done: when, at what engine hours, and how much water came out."""
+    """A drain done: when, at what engine hours, and how much water came out (None: the
+    amount was not recorded; the bowl was still emptied)."""
 
     at: datetime
     hours: float
-    water_ml: float
+    water_ml: float | None
+
+    def __post_init__(self) -> None:
+        amount_check(name="drain hours", value=self.hours)
+        amount_check(name="drain water_ml", value=self.water_ml)
 
 
 @dataclass(frozen=True, slots=True)
@@ -71,6 +103,11 @@ class WaterIntake:
     free_water_mg_kg: float
     density_kg_l: float
     label: str
+
+    def __post_init__(self) -> None:
+        amount_check(name="fueling litres", value=self.litres)
+        amount_check(name="free_water_mg_kg", value=self.free_water_mg_kg)
+        amount_check(name="density_kg_l", value=self.density_kg_l)
 
 
 def water_ml_from_fuel(*, litres: float, free_water_mg_kg: float, density_kg_l: float) -> float:
@@ -86,13 +123,14 @@ def observed_rates(*, records: Sequence[DrainRecord]) -> list[float]:
     """mL per engine hour between consecutive drains, oldest first.
 
     A drain's water accumulated since the drain before it; pairs with no hours
-    between them (or a meter going backwards) are skipped.
+    between them (or a meter going backwards) are skipped, and so is a drain with no
+    amount recorded (it still starts the next interval).
     """
     ordered = sorted(set(records), key=lambda r: (r.hours, r.at))
     rates: list[float] = []
     for before, after in zip(ordered, ordered[1:], strict=False):
         run = after.hours - before.hours
-        if run > 0:
+        if run > 0 and after.water_ml is not None:
             rates.append(max(0.0, after.water_ml) / run)
     return rates
 
@@ -131,7 +169,17 @@ def drain_projection(
     water_in_fuel_since_drain: bool,
     now: datetime,
 ) -> Projection:
-    """Project the next separator drain: the earliest of water level and interval."""
+    """Project the next separator drain: the earliest of water level and interval.
+
+    Drains and fuel inputs after ``now``, and NaN, infinite or negative amounts, are refused.
+    """
+    for record in [*history, *([last_drain] if last_drain else [])]:
+        moment_check(name="drain performed_at", at=record.at, now=now)
+    for i in intakes:
+        moment_check(name="fueling fueled_at", at=i.at, now=now)
+    amount_check(name="burn_l_per_h", value=burn_l_per_h)
+    amount_check(name="current_free_water_mg_kg", value=current_free_water_mg_kg)
+    amount_check(name="density_kg_l", value=density_kg_l)
     efficiency = min(1.0, max(0.0, plan.separator_efficiency))
     drain_level = plan.drain_level_fraction * plan.bowl_capacity_ml
     rate = _water_rate(
@@ -147,7 +195,7 @@ def drain_projection(
     water_so_far, collected = _collected(
         since=since,
         efficiency=efficiency,
-        rate=blended,
+        fuel=(burn_l_per_h, current_free_water_mg_kg, density_kg_l),
         last_drain=last_drain,
         current_hours=forecast.current_hours,
     )
@@ -282,23 +330,30 @@ def _collected(
     *,
     since: Sequence[WaterIntake],
     efficiency: float,
-    rate: float,
+    fuel: tuple[float, float, float],  # burn L/h, current free water mg/kg, density kg/L
     last_drain: DrainRecord,
     current_hours: float,
 ) -> tuple[float, str]:
-    """(mL of water in the bowl since the last drain, the sentence that says how much)."""
-    if since:
-        water = efficiency * sum(
-            water_ml_from_fuel(
-                litres=i.litres, free_water_mg_kg=i.free_water_mg_kg, density_kg_l=i.density_kg_l
-            )
-            for i in since
-        )
-        how = f"from {plural(len(since), 'fuel input')} since the drain"
+    """(mL of water in the bowl since the last drain, the sentence that says how much).
+
+    All the fuel burned since the drain (hours since x burn) carries the volume-weighted
+    free water of the fuel put in since (the current fuel's when none was put in).
+    """
+    burn, current_free_water, density = fuel
+    hours_since = max(0.0, current_hours - last_drain.hours)
+    burned = hours_since * burn
+    litres_in = sum(i.litres for i in since)
+    if litres_in > 0:
+        free_water = sum(i.litres * i.free_water_mg_kg for i in since) / litres_in
+        kg_per_l = sum(i.litres * i.density_kg_l for i in since) / litres_in
+        of = f"free water {free_water:,.0f} mg/kg from {plural(len(since), 'fuel input')}"
     else:
-        hours_since = max(0.0, current_hours - last_drain.hours)
-        water = rate * hours_since
-        how = f"estimated at {rate:.2f} mL/h over {fmt_hours(hours_since)} (no fuel inputs)"
+        free_water, kg_per_l = current_free_water, density
+        of = f"free water {free_water:,.0f} mg/kg of the current fuel (no fuel inputs)"
+    water = efficiency * water_ml_from_fuel(
+        litres=burned, free_water_mg_kg=free_water, density_kg_l=kg_per_l
+    )
+    how = f"{burned:,.0f} L burned over {fmt_hours(hours_since)} at {burn:.1f} L/h, {of}"
     return water, (
         f"About {water:,.0f} mL collected since the drain at {fmt_hours(last_drain.hours)} "
         f"on {last_drain.at.date().isoformat()} ({how})."
