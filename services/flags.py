@@ -314,6 +314,41 @@ def _imbalance_flag(*, imbalance: Sequence[EngineEvent]) -> UnitFlag | None:
     )
 
 
+def meter_change_flag(*, change: tuple[datetime, float, float]) -> UnitFlag:
+    """A large drop in the hour-meter readings with no replacement recorded: (moment of the
+    first low reading, engine hours before it, the meter value read) from the usage forecast."""
+    at, before, meter = change
+    return UnitFlag(
+        code="meter_change_unconfirmed",
+        title="Hour meter probably replaced: confirm it",
+        reason=(
+            f"The hour meter read {meter:,.0f} h on {at:%Y-%m-%d}, down from {before:,.0f} h, "
+            "with no meter replacement recorded. Until it is, engine hours are counted on "
+            f"from {before:,.0f} h as if no hours ran between the two readings."
+        ),
+        checks=[
+            "Ask the site whether the hour meter or the instrument cluster was replaced.",
+            "If it was, record the replacement with the old meter's last value and the new "
+            "meter's first; if not, correct the mistyped reading.",
+        ],
+        since=at,
+        high_pressure=False,
+    )
+
+
+def refused_flag(*, reasons: Sequence[str], now: datetime) -> UnitFlag:
+    """Records the engine refused (NaN, infinite, negative, after now): what they would have
+    fed is not projected until they are corrected."""
+    return UnitFlag(
+        code="records_refused",
+        title="Records the projections could not use",
+        reason=" ".join(r if r.endswith(".") else r + "." for r in reasons),
+        checks=["Correct or remove the record named, then the projections are made again."],
+        since=now,
+        high_pressure=False,
+    )
+
+
 # --------------------------------------------------------------------------- priorities, water
 
 

@@ -3,9 +3,9 @@
 The rate is the Theil-Sen estimate (Theil 1950; Sen 1968): the median of the slopes
 between every pair of readings, so one mistyped reading or a couple of idle weeks
 barely move it. The band comes from the rates of the intervals between readings
-(services/usage_band.py, with the estimator: a seeded bootstrap), never narrower than a floor that is wider
-when readings are few. Sen's (1968) interval on the median slope is still computed by
-:func:`theil_sen` for other callers; it is not a band for cumulative readings, whose
+(services/usage_band.py, beside the estimator: a seeded bootstrap), never narrower than
+a floor that is wider when readings are few. Sen's (1968) interval on the median slope,
+still computed by :func:`theil_sen`, is not a band for cumulative readings, whose
 residuals are not independent.
 
 Engine hours are hour-meter values corrected for meter replacements. A reading, a service

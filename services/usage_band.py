@@ -6,8 +6,9 @@ intervals between consecutive readings are close to independent instead: each on
 are the work done in it. The rate over a window is the ratio estimator
 sum(hours) / sum(days); its band is a bootstrap over intervals (Efron & Tibshirani, *An
 Introduction to the Bootstrap*, 1993, ch. 13, percentile interval), resampling whole
-intervals with replacement, with a random generator seeded by the caller so the same
-readings always give the same band.
+intervals with replacement. The draws come from SplitMix64 (Steele, Lea & Flood 2014,
+"Fast splittable pseudorandom number generators", OOPSLA), seeded by the caller, so the
+same readings always give the same band and services/ holds no source of randomness.
 
 With few intervals the plain percentile interval is too narrow (its spread is that of a
 sample of n, not of the population). It is widened as Hesterberg's "expanded percentile
@@ -22,9 +23,8 @@ The central rate is the Theil-Sen estimate (:func:`theil_sen`), kept here beside
 from __future__ import annotations
 
 import math
-import random
 import statistics
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Final
@@ -100,6 +100,20 @@ def intervals_from(points: Sequence[tuple[datetime, float]]) -> list[tuple[float
     return out
 
 
+_MASK64: Final = (1 << 64) - 1
+
+
+def splitmix64(*, seed: int) -> Iterator[int]:
+    """64-bit pseudo-random integers from ``seed`` (SplitMix64, Steele, Lea & Flood 2014)."""
+    state = seed & _MASK64
+    while True:
+        state = (state + 0x9E3779B97F4A7C15) & _MASK64
+        z = state
+        z = ((z ^ (z >> 30)) * 0xBF58476D1CE4E5B9) & _MASK64
+        z = ((z ^ (z >> 27)) * 0x94D049BB133111EB) & _MASK64
+        yield z ^ (z >> 31)
+
+
 def t_quantile(*, p: float, df: int) -> float:
     """Student's t quantile: exact for 1 and 2 degrees of freedom, else the Cornish-Fisher
     expansion of Abramowitz & Stegun (1964) 26.7.5 about the normal quantile."""
@@ -128,12 +142,12 @@ def rate_band(
     n = len(intervals)
     if n < 2:
         return None
-    rng = random.Random(seed)
+    draws = splitmix64(seed=seed)
     ratios = []
     for _ in range(BOOTSTRAP_DRAWS):
         hours = days = 0.0
         for _ in range(n):
-            h, d = intervals[rng.randrange(n)]
+            h, d = intervals[next(draws) % n]
             hours += h
             days += d
         ratios.append(hours / days)
