@@ -59,16 +59,16 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
     """A unit's projections and flags. Inputs services/ refuses (NaN, infinite, negative,
     after now) skip what they feed, with the reason, and flag the unit: never a crash."""
     unit = b.unit
+    refused = [f"hour meter: {reason}" for reason in b.refused]  # rows the selectors refused
     try:
         forecast = unit_forecast(b, now=now)
     except ValueError as exc:
-        reason = f"usage forecast: {exc}"
-        return UnitResult(unit.pk, unit.site_id, [], [fl.refused_flag(reasons=[reason], now=now)],
-                          [reason], 0.0, 0.0)  # fmt: skip
+        refused.append(f"usage forecast: {exc}")
+        return UnitResult(unit.pk, unit.site_id, [], [fl.refused_flag(reasons=refused, now=now)],
+                          refused, 0.0, 0.0)  # fmt: skip
     if unit.disposed_on is not None and unit.disposed_on <= now.date():
         # A disposed unit is no longer serviced: no items, no flags (its history stays).
         return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0)
-    refused: list[str] = []
     try:
         fuel = unit_fuel(b, batch)
     except ValueError as exc:

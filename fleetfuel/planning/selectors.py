@@ -63,6 +63,7 @@ class UnitInputs:
     latest_service: tuple[datetime, float] | None = None  # latest ledger hour meter (meter)
     latest_fitted: tuple[date, float] | None = None  # latest part fitted, at meter hours
     valve_replaced_at: datetime | None = None  # the relief valve's last replacement or fitting
+    refused: list[str] = field(default_factory=list)  # rows services/ refused, with the reason
 
 
 @dataclass
@@ -187,18 +188,27 @@ def _unit_inputs(u: Any, *, now: datetime) -> UnitInputs:
     valve = [u.valve_at] if u.valve_at is not None else []
     if u.valve_on is not None:
         valve.append(datetime.combine(u.valve_on, time(), tzinfo=now.tzinfo))
-    return UnitInputs(
+    b = UnitInputs(
         unit=u,
-        latest_reading=(
-            usage.MeterReading(at=u.latest_at, hours=u.latest_hours)
-            if u.latest_at is not None
-            else None
-        ),
+        latest_reading=None,
         latest_fueled_at=u.fueled_at,
         latest_service=(u.service_at, u.service_meter) if u.service_at is not None else None,
         latest_fitted=(u.fitted_on, u.fitted_hours) if u.fitted_on is not None else None,
         valve_replaced_at=max(valve) if valve else None,
     )
+    if u.latest_at is not None:
+        b.latest_reading = _reading_make(b, at=u.latest_at, hours=u.latest_hours)
+    return b
+
+
+def _reading_make(b: UnitInputs, *, at: datetime, hours: float) -> usage.MeterReading | None:
+    """A meter reading as services/ takes it, or None with the reason kept on the unit."""
+    try:
+        return usage.MeterReading(at=at, hours=hours)
+    except ValueError as exc:
+        if str(exc) not in b.refused:
+            b.refused.append(str(exc))
+        return None
 
 
 def _readings_load(*, bundles: dict[int, UnitInputs], now: datetime) -> None:
@@ -210,18 +220,23 @@ def _readings_load(*, bundles: dict[int, UnitInputs], now: datetime) -> None:
         .order_by("unit_id", "taken_at")
         .values_list("unit_id", "taken_at", "hours")
     ):
-        bundles[unit_id].readings.append(usage.MeterReading(at=at, hours=hours))
+        reading = _reading_make(bundles[unit_id], at=at, hours=hours)
+        if reading is not None:
+            bundles[unit_id].readings.append(reading)
 
 
 def _replacements_load(*, bundles: dict[int, UnitInputs]) -> None:
     for rep in MeterReplacement.objects.filter(unit_id__in=list(bundles)).order_by("replaced_at"):
-        bundles[rep.unit_id].replacements.append(
-            usage.MeterReplacement(
-                at=rep.replaced_at,
-                old_meter_final=rep.old_meter_final,
-                new_meter_start=rep.new_meter_start,
+        try:
+            bundles[rep.unit_id].replacements.append(
+                usage.MeterReplacement(
+                    at=rep.replaced_at,
+                    old_meter_final=rep.old_meter_final,
+                    new_meter_start=rep.new_meter_start,
+                )
             )
-        )
+        except ValueError as exc:
+            bundles[rep.unit_id].refused.append(str(exc))
 
 
 def _ledger_load(*, bundles: dict[int, UnitInputs], now: datetime, since: datetime) -> None:
