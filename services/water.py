@@ -16,8 +16,9 @@ The water rate in the bowl (mL per engine hour) is a blend of two things:
 
 The water in the bowl since the last drain comes from all the fuel burned since then
 (engine hours since the drain x the burn rate), carrying the volume-weighted free water of
-the fuel put in since the drain (or the current fuel's, with none put in): fuel delivered
-but not yet burned has not passed the separator.
+the fuel put in since the drain (or the current fuel's, with none put in), blended with the
+rates past drains measured by the same rule: fuel delivered but not yet burned has not
+passed the separator, and measured drains outweigh a sample.
 
 Observed rates are weighted by recency (the most recent weighs 1, each older one
 ``RECENCY_DECAY`` times the next newer). The sample estimate weighs 1/(1 + n)
@@ -196,6 +197,7 @@ def drain_projection(
         since=since,
         efficiency=efficiency,
         fuel=(burn_l_per_h, current_free_water_mg_kg, density_kg_l),
+        records=[*history, last_drain],
         last_drain=last_drain,
         current_hours=forecast.current_hours,
     )
@@ -331,17 +333,18 @@ def _collected(
     since: Sequence[WaterIntake],
     efficiency: float,
     fuel: tuple[float, float, float],  # burn L/h, current free water mg/kg, density kg/L
+    records: Sequence[DrainRecord],
     last_drain: DrainRecord,
     current_hours: float,
 ) -> tuple[float, str]:
     """(mL of water in the bowl since the last drain, the sentence that says how much).
 
     All the fuel burned since the drain (hours since x burn) carries the volume-weighted
-    free water of the fuel put in since (the current fuel's when none was put in).
+    free water of the fuel put in since (the current fuel's when none was put in); that
+    estimate is blended with the rates past drains measured, as the rate ahead is.
     """
     burn, current_free_water, density = fuel
     hours_since = max(0.0, current_hours - last_drain.hours)
-    burned = hours_since * burn
     litres_in = sum(i.litres for i in since)
     if litres_in > 0:
         free_water = sum(i.litres * i.free_water_mg_kg for i in since) / litres_in
@@ -350,10 +353,13 @@ def _collected(
     else:
         free_water, kg_per_l = current_free_water, density
         of = f"free water {free_water:,.0f} mg/kg of the current fuel (no fuel inputs)"
-    water = efficiency * water_ml_from_fuel(
-        litres=burned, free_water_mg_kg=free_water, density_kg_l=kg_per_l
+    rate = _water_rate(sample=(free_water, burn, efficiency, kg_per_l), records=records)
+    water = rate.rate * hours_since
+    how = (
+        f"{hours_since * burn:,.0f} L burned over {fmt_hours(hours_since)} at {burn:.1f} L/h, {of}"
     )
-    how = f"{burned:,.0f} L burned over {fmt_hours(hours_since)} at {burn:.1f} L/h, {of}"
+    if rate.observed:
+        how += f"; {rate.rate:.2f} mL/h with the rates past drains measured"
     return water, (
         f"About {water:,.0f} mL collected since the drain at {fmt_hours(last_drain.hours)} "
         f"on {last_drain.at.date().isoformat()} ({how})."

@@ -178,13 +178,14 @@ def test_without_intakes_the_fuel_burned_carries_the_current_fuel_s_water() -> N
 
 
 def test_observed_drains_change_the_rate() -> None:
-    # Blended 1.8932 mL/h (see test_blend_hand_worked): (200 - 30.06)/1.8932 = 89.76 h.
+    # Blended 1.8932 mL/h (see test_blend_hand_worked). The water since the drain is the
+    # same blend over the 20 h run since: 37.864 mL; (200 - 37.864)/1.8932 = 85.64 h.
     history = [
         DrainRecord(DRAINED_AT - timedelta(days=20), 4_800, 30),
         DrainRecord(DRAINED_AT - timedelta(days=10), 4_900, 150),
     ]
     p = project(last_drain=DrainRecord(DRAINED_AT, 5_000, 250), history=history)
-    assert math.isclose(p.due.hours or 0, 5_020 + 169.94 / 1.8932, rel_tol=1e-4)
+    assert math.isclose(p.due.hours or 0, 5_020 + (200 - 20 * 1.8932) / 1.8932, rel_tol=1e-4)
     assert any("over 2 drain intervals count for 67 %" in s for s in p.explanation)
 
 
@@ -222,7 +223,8 @@ def test_fuel_delivered_but_not_burned_adds_no_water() -> None:
 def test_a_drain_with_no_amount_empties_the_bowl_but_adds_no_rate() -> None:
     # Drains at 4,800 h (30 mL) and 4,900 h (150 mL: 1.5 mL/h), then the last one at 5,000 h
     # with no amount written down. Counted as 0 mL it would have weighed most (newest);
-    # skipped, only 1.5 mL/h is observed. The bowl still counts from 5,000 h.
+    # skipped, only 1.5 mL/h is observed. The bowl still counts from 5,000 h: 20 h at the
+    # blend of the estimate 1.503 and 1.5 mL/h, half each (1.5015 mL/h), is 30.03 mL.
     history = [
         DrainRecord(DRAINED_AT - timedelta(days=20), 4_800, 30),
         DrainRecord(DRAINED_AT - timedelta(days=10), 4_900, 150),
@@ -230,7 +232,7 @@ def test_a_drain_with_no_amount_empties_the_bowl_but_adds_no_rate() -> None:
     blank = DrainRecord(DRAINED_AT, 5_000, None)
     p = project(last_drain=blank, history=history)
     assert p.inputs["observed_rates_ml_h"] == [1.5]
-    assert math.isclose(float(p.inputs["water_so_far_ml"]), 30.06)  # type: ignore[arg-type]
+    assert math.isclose(float(p.inputs["water_so_far_ml"]), 30.03)  # type: ignore[arg-type]
     assert observed_rates(records=[*history, blank, DrainRecord(NOW, 5_100, 100)]) == [1.5, 1.0]
 
 
