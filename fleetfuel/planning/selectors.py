@@ -9,6 +9,7 @@ page to know whether a next page exists, so it never counts the whole table.
 
 from __future__ import annotations
 
+import math
 from collections import defaultdict
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -192,13 +193,18 @@ def _unit_inputs(u: Any, *, now: datetime) -> UnitInputs:
         unit=u,
         latest_reading=None,
         latest_fueled_at=u.fueled_at,
-        latest_service=(u.service_at, u.service_meter) if u.service_at is not None else None,
-        latest_fitted=(u.fitted_on, u.fitted_hours) if u.fitted_on is not None else None,
+        latest_service=(u.service_at, u.service_meter) if _hours_ok(u.service_meter) else None,
+        latest_fitted=(u.fitted_on, u.fitted_hours) if _hours_ok(u.fitted_hours) else None,
         valve_replaced_at=max(valve) if valve else None,
     )
     if u.latest_at is not None:
         b.latest_reading = _reading_make(b, at=u.latest_at, hours=u.latest_hours)
     return b
+
+
+def _hours_ok(hours: float | None) -> bool:
+    """A recorded hour meter that can stand as the unit's floor (a number, not negative)."""
+    return hours is not None and math.isfinite(hours) and hours >= 0
 
 
 def _reading_make(b: UnitInputs, *, at: datetime, hours: float) -> usage.MeterReading | None:

@@ -268,6 +268,18 @@ def test_infinite_and_negative_records_skip_their_task_with_the_reason(
     assert "drain water_ml cannot be negative" in flags_of(other)["records_refused"].reason
 
 
+def test_a_nan_reading_is_refused_by_name(site: Any, unit_class: Any, postgres: None) -> None:
+    # PostgreSQL stores NaN in a float column (SQLite cannot); the engine refuses it by name.
+    unit = f.unit_make(site=site, unit_class=unit_class, fleet_number="NAN-1")
+    readings_make(unit, days=range(1, 30), hours_at=lambda d: 2_000.0 - 10 * d)
+    MeterReading.objects.create(unit=unit, taken_at=NOW - timedelta(hours=1), hours=float("nan"))
+    items = project_due()
+    assert "must be a finite number" in flags_of(unit)["records_refused"].reason
+    assert items[("NAN-1", "fine_filter")]["due_hours"] == pytest.approx(1_500.0)
+    # From the readings that are numbers: 1,990 h a day ago, carried one day at 10 h/day.
+    assert unit_forecast_get(unit_id=unit.pk, now=NOW).current_hours == pytest.approx(2_000.0)
+
+
 def test_huge_readings_do_not_break_the_projection(site: Any, unit_class: Any) -> None:
     # A meter read at 10^12 h (a typing slip): a number, so it projects, without overflow.
     unit = f.unit_make(site=site, unit_class=unit_class, fleet_number="HUGE-1")
