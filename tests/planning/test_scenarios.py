@@ -16,7 +16,13 @@ import pytest
 import time_machine
 from django.core.management import call_command
 
-from fleetfuel.fleet.models import EngineEvent, MeterReading, MeterReplacement, ServicePlan
+from fleetfuel.fleet.models import (
+    EngineEvent,
+    Fueling,
+    MeterReading,
+    MeterReplacement,
+    ServicePlan,
+)
 from fleetfuel.ledger.actions import service_event_append
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.models import DueItem, UnitFlag
@@ -285,6 +291,10 @@ def test_huge_readings_do_not_break_the_projection(site: Any, unit_class: Any) -
     unit = f.unit_make(site=site, unit_class=unit_class, fleet_number="HUGE-1")
     readings_make(unit, days=range(1, 30), hours_at=lambda d: 2_000.0 - 10 * d)
     MeterReading.objects.create(unit=unit, taken_at=NOW - timedelta(hours=1), hours=1e12)
+    # And 10^12 L put in the tank: a number too; nothing overflows, nothing crashes.
+    Fueling.objects.create(
+        unit=unit, source=f.source_make(), fueled_at=NOW - timedelta(hours=2), litres=1e12
+    )
     items = project_due()
     assert {task for unit_no, task in items if unit_no == "HUGE-1"} == {
         "primary_filter",
