@@ -7,6 +7,7 @@ what crosses module boundaries lives here.
 from __future__ import annotations
 
 import enum
+import math
 from dataclasses import dataclass, field
 from datetime import date, datetime
 
@@ -62,6 +63,13 @@ class UsageForecast:
     rate_high: float
     basis: str  # "readings" or "class_default" or "idle"
     note: str  # one sentence a manager reads, e.g. "14.2 h/day from 23 readings over 90 days"
+    # The last hour-meter reading (None: none on record), and the moment the hours were
+    # carried forward to: before ``as_of`` when no evidence says the unit ran since.
+    last_reading_at: datetime | None = None
+    carried_to: datetime | None = None
+    # A large drop in the readings with no meter replacement recorded: (moment of the first
+    # low reading, engine hours before it, the meter value read). For the manager to confirm.
+    probable_meter_change: tuple[datetime, float, float] | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -84,3 +92,27 @@ class Projection:
     basis: Basis
     explanation: list[str] = field(default_factory=list)  # sentences, most important first
     inputs: dict[str, object] = field(default_factory=dict)  # JSON-safe numbers and labels
+
+
+# --------------------------------------------------------------------------- validation
+
+
+def amount_check(*, name: str, value: float | None, negative: bool = False) -> None:
+    """Refuse NaN, infinity and (unless ``negative``) a negative amount, naming the field.
+
+    ``None`` (not recorded) passes: the caller decides what a missing amount means.
+    """
+    if value is None:
+        return
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise ValueError(f"{name} must be a number, got {value!r}")
+    if not math.isfinite(value):
+        raise ValueError(f"{name} must be a finite number, got {value!r}")
+    if not negative and value < 0:
+        raise ValueError(f"{name} cannot be negative, got {value!r}")
+
+
+def moment_check(*, name: str, at: datetime | None, now: datetime) -> None:
+    """Refuse a moment after ``now``, naming the field (``None`` passes)."""
+    if at is not None and at > now:
+        raise ValueError(f"{name} is after now ({at.isoformat()} > {now.isoformat()})")

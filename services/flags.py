@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from datetime import datetime, timedelta
 from typing import Final
 
-from services.common import TaskKind
+from services.common import TaskKind, amount_check, moment_check
 
 # --------------------------------------------------------------------------- J1939 tables
 
@@ -139,6 +139,15 @@ class EngineEvent:
     count: int
     kind: str  # one of EVENT_KINDS
 
+    def __post_init__(self) -> None:
+        amount_check(name="engine event hours", value=self.hours)
+        amount_check(name="engine event count", value=self.count)
+        amount_check(name="engine event spn", value=self.spn)
+        if not 0 <= self.fmi <= 31:  # SAE J1939-73: the FMI is a 5-bit field
+            raise ValueError(f"engine event fmi must be 0 to 31, got {self.fmi!r}")
+        if self.kind not in EVENT_KINDS:
+            raise ValueError(f"engine event kind must be one of {EVENT_KINDS}, got {self.kind!r}")
+
 
 @dataclass(frozen=True, slots=True)
 class ReliefValvePlan:
@@ -207,70 +216,80 @@ def unit_flags(
     lifetime_relief_openings: int,
     now: datetime,
     current_hours: float | None = None,
+    valve_replaced_at: datetime | None = None,
 ) -> list[UnitFlag]:
     """Flags a unit earns from its engine events.
 
     Relief-valve openings (sum of counts) at or above ``openings_to_flag`` within the
-    trailing window flag the unit. The day window is [now - window_days, now], both
-    edges included; the hour window ends at ``current_hours`` or, when not given, at the
-    highest engine hours among the events, edge included. When the plan sets both
-    windows, either one triggers. Events after ``now`` are ignored.
+    trailing window flag the unit. Both windows end now: the day window is
+    [now - window_days, now], the hour window [current_hours - window_hours,
+    current_hours] (the unit's engine hours now; unknown hours: no hour window), edges
+    included. When the plan sets both windows, either one triggers, and the flag gives one
+    reason. Only openings after ``valve_replaced_at`` (the valve's last replacement or
+    fitting) count, and ``lifetime_relief_openings`` is the count since then. Events after
+    ``now`` are refused.
     """
-    past = [e for e in events if e.at <= now]
-    openings = [e for e in past if e.kind == "relief_valve_opened"]
+    amount_check(name="lifetime_relief_openings", value=lifetime_relief_openings)
+    amount_check(name="current_hours", value=current_hours)
+    moment_check(name="valve_replaced_at", at=valve_replaced_at, now=now)
+    for e in events:
+        moment_check(name="engine event occurred_at", at=e.at, now=now)
+    openings = [
+        e
+        for e in events
+        if e.kind == "relief_valve_opened"
+        and (valve_replaced_at is None or e.at > valve_replaced_at)
+    ]
     flags = [
         _relief_repeat_flag(
-            openings=openings, past=past, plan=relief_plan, now=now, current_hours=current_hours
+            openings=openings, plan=relief_plan, now=now, current_hours=current_hours
         ),
         _relief_life_flag(
-            openings=openings, plan=relief_plan, lifetime=lifetime_relief_openings, now=now
+            openings=openings,
+            plan=relief_plan,
+            lifetime=lifetime_relief_openings,
+            since=valve_replaced_at,
+            now=now,
         ),
-        _imbalance_flag(imbalance=[e for e in past if e.kind == "pumping_imbalance"]),
+        _imbalance_flag(imbalance=[e for e in events if e.kind == "pumping_imbalance"]),
     ]
     return [f for f in flags if f is not None]
-
-
-def _window_reason(in_window: Sequence[EngineEvent], window: str, n_flag: int) -> str:
-    return (
-        f"{_count(in_window)} relief-valve openings in the last {window} ({_span(in_window)}), "
-        f"at or above the {n_flag} that flag a unit."
-    )
 
 
 def _relief_repeat_flag(
     *,
     openings: Sequence[EngineEvent],
-    past: Sequence[EngineEvent],
     plan: ReliefValvePlan,
     now: datetime,
     current_hours: float | None,
 ) -> UnitFlag | None:
-    reasons: list[str] = []
-    triggered: list[EngineEvent] = []
+    """One reason, from the window with the most openings (the other one is named too)."""
+    hits: list[tuple[int, str, list[EngineEvent]]] = []
     n_flag = plan.openings_to_flag
     if plan.window_days is not None:
         start = now - timedelta(days=plan.window_days)
         in_window = [e for e in openings if e.at >= start]
-        if in_window and _count(in_window) >= n_flag:
-            reasons.append(_window_reason(in_window, f"{plan.window_days} days", n_flag))
-            triggered.extend(in_window)
-    if plan.window_hours is not None:
-        end = current_hours
-        if end is None and any(e.hours is not None for e in past):
-            end = max(e.hours for e in past if e.hours is not None)
-        if end is not None:
-            start_hours = end - plan.window_hours
-            in_window = [e for e in openings if e.hours is not None and e.hours >= start_hours]
-            if in_window and _count(in_window) >= n_flag:
-                window = f"{plan.window_hours:,.0f} engine hours"
-                reasons.append(_window_reason(in_window, window, n_flag))
-                triggered.extend(in_window)
-    if not reasons:
+        hits.append((_count(in_window), f"{plan.window_days} days", in_window))
+    if plan.window_hours is not None and current_hours is not None:
+        start_hours = current_hours - plan.window_hours
+        in_window = [e for e in openings if e.hours is not None and e.hours >= start_hours]
+        hits.append((_count(in_window), f"{plan.window_hours:,.0f} engine hours", in_window))
+    hits = [h for h in hits if h[2] and h[0] >= n_flag]
+    if not hits:
         return None
+    hits.sort(key=lambda h: -h[0])
+    count, window, triggered = hits[0]
+    reason = (
+        f"{count} relief-valve openings in the last {window} ({_span(triggered)}), "
+        f"at or above the {n_flag} that flag a unit"
+    )
+    if len(hits) > 1:
+        reason += f" (also {hits[1][0]} in the last {hits[1][1]})"
+    reason += "."
     return UnitFlag(
         code="relief_valve_repeat",
         title="Rail pressure relief valve opening repeatedly",
-        reason=" ".join(reasons),
+        reason=reason,
         checks=[
             "Check the fuel metering actuator's circuit and connector first: a normally "
             "open actuator that loses its signal passes maximum flow, which drives rail "
@@ -284,17 +303,23 @@ def _relief_repeat_flag(
 
 
 def _relief_life_flag(
-    *, openings: Sequence[EngineEvent], plan: ReliefValvePlan, lifetime: int, now: datetime
+    *,
+    openings: Sequence[EngineEvent],
+    plan: ReliefValvePlan,
+    lifetime: int,
+    since: datetime | None,
+    now: datetime,
 ) -> UnitFlag | None:
     limit = plan.lifetime_openings_to_replace
     if limit is None or lifetime < limit:
         return None
+    fitted = f" since it was fitted on {since:%Y-%m-%d}" if since is not None else ""
     return UnitFlag(
         code="relief_valve_life",
         title="Rail pressure relief valve at its opening limit",
         reason=(
-            f"The relief valve has opened {lifetime} times, at or above the {limit} after "
-            "which the plan replaces it."
+            f"The relief valve has opened {lifetime} times{fitted}, at or above the {limit} "
+            "after which the plan replaces it."
         ),
         checks=[
             "Replace the rail pressure relief valve per the manufacturer's service documentation.",
@@ -323,6 +348,41 @@ def _imbalance_flag(*, imbalance: Sequence[EngineEvent]) -> UnitFlag | None:
         ],
         since=min(e.at for e in imbalance),
         high_pressure=True,
+    )
+
+
+def meter_change_flag(*, change: tuple[datetime, float, float]) -> UnitFlag:
+    """A large drop in the hour-meter readings with no replacement recorded: (moment of the
+    first low reading, engine hours before it, the meter value read) from the usage forecast."""
+    at, before, meter = change
+    return UnitFlag(
+        code="meter_change_unconfirmed",
+        title="Hour meter probably replaced: confirm it",
+        reason=(
+            f"The hour meter read {meter:,.0f} h on {at:%Y-%m-%d}, down from {before:,.0f} h, "
+            "with no meter replacement recorded. Until it is, engine hours are counted on "
+            f"from {before:,.0f} h as if no hours ran between the two readings."
+        ),
+        checks=[
+            "Ask the site whether the hour meter or the instrument cluster was replaced.",
+            "If it was, record the replacement with the old meter's last value and the new "
+            "meter's first; if not, correct the mistyped reading.",
+        ],
+        since=at,
+        high_pressure=False,
+    )
+
+
+def refused_flag(*, reasons: Sequence[str], now: datetime) -> UnitFlag:
+    """Records the engine refused (NaN, infinite, negative, after now): what they would have
+    fed is not projected until they are corrected."""
+    return UnitFlag(
+        code="records_refused",
+        title="Records the projections could not use",
+        reason=" ".join(r if r.endswith(".") else r + "." for r in reasons),
+        checks=["Correct or remove the record named, then the projections are made again."],
+        since=now,
+        high_pressure=False,
     )
 
 

@@ -7,6 +7,15 @@ and the new meter's reading when fitted (common practice).
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from datetime import datetime
+from typing import Final
+
+# A reading this far below the one before it, and below half of it, is not a slip of the
+# pen: the meter was probably replaced (common practice; our own threshold). A single
+# mistyped reading is told apart by the reading after it, which returns to the old level.
+PROBABLE_CHANGE_DROP_H: Final = 100.0
+
 
 def meter_backwards(*, hours: float | None, earlier_hours: float | None, replaced: bool) -> bool:
     """Whether ``hours`` goes back below ``earlier_hours`` with no meter replaced in between.
@@ -52,3 +61,21 @@ def meter_entry_problems(
             f"recorded reading ({last_hours:,.1f} h)."
         )
     return problems
+
+
+def meter_drop(*, points: Sequence[tuple[datetime, float]]) -> int | None:
+    """Index of the first reading after the latest probable unrecorded meter change, or None.
+
+    ``points`` are (moment, hours) oldest first, with recorded replacements already applied.
+    A drop counts when the reading is more than :data:`PROBABLE_CHANGE_DROP_H` below the one
+    before, below half of it, and the next reading (if any) stays below the old level.
+    """
+    found = None
+    for i in range(1, len(points)):
+        before, after = points[i - 1][1], points[i][1]
+        if before - after <= PROBABLE_CHANGE_DROP_H or after >= before / 2:
+            continue
+        if i + 1 < len(points) and points[i + 1][1] >= before:
+            continue  # one mistyped reading: the next one is back at the old level
+        found = i
+    return found

@@ -11,7 +11,14 @@ The water rate in the bowl (mL per engine hour) is a blend of two things:
   of water per hour; water is 1 g/mL, so mL/h = mg/h / 1000; times the
   separator's efficiency (the fraction of free water it removes);
 * the rates observed at past drains: water drained / engine hours since the
-  drain before.
+  drain before. A drain recorded with no amount empties the bowl (the next interval
+  starts there) but gives no rate: an amount nobody wrote down is not 0 mL.
+
+The water in the bowl since the last drain comes from all the fuel burned since then
+(engine hours since the drain x the burn rate), carrying the volume-weighted free water of
+the fuel put in since the drain (or the current fuel's, with none put in), blended with the
+rates past drains measured by the same rule: fuel delivered but not yet burned has not
+passed the separator, and measured drains outweigh a sample.
 
 Observed rates are weighted by recency (the most recent weighs 1, each older one
 ``RECENCY_DECAY`` times the next newer). The sample estimate weighs 1/(1 + n)
@@ -27,7 +34,16 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, timedelta
 
-from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
+from services.common import (
+    Basis,
+    DueDate,
+    DueStatus,
+    Projection,
+    TaskKind,
+    UsageForecast,
+    amount_check,
+    moment_check,
+)
 from services.schedule import (
     due_status,
     earliest_due,
@@ -36,41 +52,11 @@ from services.schedule import (
     plural,
     sentence,
 )
+from services.water_inputs import DrainPlan as DrainPlan
+from services.water_inputs import DrainRecord as DrainRecord
+from services.water_inputs import WaterIntake as WaterIntake
 
 RECENCY_DECAY = 0.7  # weight of an observed rate relative to the next newer one
-
-
-@dataclass(frozen=True, slots=True)
-class DrainPlan:
-    """How a unit's separator is drained."""
-
-    bowl_capacity_ml: float
-    drain_level_fraction: float  # e.g. 0.8: ISO 16332:2018 drains the collector at 80 % full
-    drain_interval_days: int
-    drain_interval_hours: float | None
-    separator_efficiency: float  # 0..1, fraction of free water removed
-    soon_days: int
-    due_days: int
-
-
-@dataclass(frozen=True, slots=True)
-class DrainRecord:
-    """A drain done: when, at what engine hours, and how much water came out."""
-
-    at: datetime
-    hours: float
-    water_ml: float
-
-
-@dataclass(frozen=True, slots=True)
-class WaterIntake:
-    """Fuel burned since the last drain, with its free water."""
-
-    at: datetime
-    litres: float
-    free_water_mg_kg: float
-    density_kg_l: float
-    label: str
 
 
 def water_ml_from_fuel(*, litres: float, free_water_mg_kg: float, density_kg_l: float) -> float:
@@ -86,13 +72,14 @@ def observed_rates(*, records: Sequence[DrainRecord]) -> list[float]:
     """mL per engine hour between consecutive drains, oldest first.
 
     A drain's water accumulated since the drain before it; pairs with no hours
-    between them (or a meter going backwards) are skipped.
+    between them (or a meter going backwards) are skipped, and so is a drain with no
+    amount recorded (it still starts the next interval).
     """
     ordered = sorted(set(records), key=lambda r: (r.hours, r.at))
     rates: list[float] = []
     for before, after in zip(ordered, ordered[1:], strict=False):
         run = after.hours - before.hours
-        if run > 0:
+        if run > 0 and after.water_ml is not None:
             rates.append(max(0.0, after.water_ml) / run)
     return rates
 
@@ -131,7 +118,17 @@ def drain_projection(
     water_in_fuel_since_drain: bool,
     now: datetime,
 ) -> Projection:
-    """Project the next separator drain: the earliest of water level and interval."""
+    """Project the next separator drain: the earliest of water level and interval.
+
+    Drains and fuel inputs after ``now``, and NaN, infinite or negative amounts, are refused.
+    """
+    for record in [*history, *([last_drain] if last_drain else [])]:
+        moment_check(name="drain performed_at", at=record.at, now=now)
+    for i in intakes:
+        moment_check(name="fueling fueled_at", at=i.at, now=now)
+    amount_check(name="burn_l_per_h", value=burn_l_per_h)
+    amount_check(name="current_free_water_mg_kg", value=current_free_water_mg_kg)
+    amount_check(name="density_kg_l", value=density_kg_l)
     efficiency = min(1.0, max(0.0, plan.separator_efficiency))
     drain_level = plan.drain_level_fraction * plan.bowl_capacity_ml
     rate = _water_rate(
@@ -147,7 +144,8 @@ def drain_projection(
     water_so_far, collected = _collected(
         since=since,
         efficiency=efficiency,
-        rate=blended,
+        fuel=(burn_l_per_h, current_free_water_mg_kg, density_kg_l),
+        records=[*history, last_drain],
         last_drain=last_drain,
         current_hours=forecast.current_hours,
     )
@@ -282,23 +280,34 @@ def _collected(
     *,
     since: Sequence[WaterIntake],
     efficiency: float,
-    rate: float,
+    fuel: tuple[float, float, float],  # burn L/h, current free water mg/kg, density kg/L
+    records: Sequence[DrainRecord],
     last_drain: DrainRecord,
     current_hours: float,
 ) -> tuple[float, str]:
-    """(mL of water in the bowl since the last drain, the sentence that says how much)."""
-    if since:
-        water = efficiency * sum(
-            water_ml_from_fuel(
-                litres=i.litres, free_water_mg_kg=i.free_water_mg_kg, density_kg_l=i.density_kg_l
-            )
-            for i in since
-        )
-        how = f"from {plural(len(since), 'fuel input')} since the drain"
+    """(mL of water in the bowl since the last drain, the sentence that says how much).
+
+    All the fuel burned since the drain (hours since x burn) carries the volume-weighted
+    free water of the fuel put in since (the current fuel's when none was put in); that
+    estimate is blended with the rates past drains measured, as the rate ahead is.
+    """
+    burn, current_free_water, density = fuel
+    hours_since = max(0.0, current_hours - last_drain.hours)
+    litres_in = sum(i.litres for i in since)
+    if litres_in > 0:
+        free_water = sum(i.litres * i.free_water_mg_kg for i in since) / litres_in
+        kg_per_l = sum(i.litres * i.density_kg_l for i in since) / litres_in
+        of = f"free water {free_water:,.0f} mg/kg from {plural(len(since), 'fuel input')}"
     else:
-        hours_since = max(0.0, current_hours - last_drain.hours)
-        water = rate * hours_since
-        how = f"estimated at {rate:.2f} mL/h over {fmt_hours(hours_since)} (no fuel inputs)"
+        free_water, kg_per_l = current_free_water, density
+        of = f"free water {free_water:,.0f} mg/kg of the current fuel (no fuel inputs)"
+    rate = _water_rate(sample=(free_water, burn, efficiency, kg_per_l), records=records)
+    water = rate.rate * hours_since
+    how = (
+        f"{hours_since * burn:,.0f} L burned over {fmt_hours(hours_since)} at {burn:.1f} L/h, {of}"
+    )
+    if rate.observed:
+        how += f"; {rate.rate:.2f} mL/h with the rates past drains measured"
     return water, (
         f"About {water:,.0f} mL collected since the drain at {fmt_hours(last_drain.hours)} "
         f"on {last_drain.at.date().isoformat()} ({how})."

@@ -58,14 +58,39 @@ class UnitFuel:
 
 
 def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
+    """A unit's projections and flags. Inputs services/ refuses (NaN, infinite, negative,
+    after now) skip what they feed, with the reason, and flag the unit: never a crash."""
     unit = b.unit
-    forecast = unit_forecast(b, now=now)
+    refused = [f"hour meter: {reason}" for reason in b.refused]  # rows the selectors refused
+    try:
+        forecast = unit_forecast(b, now=now)
+    except ValueError as exc:
+        refused.append(f"usage forecast: {exc}")
+        return UnitResult(unit.pk, unit.site_id, [], [fl.refused_flag(reasons=refused, now=now)],
+                          refused, 0.0, 0.0)  # fmt: skip
     if unit.disposed_on is not None and unit.disposed_on <= now.date():
         # A disposed unit is no longer serviced: no items, no flags (its history stays).
         return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0)
-    fuel = unit_fuel(b, batch)
+    try:
+        fuel = unit_fuel(b, batch)
+    except ValueError as exc:
+        refused.append(f"fuel and engine records: {exc}")
+        fuel = UnitFuel(paired=[], source_names={}, events=[], burn=None)
+    results, skipped = unit_tasks(b, fuel, forecast, now, refused)
+    unit_flags = unit_flags_compute(b, fuel, forecast, now, refused)
+    return UnitResult(
+        unit.pk, unit.site_id, results, unit_flags, skipped + refused, forecast.current_hours,
+        forecast.rate,
+    )  # fmt: skip
+
+
+def unit_tasks(
+    b: UnitInputs, fuel: UnitFuel, forecast: UsageForecast, now: datetime, refused: list[str]
+) -> tuple[list[ComponentProjection], list[str]]:
+    """The unit's filter changes and separator drain; a refused input skips its task only."""
     results: list[ComponentProjection] = []
-    skipped: list[str] = list(fuel.refused)
+    skipped: list[str] = []
+    refused.extend(fuel.refused)  # fuel records services/ refused: flagged with the rest
     for comp_kind, task in FILTER_TASKS.items():
         comp = b.filters.get(comp_kind)
         plan = b.plans.get(comp_kind)
@@ -74,37 +99,54 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
             continue
         try:
             projection = filter_compute(b, comp, plan, task, fuel, forecast, now)
-        except ValueError as exc:  # a number services/ refuses: skipped, with its reason
-            skipped.append(f"{task.label}: {exc}")
+        except ValueError as exc:
+            refused.append(f"{task.label}: {exc}")
             continue
         results.append(ComponentProjection(comp.pk, projection))
     primary = b.filters.get(ComponentKind.PRIMARY_FILTER)
     plan = b.plans.get(ComponentKind.PRIMARY_FILTER)
     if primary and plan and plan.bowl_capacity_ml and plan.drain_interval_days:
         try:
-            drain = drain_compute(b, plan, fuel, forecast, now)
-            results.append(ComponentProjection(primary.pk, drain))
-        except ValueError as exc:  # a number services/ refuses: skipped, with its reason
-            skipped.append(f"{TaskKind.SEPARATOR_DRAIN.label}: {exc}")
+            results.append(
+                ComponentProjection(primary.pk, drain_compute(b, plan, fuel, forecast, now))
+            )
+        except ValueError as exc:
+            refused.append(f"{TaskKind.SEPARATOR_DRAIN.label}: {exc}")
     else:
         skipped.append(
             f"{TaskKind.SEPARATOR_DRAIN.label}: no separator plan (bowl capacity, drain interval)"
         )
+    return results, skipped
+
+
+def unit_flags_compute(
+    b: UnitInputs, fuel: UnitFuel, forecast: UsageForecast, now: datetime, refused: list[str]
+) -> list[fl.UnitFlag]:
+    """The unit's flags: relief valve, pump, a probable unrecorded meter change, and the
+    records the engine refused (``refused`` is complete once the tasks have run)."""
     relief = b.plans.get(ComponentKind.RELIEF_VALVE)
-    unit_flags = fl.unit_flags(
-        events=fuel.events,
-        relief_plan=fl.relief_valve_plan(
-            window_hours=relief.relief_window_hours if relief else None,
-            window_days=relief.relief_window_days if relief else None,
-            openings_to_flag=relief.relief_openings_to_flag if relief else None,
-            lifetime_openings_to_replace=relief.relief_lifetime_openings if relief else None,
-        ),
-        lifetime_relief_openings=b.lifetime_relief_openings,
-        now=now,
-    )
-    return UnitResult(
-        unit.pk, unit.site_id, results, unit_flags, skipped, forecast.current_hours, forecast.rate
-    )
+    flags: list[fl.UnitFlag] = []
+    try:
+        flags = fl.unit_flags(
+            events=fuel.events,
+            relief_plan=fl.relief_valve_plan(
+                window_hours=relief.relief_window_hours if relief else None,
+                window_days=relief.relief_window_days if relief else None,
+                openings_to_flag=relief.relief_openings_to_flag if relief else None,
+                lifetime_openings_to_replace=relief.relief_lifetime_openings if relief else None,
+            ),
+            lifetime_relief_openings=b.lifetime_relief_openings,
+            now=now,
+            current_hours=forecast.current_hours if forecast.carried_to is not None else None,
+            valve_replaced_at=b.valve_replaced_at,
+        )
+    except ValueError as exc:
+        refused.append(f"engine events: {exc}")
+    if forecast.probable_meter_change is not None:
+        flags.append(fl.meter_change_flag(change=forecast.probable_meter_change))
+    if refused:
+        flags.append(fl.refused_flag(reasons=refused, now=now))
+    return flags
 
 
 def engine_hours_at(b: UnitInputs, at: datetime, meter: float) -> float:
@@ -277,7 +319,7 @@ def drain_compute(
 ) -> Projection:
     """The separator's next drain (the plan has a bowl capacity and a drain interval)."""
     records = [
-        water.DrainRecord(at=at, hours=engine_hours_at(b, at, meter), water_ml=ml or 0.0)
+        water.DrainRecord(at=at, hours=engine_hours_at(b, at, meter), water_ml=ml)
         for at, meter, ml in b.drains
         if meter is not None
     ]

@@ -9,13 +9,14 @@ page to know whether a next page exists, so it never counts the whole table.
 
 from __future__ import annotations
 
+import math
 from collections import defaultdict
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from datetime import date, datetime, timedelta
+from datetime import date, datetime, time, timedelta
 from typing import Any
 
-from django.db.models import Count, Exists, OuterRef, QuerySet, Subquery, Sum
+from django.db.models import Count, Exists, OuterRef, Q, QuerySet, Subquery, Sum
 
 from fleetfuel.fleet.models import (
     Component,
@@ -56,8 +57,14 @@ class UnitInputs:
     fuelings: list[Fueling] = field(default_factory=list)
     unit_samples: list[FuelSample] = field(default_factory=list)
     events: list[EngineEvent] = field(default_factory=list)
-    lifetime_relief_openings: int = 0
+    lifetime_relief_openings: int = 0  # since the relief valve's last replacement
     dp_readings: dict[int, list[FilterPressureReading]] = field(default_factory=dict)
+    # Evidence for the unit's current hours beside its readings (see services/usage.carry):
+    latest_fueled_at: datetime | None = None  # the latest fueling: the unit worked until then
+    latest_service: tuple[datetime, float] | None = None  # latest ledger hour meter (meter)
+    latest_fitted: tuple[date, float] | None = None  # latest part fitted, at meter hours
+    valve_replaced_at: datetime | None = None  # the relief valve's last replacement or fitting
+    refused: list[str] = field(default_factory=list)  # rows services/ refused, with the reason
 
 
 @dataclass
@@ -68,19 +75,39 @@ class BatchInputs:
 
 
 def unit_forecast(b: UnitInputs, *, now: datetime) -> UsageForecast:
-    """A unit's usage forecast: the one its due dates use and its page draws."""
+    """A unit's usage forecast: the one its due dates use and its page draws.
+
+    Its hours never fall below the latest hour meter the ledger recorded or the hours at
+    which a fitted part went on (engine hours), and are carried past the last reading only
+    as far as the latest fueling allows (services/usage.py). Seeded by the unit's id.
+    """
+    floors = []
+    if b.latest_service is not None:
+        at, meter = b.latest_service
+        floors.append(
+            (at, usage.meter_to_engine_hours(meter=meter, at=at, replacements=b.replacements))
+        )
+    if b.latest_fitted is not None:
+        on, meter = b.latest_fitted
+        at = datetime.combine(on, time(), tzinfo=now.tzinfo)
+        floors.append(
+            (at, usage.meter_to_engine_hours(meter=meter, at=at, replacements=b.replacements))
+        )
     return usage.unit_usage_forecast(
         window_readings=b.readings,
         latest=b.latest_reading,
         replacements=b.replacements,
         now=now,
         class_rate=b.unit.unit_class.typical_hours_per_day,
+        floor=max(floors, key=lambda f: f[1]) if floors else None,
+        evidence_at=b.latest_fueled_at,
+        seed=b.unit.pk,
     )
 
 
 def unit_forecast_get(*, unit_id: int, now: datetime) -> UsageForecast:
     """One unit's usage forecast, as the engine computes it (three queries)."""
-    bundles = _units_load(unit_ids=[unit_id])  # 1. the unit with its class and latest reading
+    bundles = _units_load(unit_ids=[unit_id], now=now)  # 1. the unit, class, latest records
     _readings_load(bundles=bundles, now=now)  # 2. its readings in the forecast window
     _replacements_load(bundles=bundles)  # 3. its meter replacements
     return unit_forecast(bundles[unit_id], now=now)
@@ -89,7 +116,7 @@ def unit_forecast_get(*, unit_id: int, now: datetime) -> UsageForecast:
 def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     """Twelve queries for any number of units (each named below)."""
     since = now - timedelta(days=LOOKBACK_DAYS)
-    bundles = _units_load(unit_ids=unit_ids)  # 1. units, class, site and latest reading
+    bundles = _units_load(unit_ids=unit_ids, now=now)  # 1. units, class, site, latest records
     ids = list(bundles)
     # 2. fitted filters
     for comp in Component.objects.filter(
@@ -122,29 +149,72 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     )
 
 
-def _units_load(*, unit_ids: list[int]) -> dict[int, UnitInputs]:
-    """One query: the units with class and site, and each one's latest meter reading."""
-    latest = MeterReading.objects.filter(unit_id=OuterRef("pk")).order_by("-taken_at")
+def _units_load(*, unit_ids: list[int], now: datetime) -> dict[int, UnitInputs]:
+    """One query: the units with class and site, and each one's latest meter reading,
+    fueling, ledger hour meter, fitted part and relief-valve replacement (all up to now)."""
+    latest = MeterReading.objects.filter(unit_id=OuterRef("pk"), taken_at__lte=now).order_by(
+        "-taken_at"
+    )
+    fueled = Fueling.objects.filter(unit_id=OuterRef("pk"), fueled_at__lte=now)
+    service = ServiceEvent.objects.filter(
+        unit_id=OuterRef("pk"), performed_at__lte=now, hour_meter__isnull=False
+    ).order_by("-performed_at")
+    fitted = Component.objects.filter(
+        unit_id=OuterRef("pk"), installed_on__lte=now.date(), removed_on__isnull=True
+    ).order_by("-installed_on", "-installed_hours")
+    valve = ServiceEvent.objects.filter(
+        unit_id=OuterRef("pk"), performed_at__lte=now, kind=ServiceEvent.Kind.RELIEF_VALVE_REPLACED
+    ).order_by("-performed_at")
+    valve_fitted = fitted.filter(kind=ComponentKind.RELIEF_VALVE)
     units = (
         Unit.objects.filter(pk__in=unit_ids)
         .select_related("unit_class", "site")
         .annotate(
             latest_at=Subquery(latest.values("taken_at")[:1]),
             latest_hours=Subquery(latest.values("hours")[:1]),
+            fueled_at=Subquery(fueled.order_by("-fueled_at").values("fueled_at")[:1]),
+            service_at=Subquery(service.values("performed_at")[:1]),
+            service_meter=Subquery(service.values("hour_meter")[:1]),
+            fitted_on=Subquery(fitted.values("installed_on")[:1]),
+            fitted_hours=Subquery(fitted.values("installed_hours")[:1]),
+            valve_at=Subquery(valve.values("performed_at")[:1]),
+            valve_on=Subquery(valve_fitted.values("installed_on")[:1]),
         )
         .order_by("pk")
     )
-    return {
-        u.pk: UnitInputs(
-            unit=u,
-            latest_reading=(
-                usage.MeterReading(at=u.latest_at, hours=u.latest_hours)  # type: ignore[attr-defined]
-                if u.latest_at is not None  # type: ignore[attr-defined]
-                else None
-            ),
-        )
-        for u in units
-    }
+    return {u.pk: _unit_inputs(u, now=now) for u in units}
+
+
+def _unit_inputs(u: Any, *, now: datetime) -> UnitInputs:
+    valve = [u.valve_at] if u.valve_at is not None else []
+    if u.valve_on is not None:
+        valve.append(datetime.combine(u.valve_on, time(), tzinfo=now.tzinfo))
+    b = UnitInputs(
+        unit=u,
+        latest_reading=None,
+        latest_fueled_at=u.fueled_at,
+        latest_service=(u.service_at, u.service_meter) if _hours_ok(u.service_meter) else None,
+        latest_fitted=(u.fitted_on, u.fitted_hours) if _hours_ok(u.fitted_hours) else None,
+        valve_replaced_at=max(valve) if valve else None,
+    )
+    if u.latest_at is not None:
+        b.latest_reading = _reading_make(b, at=u.latest_at, hours=u.latest_hours)
+    return b
+
+
+def _hours_ok(hours: float | None) -> bool:
+    """A recorded hour meter that can stand as the unit's floor (a number, not negative)."""
+    return hours is not None and math.isfinite(hours) and hours >= 0
+
+
+def _reading_make(b: UnitInputs, *, at: datetime, hours: float) -> usage.MeterReading | None:
+    """A meter reading as services/ takes it, or None with the reason kept on the unit."""
+    try:
+        return usage.MeterReading(at=at, hours=hours)
+    except ValueError as exc:
+        if str(exc) not in b.refused:
+            b.refused.append(str(exc))
+        return None
 
 
 def _readings_load(*, bundles: dict[int, UnitInputs], now: datetime) -> None:
@@ -156,18 +226,23 @@ def _readings_load(*, bundles: dict[int, UnitInputs], now: datetime) -> None:
         .order_by("unit_id", "taken_at")
         .values_list("unit_id", "taken_at", "hours")
     ):
-        bundles[unit_id].readings.append(usage.MeterReading(at=at, hours=hours))
+        reading = _reading_make(bundles[unit_id], at=at, hours=hours)
+        if reading is not None:
+            bundles[unit_id].readings.append(reading)
 
 
 def _replacements_load(*, bundles: dict[int, UnitInputs]) -> None:
     for rep in MeterReplacement.objects.filter(unit_id__in=list(bundles)).order_by("replaced_at"):
-        bundles[rep.unit_id].replacements.append(
-            usage.MeterReplacement(
-                at=rep.replaced_at,
-                old_meter_final=rep.old_meter_final,
-                new_meter_start=rep.new_meter_start,
+        try:
+            bundles[rep.unit_id].replacements.append(
+                usage.MeterReplacement(
+                    at=rep.replaced_at,
+                    old_meter_final=rep.old_meter_final,
+                    new_meter_start=rep.new_meter_start,
+                )
             )
-        )
+        except ValueError as exc:
+            bundles[rep.unit_id].refused.append(str(exc))
 
 
 def _ledger_load(*, bundles: dict[int, UnitInputs], now: datetime, since: datetime) -> None:
@@ -215,9 +290,25 @@ def _events_load(*, bundles: dict[int, UnitInputs], now: datetime, since: dateti
         unit_id__in=ids, occurred_at__gte=since, occurred_at__lte=now
     ).order_by("unit_id", "occurred_at"):
         bundles[e.unit_id].events.append(e)
+    # Openings since the valve's last replacement (a ledger event) or fitting (a component).
+    replaced_since = ServiceEvent.objects.filter(
+        unit_id=OuterRef("unit_id"),
+        kind=ServiceEvent.Kind.RELIEF_VALVE_REPLACED,
+        performed_at__gte=OuterRef("occurred_at"),
+        performed_at__lte=now,
+    )
+    fitted_since = Component.objects.filter(
+        unit_id=OuterRef("unit_id"),
+        kind=ComponentKind.RELIEF_VALVE,
+        removed_on__isnull=True,
+        installed_on__gt=OuterRef("occurred_at"),  # midnight of the day it went on
+        installed_on__lte=now.date(),
+    )
     for unit_id, total in (
         EngineEvent.objects.filter(
-            unit_id__in=ids, kind=EngineEvent.Kind.RELIEF_VALVE_OPENED, occurred_at__lte=now
+            Q(unit_id__in=ids, kind=EngineEvent.Kind.RELIEF_VALVE_OPENED, occurred_at__lte=now),
+            ~Exists(replaced_since),
+            ~Exists(fitted_since),
         )
         .values("unit_id")
         .annotate(total=Sum("occurrences"))

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from datetime import datetime, timedelta
 
+import pytest
+
 from services.common import TaskKind
 from services.flags import (
     J1939_FMI,
@@ -99,22 +101,24 @@ def test_day_window_just_outside_does_not_count() -> None:
     assert flags == []
 
 
-def test_future_events_are_ignored() -> None:
+def test_future_events_are_refused_naming_the_field() -> None:
     events = [opened(NOW + timedelta(hours=1), count=5)]
-    assert (
-        unit_flags(events=events, relief_plan=DAYS_PLAN, lifetime_relief_openings=5, now=NOW) == []
-    )
+    with pytest.raises(ValueError, match="engine event occurred_at is after now"):
+        unit_flags(events=events, relief_plan=DAYS_PLAN, lifetime_relief_openings=5, now=NOW)
 
 
 def test_hour_window_edges() -> None:
-    # Window 100 h ending at the latest event (2,000 h): 1,900 h is inside, 1,899.9 out.
+    # Window 100 h ending at the unit's current hours (2,000 h): 1,900 h is inside, 1,899.9 out.
     inside = [opened(NOW - timedelta(days=9), hours=1_900.0), opened(NOW, count=2, hours=2_000.0)]
     outside = [opened(NOW - timedelta(days=9), hours=1_899.9), opened(NOW, count=2, hours=2_000.0)]
     kw = {"relief_plan": HOURS_PLAN, "lifetime_relief_openings": 0, "now": NOW}
-    assert len(unit_flags(events=inside, **kw)) == 1  # type: ignore[arg-type]
-    assert unit_flags(events=outside, **kw) == []  # type: ignore[arg-type]
-    # With current hours given, the window ends there instead: 2,050 h -> starts 1,950 h.
+    assert len(unit_flags(events=inside, current_hours=2_000.0, **kw)) == 1  # type: ignore[arg-type]
+    assert unit_flags(events=outside, current_hours=2_000.0, **kw) == []  # type: ignore[arg-type]
+    # The unit has run on since: at 2,050 h the window starts at 1,950 h, and the openings
+    # no longer flag it (the window never ends at the last event).
     assert unit_flags(events=inside, current_hours=2_050.0, **kw) == []  # type: ignore[arg-type]
+    # Hours unknown: no hour window at all.
+    assert unit_flags(events=inside, **kw) == []  # type: ignore[arg-type]
 
 
 def test_either_window_triggers_when_both_are_set() -> None:
@@ -123,9 +127,18 @@ def test_either_window_triggers_when_both_are_set() -> None:
     )
     # Spread over 50 h (hour window misses) but within 30 days (day window hits).
     events = [opened(NOW - timedelta(days=d), hours=2_000.0 - 10 * d) for d in (1, 3, 5)]
-    flags = unit_flags(events=events, relief_plan=both, lifetime_relief_openings=3, now=NOW)
+    flags = unit_flags(
+        events=events, relief_plan=both, lifetime_relief_openings=3, now=NOW, current_hours=2_000.0
+    )
     assert [f.code for f in flags] == ["relief_valve_repeat"]
     assert "30 days" in flags[0].reason and "engine hours" not in flags[0].reason
+    # Both windows hit: still one reason, one sentence (the other window named within it).
+    close = [opened(NOW - timedelta(days=d), hours=2_000.0 - d) for d in (1, 3, 5)]
+    (flag,) = unit_flags(
+        events=close, relief_plan=both, lifetime_relief_openings=3, now=NOW, current_hours=2_000.0
+    )
+    assert flag.reason.count(".") == 1 and flag.reason.count("relief-valve openings") == 1
+    assert "also 3 in the last 10 engine hours" in flag.reason
 
 
 def test_relief_flag_checks_in_order() -> None:
@@ -248,3 +261,49 @@ def test_high_pressure_flags_are_marked_so_pages_show_the_caution() -> None:
         "pumping_imbalance",
     ]
     assert all(f.high_pressure for f in flags)
+
+
+def test_openings_before_the_valve_was_replaced_do_not_count() -> None:
+    # common practice: a new valve starts a new count. Five openings two days ago, the valve
+    # replaced yesterday: neither the repeat flag nor the life flag stays.
+    plan = ReliefValvePlan(
+        window_hours=None, window_days=30, openings_to_flag=3, lifetime_openings_to_replace=5
+    )
+    events = [opened(NOW - timedelta(days=2), count=5)]
+    kw = {"events": events, "relief_plan": plan, "now": NOW}
+    before = unit_flags(lifetime_relief_openings=5, **kw)  # type: ignore[arg-type]
+    assert [f.code for f in before] == ["relief_valve_repeat", "relief_valve_life"]
+    replaced = NOW - timedelta(days=1)
+    # The caller counts the lifetime openings since the replacement: 0.
+    after = unit_flags(lifetime_relief_openings=0, valve_replaced_at=replaced, **kw)  # type: ignore[arg-type]
+    assert after == []
+    # Openings on the new valve count again, and the life flag says since when.
+    new = [*events, opened(NOW - timedelta(hours=3), count=5)]
+    flags = unit_flags(
+        events=new,
+        relief_plan=plan,
+        now=NOW,
+        lifetime_relief_openings=5,
+        valve_replaced_at=replaced,
+    )
+    assert [f.code for f in flags] == ["relief_valve_repeat", "relief_valve_life"]
+    assert flags[0].reason.startswith("5 relief-valve openings")
+    assert f"since it was fitted on {replaced:%Y-%m-%d}" in flags[1].reason
+
+
+@pytest.mark.parametrize(
+    ("field", "kwargs"),
+    [
+        ("engine event hours", {"hours": float("nan")}),
+        ("engine event hours", {"hours": float("inf")}),
+        ("engine event count", {"count": -1}),
+        ("engine event fmi", {"fmi": 32}),
+    ],
+)
+def test_bad_engine_events_are_refused_naming_the_field(
+    field: str, kwargs: dict[str, object]
+) -> None:
+    # SAE J1939-73: the FMI is a 5-bit field (0 to 31); counts and hours cannot be negative.
+    base: dict[str, object] = {"at": NOW, "hours": 10.0, "spn": 5571, "fmi": 31, "count": 1}
+    with pytest.raises(ValueError, match=field):
+        EngineEvent(kind="relief_valve_opened", **{**base, **kwargs})  # type: ignore[arg-type]

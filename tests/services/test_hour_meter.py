@@ -3,10 +3,12 @@ reading below an earlier one needs a recorded meter replacement."""
 
 from __future__ import annotations
 
+from datetime import UTC, datetime, timedelta
+
 from hypothesis import given
 from hypothesis import strategies as st
 
-from services.hour_meter import meter_backwards, meter_entry_problems
+from services.hour_meter import meter_backwards, meter_drop, meter_entry_problems
 
 hours = st.floats(min_value=0, max_value=100_000, allow_nan=False)
 
@@ -70,3 +72,30 @@ def test_the_old_meters_final_reading_cannot_be_below_its_last_reading() -> None
         problems(hour_meter=3.5, meter_replaced=True, meter_new_start=0.0, meter_old_final=1_995.0)
         == []
     )
+
+
+# --- a meter replacement nobody recorded -------------------------------------------------
+
+T = datetime(2026, 3, 1, tzinfo=UTC)
+
+
+def _points(values: list[float]) -> list[tuple[datetime, float]]:
+    return [(T + timedelta(days=i), v) for i, v in enumerate(values)]
+
+
+def test_a_large_lasting_drop_is_a_probable_meter_change() -> None:
+    # common practice: an hour meter only counts up; a drop from 5,400 h to 10 h that the
+    # next readings continue from is a new meter, not a slip.
+    assert meter_drop(points=_points([5_380.0, 5_390.0, 5_400.0, 10.0, 20.0])) == 3
+    # The latest drop wins when there are two.
+    assert meter_drop(points=_points([9_000.0, 4_000.0, 4_010.0, 100.0, 110.0])) == 3
+
+
+def test_a_slip_or_a_small_drop_is_not_a_meter_change() -> None:
+    # One mistyped reading: the next is back at the old level.
+    assert meter_drop(points=_points([5_390.0, 5_400.0, 540.0, 5_420.0])) is None
+    # A drop of 100 h or less, or to half or more of the reading before, is not flagged here
+    # (the closing rules catch readings going backwards).
+    assert meter_drop(points=_points([5_400.0, 5_300.0, 5_310.0])) is None
+    assert meter_drop(points=_points([150.0, 40.0, 50.0])) == 1
+    assert meter_drop(points=_points([400.0, 250.0, 260.0])) is None

@@ -9,6 +9,7 @@ from datetime import UTC, date, datetime, timedelta
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from scipy.stats import t as scipy_t
 
 from services.common import UsageForecast
 from services.usage import (
@@ -22,6 +23,7 @@ from services.usage import (
     unit_usage_forecast,
     usage_forecast,
 )
+from services.usage_band import intervals_from, rate_band, splitmix64, t_quantile
 
 T0 = datetime(2026, 1, 1, tzinfo=UTC)
 NOW = T0 + timedelta(days=120)
@@ -130,22 +132,33 @@ def test_idle_weeks_do_not_swing_the_rate():
     assert forecast.rate_low <= window_average <= forecast.rate_high
 
 
-def test_readings_before_the_window_and_after_now_are_ignored():
+def test_readings_before_the_window_are_ignored_and_after_now_refused():
     # By construction: 2 h/day for the first 30 days, then 12 h/day; the 90-day window
-    # sees only the 12 h/day part. A reading after `now` must not count.
+    # sees only the 12 h/day part. A reading after `now` is refused, naming the field.
     rates = [2.0] * 30 + [12.0] * 91
     readings = _series(rates)
-    readings.append(MeterReading(at=NOW + timedelta(days=5), hours=0.0))
     assert _forecast(readings).rate == pytest.approx(12.0, rel=1e-12)
+    readings.append(MeterReading(at=NOW + timedelta(days=5), hours=0.0))
+    with pytest.raises(ValueError, match="meter reading taken_at is after now"):
+        _forecast(readings)
 
 
 def test_current_hours_are_extrapolated_to_now():
     # Hand-worked: 10 h/day, last reading 2,200 h at day 120 00:00; now is day 121 12:00:
     # 2,200 + 10 x 1.5 = 2,215 h.
+    # Within one usual interval (the readings are daily) the hours are carried at the rate:
+    # 12 h after the last reading, 2,200 + 10 x 0.5 = 2,205 h.
+    forecast = _forecast(_series([10.0] * 121), now=T0 + timedelta(days=120, hours=12))
+    assert forecast.current_hours == pytest.approx(2_205.0)
+    assert "extrapolated" in forecast.note
+    # Past it, with no reading and no fueling since, they stop one interval (1 day) after
+    # the last reading: 2,200 + 10 x 1 = 2,210 h, not 2,215 h (common practice: hours a
+    # unit did not record are not invented).
     now = T0 + timedelta(days=121, hours=12)
     forecast = _forecast(_series([10.0] * 121), now=now)
-    assert forecast.current_hours == pytest.approx(2_215.0)
-    assert "extrapolated" in forecast.note
+    assert forecast.current_hours == pytest.approx(2_210.0)
+    assert "no reading since 2026-05-01" in forecast.note
+    assert forecast.carried_to == T0 + timedelta(days=121)
 
 
 def test_few_readings_widen_the_band():
@@ -166,13 +179,17 @@ def test_old_readings_are_used_when_the_window_has_too_few():
 
 
 def test_one_reading_falls_back_to_the_class_default():
-    # Brief: class default rate with a 0.5x-1.5x band. Hand-worked current hours:
-    # 1,000 h at day 0, 120 days at 8 h/day -> 1,960 h.
+    # Brief: class default rate with a 0.5x-1.5x band. One reading, 1,000 h at day 0, says
+    # nothing of how often the unit is read, and nothing since says it ran: current hours
+    # stay at 1,000 h (not 1,000 + 120 x 8 = 1,960 h), and the note says why.
     forecast = _forecast(_series([10.0])[:1], class_rate=8.0)
     assert forecast.basis == "class_default"
     assert (forecast.rate, forecast.rate_low, forecast.rate_high) == (8.0, 4.0, 12.0)
-    assert forecast.current_hours == pytest.approx(1_960.0)
-    assert "class default" in forecast.note
+    assert forecast.current_hours == pytest.approx(1_000.0)
+    assert "class default" in forecast.note and "no reading since 2026-01-01" in forecast.note
+    # A fueling 30 days later is evidence it ran until then: 1,000 + 30 x 8 = 1,240 h.
+    fuelled = _forecast(_series([10.0])[:1], class_rate=8.0, evidence_at=T0 + timedelta(days=30))
+    assert fuelled.current_hours == pytest.approx(1_240.0)
 
 
 def test_no_readings_falls_back_to_the_class_default():
@@ -291,8 +308,9 @@ def test_unit_forecast_is_fitted_on_ninety_days_and_the_latest_reading():
 
 def test_a_unit_read_rarely_keeps_its_latest_reading():
     # One reading in the window (day -20, 2,800 h) and the latest before it (day -120,
-    # 2,000 h, outside the window): 800 h in 100 days is 8 h/day, extrapolated 20 days to
-    # 2,960 h now. Without the latest reading the class default would stand.
+    # 2,000 h, outside the window): 800 h in 100 days is 8 h/day, carried one usual interval
+    # between readings past the last one, at most 7 days: 2,800 + 7 x 8 = 2,856 h now (no
+    # fueling since says it ran longer). Without the latest reading the class default stands.
     recent = MeterReading(at=NOW - timedelta(days=20), hours=2_800.0)
     old = MeterReading(at=NOW - timedelta(days=120), hours=2_000.0)
     forecast = unit_usage_forecast(
@@ -300,7 +318,7 @@ def test_a_unit_read_rarely_keeps_its_latest_reading():
     )
     assert forecast.basis == "readings"
     assert forecast.rate == pytest.approx(8.0)
-    assert forecast.current_hours == pytest.approx(2_960.0)
+    assert forecast.current_hours == pytest.approx(2_856.0)
     alone = unit_usage_forecast(
         window_readings=[recent], latest=None, replacements=[], now=NOW, class_rate=3.0
     )
@@ -366,3 +384,132 @@ def test_date_for_hours_caps_at_ten_years():
     )
     assert latest == date(2036, 3, 1)
     assert earliest <= central < latest
+
+
+# --- one rule at a meter swap, a swap nobody recorded, the floor ---------------------------
+
+
+def test_a_reading_at_the_instant_of_a_swap_belongs_to_the_new_meter_everywhere():
+    # Swap at noon: old meter 5,400 h, new one fitted at 0 h, read at that very moment at 0 h.
+    # Offset 5,400 - 0: the reading is 5,400 engine hours in both functions (one rule).
+    swap_at = T0 + timedelta(days=10, hours=12)
+    swap = MeterReplacement(at=swap_at, old_meter_final=5_400.0, new_meter_start=0.0)
+    (point,) = engine_hours(readings=[MeterReading(at=swap_at, hours=0.0)], replacements=[swap])
+    assert point[1] == 5_400.0
+    assert meter_to_engine_hours(meter=0.0, at=swap_at, replacements=[swap]) == 5_400.0
+    # A second before the swap the old meter still reads as itself.
+    before = swap_at - timedelta(seconds=1)
+    assert engine_hours(readings=[MeterReading(at=before, hours=5_400.0)], replacements=[swap])[0][
+        1
+    ] == meter_to_engine_hours(meter=5_400.0, at=before, replacements=[swap])
+
+
+def test_an_unrecorded_swap_is_reported_not_read_as_idle():
+    # 10 h/day to 5,400 h on day 110, then a new meter from 0 h: 10, 20, ... (by construction).
+    readings = _series([10.0] * 110)[:110] + [
+        MeterReading(at=T0 + timedelta(days=110 + d), hours=10.0 * d) for d in range(11)
+    ]
+    forecast = _forecast(readings)
+    assert forecast.probable_meter_change is not None
+    at, before, meter = forecast.probable_meter_change
+    assert (at, meter) == (T0 + timedelta(days=110), 0.0) and before == pytest.approx(2_090.0)
+    assert forecast.basis == "readings" and forecast.rate == pytest.approx(10.0, rel=0.05)
+    assert "probably a meter change" in forecast.note and "Idle" not in forecast.note
+
+
+def test_current_hours_never_fall_below_the_last_service_record():
+    # No readings; a filter changed at 1,000 h ten days ago: current hours are 1,000 h (not
+    # 0 h), carried no further without evidence.
+    floor = (NOW - timedelta(days=10), 1_000.0)
+    forecast = _forecast([], floor=floor)
+    assert forecast.current_hours == 1_000.0
+    assert "last service record" in forecast.note
+    # A reading below a later service record does not pull the hours down.
+    forecast = _forecast([MeterReading(at=NOW - timedelta(days=20), hours=900.0)], floor=floor)
+    assert forecast.current_hours == 1_000.0
+
+
+@pytest.mark.parametrize(
+    ("field", "make"),
+    [
+        ("hours", lambda: MeterReading(at=NOW, hours=float("nan"))),
+        ("hours", lambda: MeterReading(at=NOW, hours=float("-inf"))),
+        ("hours", lambda: MeterReading(at=NOW, hours=-1.0)),
+        ("old_meter_final", lambda: MeterReplacement(NOW, float("inf"), 0.0)),
+        ("class_rate", lambda: _forecast([], class_rate=float("nan"))),
+        ("evidence_at", lambda: _forecast([], evidence_at=NOW + timedelta(days=1))),
+    ],
+)
+def test_bad_inputs_are_refused_naming_the_field(field, make):
+    with pytest.raises(ValueError, match=field):
+        make()
+
+
+# --- the band covers (simulation) --------------------------------------------------------
+
+
+def _simulated_units(n_units: int, seed: int):
+    """(true rate, weekly readings over 91 days) per unit. Parameters `from memory`, as a
+    plausible fleet: true rates uniform 2-16 h/day, each day's hours the true rate times a
+    gamma(shape 2, scale 0.5) factor (mean 1, coefficient of variation 71 %), read weekly."""
+    rng = random.Random(seed)
+    for _ in range(n_units):
+        rate = rng.uniform(2.0, 16.0)
+        hours = rng.uniform(500.0, 5_000.0)
+        readings = [MeterReading(at=NOW - timedelta(days=91), hours=hours)]
+        for day in range(1, 92):
+            hours += rate * rng.gammavariate(2.0, 0.5)
+            if day % 7 == 0:
+                readings.append(MeterReading(at=NOW - timedelta(days=91 - day), hours=hours))
+        yield rate, readings
+
+
+def test_the_nominal_90_percent_band_covers_the_true_rate():
+    # Documented simulation (parameters `from memory`, seeded): 300 units read weekly. The
+    # band from interval rates covers each unit's true rate at least 85 % of the time; Sen's
+    # interval on the cumulative readings, the old band, covered far less (37 % on main).
+    units = list(_simulated_units(300, seed=20261202))
+    covered = sen_covered = 0
+    for i, (rate, readings) in enumerate(units):
+        forecast = usage_forecast(
+            readings=readings, replacements=[], now=NOW, class_rate=8.0, seed=i
+        )
+        covered += forecast.rate_low <= rate <= forecast.rate_high
+        xs = [(r.at - readings[0].at).total_seconds() / 86_400 for r in readings]
+        sen = theil_sen(xs=xs, ys=[r.hours for r in readings], confidence=0.90)
+        sen_covered += sen is not None and sen.low <= rate <= sen.high
+    assert covered / len(units) >= 0.85
+    assert sen_covered / len(units) < 0.60
+
+
+def test_the_bootstrap_band_alone_covers_without_the_floors():
+    # The same simulation, the bootstrap band without the floors (services/usage_band.py).
+    units = list(_simulated_units(300, seed=4406))
+    covered = 0
+    for i, (rate, readings) in enumerate(units):
+        points = [(r.at, r.hours) for r in readings]
+        low, high = rate_band(intervals=intervals_from(points), confidence=0.90, seed=i)
+        covered += low <= rate <= high
+    # Nominal 90 %: at least 85 % and not a band so wide it always covers.
+    assert 0.85 <= covered / len(units) <= 0.97
+
+
+def test_the_band_is_the_same_for_the_same_seed():
+    (_, readings), *_ = _simulated_units(1, seed=7)
+    intervals = intervals_from([(r.at, r.hours) for r in readings])
+    first = rate_band(intervals=intervals, confidence=0.9, seed=3)
+    assert first == rate_band(intervals=intervals, confidence=0.9, seed=3)
+    assert first != rate_band(intervals=intervals, confidence=0.9, seed=4)
+
+
+def test_splitmix64_reference_value():
+    # SplitMix64 (Steele, Lea & Flood 2014) from seed 1234567: first output
+    # 6457827717110365317 (the reference implementation's value, `from memory`).
+    assert next(splitmix64(seed=1234567)) == 6_457_827_717_110_365_317
+
+
+@pytest.mark.parametrize("df", [1, 2, 3, 5, 12, 30, 100])
+@pytest.mark.parametrize("p", [0.9, 0.95, 0.975])
+def test_t_quantile_matches_scipy(df, p):
+    # Reference: scipy.stats.t.ppf. Abramowitz & Stegun 26.7.5 is within 0.2 % from 3 df.
+    assert t_quantile(p=p, df=df) == pytest.approx(scipy_t.ppf(p, df), rel=2e-3)

@@ -169,21 +169,23 @@ def test_drain_level_hand_worked() -> None:
     assert any("10.0 h/day" in s for s in p.explanation)
 
 
-def test_without_intakes_water_so_far_is_estimated_from_the_rate() -> None:
-    # 20 h since the drain x 1.503 mL/h = 30.06 mL: same as 400 L of sampled fuel.
+def test_without_intakes_the_fuel_burned_carries_the_current_fuel_s_water() -> None:
+    # 20 h since the drain x 20 L/h = 400 L burned, at the current fuel's 100 mg/kg:
+    # 400 x 0.835 x 100 / 1000 x 0.9 = 30.06 mL, the same as 400 L of sampled fuel.
     p = project(intakes=[])
     assert math.isclose(float(p.inputs["water_so_far_ml"]), 30.06)  # type: ignore[arg-type]
-    assert any("estimated" in s for s in p.explanation)
+    assert any("400 L burned over 20 h" in s and "no fuel inputs" in s for s in p.explanation)
 
 
 def test_observed_drains_change_the_rate() -> None:
-    # Blended 1.8932 mL/h (see test_blend_hand_worked): (200 - 30.06)/1.8932 = 89.76 h.
+    # Blended 1.8932 mL/h (see test_blend_hand_worked). The water since the drain is the
+    # same blend over the 20 h run since: 37.864 mL; (200 - 37.864)/1.8932 = 85.64 h.
     history = [
         DrainRecord(DRAINED_AT - timedelta(days=20), 4_800, 30),
         DrainRecord(DRAINED_AT - timedelta(days=10), 4_900, 150),
     ]
     p = project(last_drain=DrainRecord(DRAINED_AT, 5_000, 250), history=history)
-    assert math.isclose(p.due.hours or 0, 5_020 + 169.94 / 1.8932, rel_tol=1e-4)
+    assert math.isclose(p.due.hours or 0, 5_020 + (200 - 20 * 1.8932) / 1.8932, rel_tol=1e-4)
     assert any("over 2 drain intervals count for 67 %" in s for s in p.explanation)
 
 
@@ -203,10 +205,55 @@ def test_calendar_governs_for_dry_fuel() -> None:
 
 
 def test_bowl_over_the_level_is_overdue() -> None:
+    # 400 h since the drain x 20 L/h = 8,000 L burned:
     # 8,000 L x 0.835 x 100 / 1000 x 0.9 = 601.2 mL > 200 mL.
-    p = project(intakes=[intake(litres=8_000.0)])
+    p = project(intakes=[intake(litres=8_000.0)], forecast=forecast(hours=5_400.0))
     assert p.status is DueStatus.OVERDUE
     assert p.basis is Basis.WATER_LEVEL
+
+
+def test_fuel_delivered_but_not_burned_adds_no_water() -> None:
+    # 8,000 L put in, but only 20 h x 20 L/h = 400 L burned since the drain: 30.06 mL
+    # (as in test_drain_level_hand_worked), not 601.2 mL.
+    p = project(intakes=[intake(litres=8_000.0)])
+    assert p.status is DueStatus.OK
+    assert math.isclose(float(p.inputs["water_so_far_ml"]), 30.06)  # type: ignore[arg-type]
+
+
+def test_a_drain_with_no_amount_empties_the_bowl_but_adds_no_rate() -> None:
+    # Drains at 4,800 h (30 mL) and 4,900 h (150 mL: 1.5 mL/h), then the last one at 5,000 h
+    # with no amount written down. Counted as 0 mL it would have weighed most (newest);
+    # skipped, only 1.5 mL/h is observed. The bowl still counts from 5,000 h: 20 h at the
+    # blend of the estimate 1.503 and 1.5 mL/h, half each (1.5015 mL/h), is 30.03 mL.
+    history = [
+        DrainRecord(DRAINED_AT - timedelta(days=20), 4_800, 30),
+        DrainRecord(DRAINED_AT - timedelta(days=10), 4_900, 150),
+    ]
+    blank = DrainRecord(DRAINED_AT, 5_000, None)
+    p = project(last_drain=blank, history=history)
+    assert p.inputs["observed_rates_ml_h"] == [1.5]
+    assert math.isclose(float(p.inputs["water_so_far_ml"]), 30.03)  # type: ignore[arg-type]
+    assert observed_rates(records=[*history, blank, DrainRecord(NOW, 5_100, 100)]) == [1.5, 1.0]
+
+
+@pytest.mark.parametrize(
+    ("field", "make"),
+    [
+        ("drain water_ml", lambda: DrainRecord(DRAINED_AT, 5_000, float("nan"))),
+        ("drain hours", lambda: DrainRecord(DRAINED_AT, float("inf"), 10.0)),
+        ("fueling litres", lambda: intake(litres=-5.0)),
+        ("free_water_mg_kg", lambda: intake(water=float("nan"))),
+        ("separator_efficiency", lambda: make_plan(separator_efficiency=1.5)),
+        ("burn_l_per_h", lambda: project(burn_l_per_h=float("inf"))),
+        (
+            "drain performed_at",
+            lambda: project(last_drain=DrainRecord(NOW + timedelta(days=1), 5_000, 1.0)),
+        ),
+    ],
+)
+def test_bad_inputs_are_refused_naming_the_field(field: str, make: object) -> None:
+    with pytest.raises(ValueError, match=field):
+        make()  # type: ignore[operator]
 
 
 def test_water_event_makes_it_due_today() -> None:
