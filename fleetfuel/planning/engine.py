@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
 from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, FuelSource, ServicePlan
-from services import filter_inputs, intervals, usage, water
+from services import filter_inputs, filter_life, intervals, usage, water
 from services import flags as fl
 from services import fuel_intake as fi
 from services import fuel_quality as fq
@@ -73,7 +73,8 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
             skipped.append(f"{task.label}: no fitted filter or no plan with an hour interval")
             continue
         try:
-            projection = filter_compute(b, comp, plan, task, fuel, forecast, now)
+            life = filter_life_get(batch, b.unit.unit_class_id, comp_kind, plan)
+            projection = filter_compute(b, comp, plan, task, fuel, forecast, now, life=life)
         except ValueError as exc:  # a number services/ refuses: skipped, with its reason
             skipped.append(f"{task.label}: {exc}")
             continue
@@ -195,6 +196,26 @@ def sample_quality(sample: FuelSample, source: FuelSource | None) -> fq.FuelQual
     )
 
 
+def filter_life_get(
+    batch: BatchInputs, class_id: int, kind: str, plan: ServicePlan
+) -> filter_life.LifeBudget:
+    """The life a class's filter budget is stated in, from its changes on record (once a batch)."""
+    key = (class_id, kind)
+    if key not in batch.lives:
+        by_unit: dict[int, list[filter_life.ChangeRecord]] = {}
+        for unit_id, at, meter, dp in batch.filter_changes.get(key, []):
+            by_unit.setdefault(unit_id, []).append(filter_life.ChangeRecord(at, meter, dp))
+        observations = [
+            o
+            for changes in by_unit.values()
+            for o in filter_life.life_observations(changes=changes, dp_limit_bar=plan.dp_limit_bar)
+        ]
+        batch.lives[key] = filter_life.life_budget(
+            plan_hours=float(plan.interval_hours or 0), observations=observations
+        )
+    return batch.lives[key]
+
+
 def filter_compute(
     b: UnitInputs,
     comp: Component,
@@ -203,6 +224,8 @@ def filter_compute(
     fuel: UnitFuel,
     forecast: UsageForecast,
     now: datetime,
+    *,
+    life: filter_life.LifeBudget | None = None,
 ) -> Projection:
     channel, channel_note = fq.filter_channel(
         efficiency_size_um_c=comp.efficiency_size_um_c, nominal_rating_um=comp.rating_um
@@ -252,6 +275,7 @@ def filter_compute(
         forecast=forecast,
         now=now,
         priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
+        life=life,
     )
     projection.explanation.append(channel_note)
     return projection
