@@ -23,6 +23,7 @@ from services.filter_life import (
     life_observations,
     weibull_fit,
 )
+from tests.services.test_intervals import CODE_18_UPPER, CODE_20_UPPER, project
 
 stats = pytest.importorskip("scipy.stats")
 
@@ -143,3 +144,22 @@ def test_bad_numbers_are_refused_by_name() -> None:
         LifeObservation(life=math.nan, used_up=True)
     with pytest.raises(ValueError, match="interval_hours"):
         life_budget(plan_hours=0.0, observations=[])
+
+
+def test_the_fitted_life_states_the_budget_in_the_projection() -> None:
+    """The budget is the life at the plan's reference burn and fuel (the mass balance of
+    filter life, common practice). Fuel at ISO 4406 code 20 (<= 10,000 per mL) against the
+    reference code 18 (<= 2,500 per mL), ISO 4406:1999 Table 1, spends it 4x as fast."""
+    burn = 30.0  # the plan's reference burn in tests/services/test_intervals.py
+    spent = 3_000.0 * CODE_18_UPPER  # the 3,000 L of reference fuel burned since the change
+    fitted = life_budget(
+        plan_hours=500.0,
+        observations=[LifeObservation(life=x, used_up=True) for x in (200, 260, 300, 340, 420)],
+    )
+    assert fitted.source == "fitted"
+    for life, budget_hours in ((None, 500.0), (fitted, fitted.hours)):
+        p = project(current_concentration_per_ml=CODE_20_UPPER, life=life)
+        left = budget_hours * burn * CODE_18_UPPER - spent
+        assert p.basis.value == "contaminant_budget"
+        assert p.due.hours == pytest.approx(10_100.0 + left / (burn * CODE_20_UPPER))
+    assert fitted.sentence in p.explanation
