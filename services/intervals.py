@@ -31,6 +31,7 @@ from datetime import date, datetime, time, timedelta, tzinfo
 from services.common import Basis, DueDate, Projection, TaskKind, UsageForecast
 from services.filter_dp import DpFit, DpReading, dp_fit_inputs, dp_limit
 from services.filter_inputs import FilterPlan, Loading, door_check
+from services.filter_life import LifeBudget, life_inputs
 from services.schedule import (
     due_status,
     earliest_due,
@@ -94,8 +95,12 @@ def filter_projection(
     forecast: UsageForecast,
     now: datetime,
     priority_raised: bool = False,
+    life: LifeBudget | None = None,
 ) -> Projection:
     """Project the next change of one filter: the earliest of its limits.
+
+    ``life`` is the element's life the budget is stated in (services.filter_life: fitted
+    from the changes on record, or the plan's estimate); without it, the plan's hours.
 
     Raises ValueError, naming the field, for a number that is not finite or out of range
     (a plan's interval or reference fuel not positive) and for anything dated after ``now``.
@@ -116,6 +121,7 @@ def filter_projection(
         current=current_concentration_per_ml,
         current_assumed=current_reference_assumed,
         current_hours=forecast.current_hours,
+        life_hours=life.hours if life is not None else plan.interval_hours,
     )
     limits = _limits(
         plan=plan,
@@ -140,6 +146,7 @@ def filter_projection(
         _band_sentence(due),
         f"{spend.percent_used:.0f} % of the filter's contaminant budget is used since the "
         f"change at {fmt_hours(last_change_hours)} on {last_change_at.date().isoformat()}.",
+        *([life.sentence] if life is not None else []),
         *_fuel_sentences(since=since, plan=plan, current=current_concentration_per_ml),
         burn_sentence,
         sentence(f"Usage: {forecast.note}"),
@@ -158,6 +165,7 @@ def filter_projection(
         since=since,
     )
     inputs["priority_raised"] = priority_raised
+    inputs["life"] = life_inputs(life) if life is not None else None
     return Projection(task, due, status, basis, explanation, inputs)
 
 
@@ -226,10 +234,15 @@ def _spend(
     current: float,
     current_assumed: bool,
     current_hours: float,
+    life_hours: float,
 ) -> _Spend:
-    """The contaminant budget, what the fuel since the change spent, and when the rest goes."""
+    """The contaminant budget, what the fuel since the change spent, and when the rest goes.
+
+    The budget is ``life_hours`` (the plan's interval, or the life fitted from the changes on
+    record) at the plan's reference burn and reference fuel.
+    """
     ref_conc = plan.reference_concentration_per_ml
-    budget = plan.interval_hours * plan.reference_burn_l_per_h * ref_conc
+    budget = life_hours * plan.reference_burn_l_per_h * ref_conc
     notes: list[str] = []
     if since:
         loading = sum(ld.litres * ld.concentration_per_ml for ld in since)

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 
 from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, FuelSource, ServicePlan
-from services import filter_inputs, intervals, usage, water
+from services import filter_inputs, filter_life, intervals, usage, water
 from services import flags as fl
 from services import fuel_intake as fi
 from services import fuel_quality as fq
@@ -76,7 +76,7 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
     except ValueError as exc:
         refused.append(f"fuel and engine records: {exc}")
         fuel = UnitFuel(paired=[], source_names={}, events=[], burn=None)
-    results, skipped = unit_tasks(b, fuel, forecast, now, refused)
+    results, skipped = unit_tasks(b, batch, fuel, forecast, now, refused)
     unit_flags = unit_flags_compute(b, fuel, forecast, now, refused)
     return UnitResult(
         unit.pk, unit.site_id, results, unit_flags, skipped + refused, forecast.current_hours,
@@ -85,7 +85,12 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
 
 
 def unit_tasks(
-    b: UnitInputs, fuel: UnitFuel, forecast: UsageForecast, now: datetime, refused: list[str]
+    b: UnitInputs,
+    batch: BatchInputs,
+    fuel: UnitFuel,
+    forecast: UsageForecast,
+    now: datetime,
+    refused: list[str],
 ) -> tuple[list[ComponentProjection], list[str]]:
     """The unit's filter changes and separator drain; a refused input skips its task only."""
     results: list[ComponentProjection] = []
@@ -98,7 +103,8 @@ def unit_tasks(
             skipped.append(f"{task.label}: no fitted filter or no plan with an hour interval")
             continue
         try:
-            projection = filter_compute(b, comp, plan, task, fuel, forecast, now)
+            life = filter_life_get(batch, b.unit.unit_class_id, comp_kind, plan)
+            projection = filter_compute(b, comp, plan, task, fuel, forecast, now, life=life)
         except ValueError as exc:
             refused.append(f"{task.label}: {exc}")
             continue
@@ -237,6 +243,26 @@ def sample_quality(sample: FuelSample, source: FuelSource | None) -> fq.FuelQual
     )
 
 
+def filter_life_get(
+    batch: BatchInputs, class_id: int, kind: str, plan: ServicePlan
+) -> filter_life.LifeBudget:
+    """The life a class's filter budget is stated in, from its changes on record (once a batch)."""
+    key = (class_id, kind)
+    if key not in batch.lives:
+        by_unit: dict[int, list[filter_life.ChangeRecord]] = {}
+        for unit_id, at, meter, dp in batch.filter_changes.get(key, []):
+            by_unit.setdefault(unit_id, []).append(filter_life.ChangeRecord(at, meter, dp))
+        observations = [
+            o
+            for changes in by_unit.values()
+            for o in filter_life.life_observations(changes=changes, dp_limit_bar=plan.dp_limit_bar)
+        ]
+        batch.lives[key] = filter_life.life_budget(
+            plan_hours=float(plan.interval_hours or 0), observations=observations
+        )
+    return batch.lives[key]
+
+
 def filter_compute(
     b: UnitInputs,
     comp: Component,
@@ -245,6 +271,8 @@ def filter_compute(
     fuel: UnitFuel,
     forecast: UsageForecast,
     now: datetime,
+    *,
+    life: filter_life.LifeBudget | None = None,
 ) -> Projection:
     channel, channel_note = fq.filter_channel(
         efficiency_size_um_c=comp.efficiency_size_um_c, nominal_rating_um=comp.rating_um
@@ -294,6 +322,7 @@ def filter_compute(
         forecast=forecast,
         now=now,
         priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
+        life=life,
     )
     projection.explanation.append(channel_note)
     return projection

@@ -34,6 +34,7 @@ from fleetfuel.fleet.models import (
 from fleetfuel.ledger.models import ServiceEvent
 from services import usage
 from services.common import UsageForecast
+from services.filter_life import LifeBudget
 
 from .models import DueItem, UnitFlag
 
@@ -67,11 +68,19 @@ class UnitInputs:
     refused: list[str] = field(default_factory=list)  # rows services/ refused, with the reason
 
 
+# One recorded filter change as life evidence: unit id, when, hour meter, dP before (bar).
+ChangeRow = tuple[int, datetime, float | None, float | None]
+
+
 @dataclass
 class BatchInputs:
     units: list[UnitInputs]
     source_samples: list[FuelSample]
     sources: dict[int, FuelSource]
+    # Every filter change on record for the batch's unit classes, by (class id, filter kind),
+    # ordered by unit and time: the evidence services/filter_life.py fits the life from.
+    filter_changes: dict[tuple[int, str], list[ChangeRow]] = field(default_factory=dict)
+    lives: dict[tuple[int, str], LifeBudget] = field(default_factory=dict)  # the engine's, once
 
 
 def unit_forecast(b: UnitInputs, *, now: datetime) -> UsageForecast:
@@ -114,7 +123,7 @@ def unit_forecast_get(*, unit_id: int, now: datetime) -> UsageForecast:
 
 
 def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
-    """Twelve queries for any number of units (each named below)."""
+    """Thirteen queries for any number of units (each named below)."""
     since = now - timedelta(days=LOOKBACK_DAYS)
     bundles = _units_load(unit_ids=unit_ids, now=now)  # 1. units, class, site, latest records
     ids = list(bundles)
@@ -144,9 +153,41 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     _events_load(bundles=bundles, now=now, since=since)  # 9, 10. engine events, relief total
     _dp_load(bundles=bundles, now=now, since=since)  # 11. dP readings of the fitted filters
     sources = {s.pk: s for s in FuelSource.objects.all()}  # 12. fuel sources (a handful)
+    # 13. every filter change of the batch's unit classes: the life evidence
+    filter_changes = filter_changes_load(class_ids=class_ids, now=now)
     return BatchInputs(
-        units=[bundles[i] for i in ids], source_samples=source_samples, sources=sources
+        units=[bundles[i] for i in ids],
+        source_samples=source_samples,
+        sources=sources,
+        filter_changes=filter_changes,
     )
+
+
+def filter_changes_load(
+    *, class_ids: set[int], now: datetime
+) -> dict[tuple[int, str], list[ChangeRow]]:
+    """One query: the filter changes recorded up to ``now`` on every unit of these classes
+    (disposed units too: their history is evidence), by (class, filter kind)."""
+    out: dict[tuple[int, str], list[ChangeRow]] = defaultdict(list)
+    for class_id, kind, unit_id, at, meter, dp in (
+        ServiceEvent.objects.filter(
+            kind=ServiceEvent.Kind.FILTER_CHANGED,
+            unit__unit_class_id__in=class_ids,
+            component_kind__in=[ComponentKind.PRIMARY_FILTER, ComponentKind.FINE_FILTER],
+            performed_at__lte=now,
+        )
+        .order_by("unit_id", "performed_at", "id")
+        .values_list(
+            "unit__unit_class_id",
+            "component_kind",
+            "unit_id",
+            "performed_at",
+            "hour_meter",
+            "dp_before_bar",
+        )
+    ):
+        out[(class_id, kind)].append((unit_id, at, meter, dp))
+    return dict(out)
 
 
 def _units_load(*, unit_ids: list[int], now: datetime) -> dict[int, UnitInputs]:
