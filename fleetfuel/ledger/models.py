@@ -199,6 +199,9 @@ class ExportLog(models.Model):
     filters = models.JSONField(default=dict)
     file_name = models.CharField(max_length=200)
     manifest = models.JSONField(default=dict)
+    # The sites of the units it covered: a person sees an export only when all of them are
+    # among the sites they may see.
+    sites = models.ManyToManyField("fleet.Site", blank=True, related_name="+")
     row_count = models.PositiveIntegerField(null=True, blank=True)
     sha256 = models.CharField("data file SHA-256", max_length=64, blank=True)
     finished_at = models.DateTimeField(null=True, blank=True)
