@@ -2,8 +2,9 @@
 
 from django.contrib import admin
 from django.db.models import Q
+from django.http import HttpRequest
 
-from fleetfuel.accounts.admin import SiteLimitedAdmin, SiteLimitedInline
+from fleetfuel.accounts.admin import SiteLimitedAdmin, SiteLimitedInline, site_limit
 
 from .models import (
     Component,
@@ -26,6 +27,11 @@ from .models import (
 @admin.register(Site)
 class SiteAdmin(SiteLimitedAdmin):
     site_path = "pk"
+
+    def has_add_permission(self, request: HttpRequest) -> bool:
+        """A new depot is added by someone who sees every depot (others would not see it)."""
+        return super().has_add_permission(request) and site_limit(request) is None
+
     list_display = ["name", "code", "time_zone", "unit_system"]
     search_fields = ["name", "code"]
 
