@@ -71,6 +71,12 @@ def signature_problem(*, salt: str, message: str, key_id: str, signature: str) -
         )
     if any(constant_time_compare(_sign(salt, message, key), signature) for key in keys):
         return None
+    if not key_id:
+        return (
+            "has an invalid signature under SECRET_KEY and SECRET_KEY_FALLBACKS (it predates "
+            "LEDGER_SIGNING_KEY): the table was altered, or the SECRET_KEY that signed it is "
+            "no longer listed"
+        )
     return "has an invalid signature: the checkpoint table was altered"
 
 

@@ -173,3 +173,18 @@ def test_a_checkpoint_from_before_the_ledger_key_verifies_with_secret_key(
     )
     assert verify()[0].startswith("OK: 1 unit chain(s), 1 event(s) verified; 1 agree")
     assert VerificationMark.objects.count() == 1
+
+
+def test_a_checkpoint_from_before_the_ledger_key_names_secret_key_when_it_changed(
+    unit: Any, mechanic: Any, add_events: Any
+) -> None:
+    (event,) = add_events(unit, mechanic, 1)
+    at = after_the_events()
+    message = f"{unit.pk}|1|{event.hash}|{at.isoformat()}"
+    legacy = salted_hmac("fleetfuel.ledger.ChainCheckpoint", message, algorithm="sha256")
+    ChainCheckpoint.objects.create(
+        unit=unit, seq=1, head_hash=event.hash, recorded_at=at, signature=legacy.hexdigest()
+    )
+    with override_settings(SECRET_KEY="rotated-" + "s" * 50, SECRET_KEY_FALLBACKS=[]):
+        _, err = verify()
+    assert "invalid signature under SECRET_KEY and SECRET_KEY_FALLBACKS" in err
