@@ -53,7 +53,7 @@ class ServiceEventAdmin(ReadOnlyAdmin):
 @admin.register(ChainCheckpoint)
 class ChainCheckpointAdmin(ReadOnlyAdmin):
     site_path = "unit__site"
-    list_display = ("unit", "seq", "head_hash", "recorded_at")
+    list_display = ("unit", "seq", "head_hash", "recorded_at", "key_id")
     list_select_related = ("unit",)
     search_fields = ("unit__fleet_number", "head_hash")
     show_full_result_count = False
