@@ -8,6 +8,7 @@ RUN pip install --no-cache-dir --require-hashes -r requirements/base.txt
 COPY . .
 RUN pip install --no-cache-dir --no-deps .
 RUN SECRET_KEY=build-only-collectstatic-key-not-used-at-run-time-0123456789 \
+    LEDGER_SIGNING_KEY=build-only-collectstatic-ledger-key-not-used-at-run-time-01234 \
     python manage.py collectstatic --no-input
 RUN useradd --system --uid 1000 fleetfuel && chown -R fleetfuel /app
 USER fleetfuel

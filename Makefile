@@ -53,6 +53,7 @@ migrations-check: $(STAMP)
 
 check-deploy: $(STAMP)
 	SECRET_KEY=$$(openssl rand -hex 32 2>/dev/null || echo x-not-secret-but-long-enough-for-the-deploy-check-0123456789) \
+	LEDGER_SIGNING_KEY=$$(openssl rand -hex 32 2>/dev/null || echo y-not-secret-but-long-enough-for-the-deploy-check-0123456789) \
 	ALLOWED_HOSTS=fleetfuel.example.com EMAIL_HOST=smtp.example.com $(PY) manage.py check --deploy --fail-level WARNING
 
 benchmark: $(STAMP)

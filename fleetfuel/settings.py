@@ -128,6 +128,20 @@ else:
             "when DEBUG is off."
         )
 
+# The service history's checkpoints are signed with a key of their own, so rotating SECRET_KEY
+# breaks nothing; older ledger keys stay valid for verification (README, "The service history").
+_LEDGER_DEV_KEY = "ledger-dev-only-" + SECRET_KEY
+LEDGER_SIGNING_KEY = env_str("LEDGER_SIGNING_KEY", _LEDGER_DEV_KEY if DEBUG or TESTING else None)
+LEDGER_SIGNING_KEY_FALLBACKS = env_list("LEDGER_SIGNING_KEY_FALLBACKS", [])
+for _name, _key in [("LEDGER_SIGNING_KEY", LEDGER_SIGNING_KEY)] + [
+    ("LEDGER_SIGNING_KEY_FALLBACKS", key) for key in LEDGER_SIGNING_KEY_FALLBACKS
+]:
+    if not (DEBUG or TESTING) and (len(_key) < 50 or _key in (SECRET_KEY, _LEDGER_DEV_KEY)):
+        raise ImproperlyConfigured(
+            f"Environment variable {_name} must hold random strings of at least 50 characters, "
+            "other than SECRET_KEY, when DEBUG is off."
+        )
+
 ALLOWED_HOSTS = env_hosts("ALLOWED_HOSTS", ["localhost", "127.0.0.1", "[::1]"] if DEBUG else [])
 CSRF_TRUSTED_ORIGINS = [
     url_check("CSRF_TRUSTED_ORIGINS", origin, schemes=WEB, example="https://fleetfuel.example.com")
@@ -213,6 +227,10 @@ if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     )
     # A file (not memory) so a real Celery worker process can share it; one per test process.
     DATABASES["default"]["TEST"] = {"NAME": str(BASE_DIR / "var" / f"test-{os.getpid()}.sqlite3")}
+if TESTING and DATABASES["default"]["ENGINE"] == "django.db.backends.postgresql":
+    # The ledger's tables refuse TRUNCATE unless the session says so; the test runner empties
+    # tables with TRUNCATE between transactional tests (fleetfuel/ledger/migrations/0005).
+    DATABASES["default"].setdefault("OPTIONS", {})["options"] = "-c fleetfuel.ledger_truncate=allow"
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [

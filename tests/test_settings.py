@@ -40,6 +40,22 @@ def settings_error(**env: str) -> str:
         ({"DEBUG": "maybe"}, "DEBUG", "boolean"),
         ({"DEBUG": "false"}, "SECRET_KEY", "required"),
         ({"DEBUG": "false", "SECRET_KEY": "short"}, "SECRET_KEY", "50 characters"),
+        ({"DEBUG": "false", "SECRET_KEY": "s" * 60}, "LEDGER_SIGNING_KEY", "required"),
+        (
+            {"DEBUG": "false", "SECRET_KEY": "s" * 60, "LEDGER_SIGNING_KEY": "s" * 60},
+            "LEDGER_SIGNING_KEY",
+            "other than SECRET_KEY",
+        ),
+        (
+            {
+                "DEBUG": "false",
+                "SECRET_KEY": "s" * 60,
+                "LEDGER_SIGNING_KEY": "l" * 60,
+                "LEDGER_SIGNING_KEY_FALLBACKS": "old",
+            },
+            "LEDGER_SIGNING_KEY_FALLBACKS",
+            "50 characters",
+        ),
         ({"DEBUG": "true", "DATABASE_URL": "nosuchdb://x"}, "DATABASE_URL", "not usable"),
         ({"DEBUG": "true", "DATABASE_URL": "mysql://u@h/db"}, "DATABASE_URL", "PostgreSQL"),
         ({"DEBUG": "true", "DB_CONN_MAX_AGE": "-1"}, "DB_CONN_MAX_AGE", "0 or more"),
@@ -102,6 +118,7 @@ def test_deploy_check_is_clean_with_production_variables() -> None:
     env = production_like_env()
     env.update(
         SECRET_KEY="k" * 20 + "-production-like-secret-key-0123456789-abcdef",
+        LEDGER_SIGNING_KEY="l" * 20 + "-production-like-ledger-key-0123456789-abcdef",
         ALLOWED_HOSTS="fleetfuel.example.com",
         EMAIL_HOST="smtp.example.com",
     )
@@ -162,4 +179,5 @@ def test_compose_passes_every_env_example_variable_and_requires_the_password() -
 def test_env_example_values_are_accepted() -> None:
     values = {k: v for k, v in env_example().items() if k != "POSTGRES_PASSWORD"}
     values["SECRET_KEY"] = "k" * 20 + "-production-like-secret-key-0123456789-abcdef"
+    values["LEDGER_SIGNING_KEY"] = "l" * 20 + "-production-like-ledger-key-0123456789-abcdef"
     assert settings_error(**values) == ""

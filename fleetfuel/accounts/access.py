@@ -94,6 +94,14 @@ def sites_for_user(user: Any) -> QuerySet[Any]:
     return assigned if assigned.exists() else site.objects.all()  # type: ignore[no-any-return]
 
 
+def sees_every_site(user: Any) -> bool:
+    """True for a manager or auditor whose profile names no site (they see every site, those
+    added later included); False for everyone else, mechanics and anyone limited to some."""
+    if user_role(user) not in (Role.MANAGER, Role.AUDITOR):
+        return False
+    return not model_get("fleet", "Site").objects.filter(staff__user=user).exists()
+
+
 def site_ids_for_user(user: Any) -> list[int]:
     """The ids of the sites a person may see. Cached on the user object for the request."""
     cached = getattr(user, "_fleetfuel_site_ids", None)
@@ -173,10 +181,12 @@ def service_event_for_user(user: Any, pk: int) -> Any:
 
 def export_log_for_user(user: Any, pk: int) -> Any:
     """An export of the history, to those who export (managers and auditors; 403 for a
-    mechanic). A manager may have every export; anyone else only their own (404 otherwise).
-    An export spans the sites its maker could see when it was made, so no site rule applies."""
+    mechanic). A manager may have every export, anyone else only their own, and either only
+    when every site the export covered is one they may see (404 otherwise)."""
     role_check(user, EXPORTERS, refusal="Your role does not export.")
     log = get_object_or_404(model_get("ledger", "ExportLog"), pk=pk)
     if user_role(user) != Role.MANAGER and log.requested_by_id != user.pk:
+        raise Http404("No such export.")
+    if log.sites.exclude(pk__in=site_ids_for_user(user)).exists():
         raise Http404("No such export.")
     return log

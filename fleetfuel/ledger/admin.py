@@ -1,16 +1,22 @@
-"""The admin shows the ledger and never changes it: no add, change or delete, for anyone."""
+"""The admin shows the ledger and never changes it: no add, change or delete, for anyone.
+Limited to the sites a person may see (fleetfuel.accounts.admin); an export only when every
+site it covered is one of them."""
 
 from __future__ import annotations
 
 from typing import Any
 
 from django.contrib import admin
+from django.db.models import QuerySet
 from django.http import HttpRequest
 
+from fleetfuel.accounts.admin import SiteLimitedAdmin, site_limit
+
 from .models import ChainCheckpoint, ExportLog, ServiceEvent
+from .selectors import exports_within_sites
 
 
-class ReadOnlyAdmin(admin.ModelAdmin):  # type: ignore[type-arg]
+class ReadOnlyAdmin(SiteLimitedAdmin):
     """View only, even for a superuser (who otherwise has every permission)."""
 
     def has_add_permission(self, request: HttpRequest, obj: Any = None) -> bool:
@@ -25,11 +31,12 @@ class ReadOnlyAdmin(admin.ModelAdmin):  # type: ignore[type-arg]
 
 @admin.register(ServiceEvent)
 class ServiceEventAdmin(ReadOnlyAdmin):
+    site_path = "unit__site"
     list_display = (
         "performed_at", "unit", "seq", "kind", "component_kind", "cylinder", "hour_meter",
         "recorded_by", "corrects", "short_hash",
     )  # fmt: skip
-    list_filter = ("kind", "unit__site", "performed_at")
+    list_filter = ("kind", ("unit__site", admin.RelatedOnlyFieldListFilter), "performed_at")
     search_fields = (
         "unit__fleet_number", "part_number", "old_serial", "new_serial", "notes", "reason", "hash",
     )  # fmt: skip
@@ -45,7 +52,8 @@ class ServiceEventAdmin(ReadOnlyAdmin):
 
 @admin.register(ChainCheckpoint)
 class ChainCheckpointAdmin(ReadOnlyAdmin):
-    list_display = ("unit", "seq", "head_hash", "recorded_at")
+    site_path = "unit__site"
+    list_display = ("unit", "seq", "head_hash", "recorded_at", "key_id")
     list_select_related = ("unit",)
     search_fields = ("unit__fleet_number", "head_hash")
     show_full_result_count = False
@@ -60,3 +68,8 @@ class ExportLogAdmin(ReadOnlyAdmin):
     list_select_related = ("requested_by",)
     search_fields = ("sha256", "file_name", "requested_by__username")
     exclude = ("manifest",)
+
+    def get_queryset(self, request: HttpRequest) -> QuerySet[ExportLog]:
+        rows = admin.ModelAdmin.get_queryset(self, request)
+        ids = site_limit(request)
+        return rows if ids is None else exports_within_sites(rows, ids)

@@ -104,6 +104,7 @@ def export_start(
     suffix = {"csv": "csv", "xlsx": "xlsx", "print": "html"}[fmt]
     log.file_name = file_name or f"fleetfuel-history-{log.pk:06d}.{suffix}"
     ExportLog.objects.filter(pk=log.pk).update(file_name=log.file_name)
+    log.sites.set({unit.site_id for unit in units})
     return log, heads
 
 

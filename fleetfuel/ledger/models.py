@@ -124,13 +124,15 @@ class ChainCheckpoint(models.Model):
 
     A rewrite of a whole chain inside the database recomputes consistently, so the chain alone
     would not show it; the checkpoint, signed with a key the database does not hold
-    (HMAC-SHA256 keyed from SECRET_KEY), still names the old head, and verify_ledger compares.
+    (HMAC-SHA256 keyed with LEDGER_SIGNING_KEY, named by ``key_id``), still names the old head,
+    and verify_ledger compares. Append-only: PostgreSQL refuses UPDATE, DELETE and TRUNCATE.
     """
 
     unit = models.ForeignKey("fleet.Unit", on_delete=models.PROTECT, related_name="checkpoints")
     seq = models.PositiveIntegerField()
     head_hash = models.CharField(max_length=64)
     recorded_at = models.DateTimeField()
+    key_id = models.CharField(max_length=16, blank=True, help_text="empty: signed with SECRET_KEY")
     signature = models.CharField(max_length=64)
 
     class Meta:
@@ -141,6 +143,30 @@ class ChainCheckpoint(models.Model):
 
     def __str__(self) -> str:
         return f"{self.unit_id}#{self.seq} {self.head_hash[:12]}"
+
+
+class VerificationMark(models.Model):
+    """What a full verification that found nothing wrong saw, signed like a checkpoint.
+
+    The next verification compares: fewer entries in the history, fewer checkpoints, or an
+    older latest checkpoint than a mark recorded means rows were removed behind the app's back.
+    Append-only like the checkpoints.
+    """
+
+    verified_at = models.DateTimeField()
+    events = models.PositiveBigIntegerField()
+    checkpoints = models.PositiveBigIntegerField()
+    latest_checkpoint_at = models.DateTimeField(null=True, blank=True)
+    # Each unit's latest checkpoint then: {"<unit id>": [checkpoint id, seq]}.
+    heads = models.JSONField(default=dict)
+    key_id = models.CharField(max_length=16)
+    signature = models.CharField(max_length=64)
+
+    class Meta:
+        ordering = ["-verified_at", "-id"]
+
+    def __str__(self) -> str:
+        return f"verified {self.verified_at:%Y-%m-%d %H:%M}: {self.events} entries"
 
 
 class ExportLog(models.Model):
@@ -173,6 +199,9 @@ class ExportLog(models.Model):
     filters = models.JSONField(default=dict)
     file_name = models.CharField(max_length=200)
     manifest = models.JSONField(default=dict)
+    # The sites of the units it covered: a person sees an export only when all of them are
+    # among the sites they may see.
+    sites = models.ManyToManyField("fleet.Site", blank=True, related_name="+")
     row_count = models.PositiveIntegerField(null=True, blank=True)
     sha256 = models.CharField("data file SHA-256", max_length=64, blank=True)
     finished_at = models.DateTimeField(null=True, blank=True)

@@ -131,9 +131,19 @@ def history_page(
     )
 
 
-def exports_for_user(*, user: Any, see_all: bool, before: int | None, size: int) -> list[ExportLog]:
-    """The export log, newest first: everyone's for a manager, one's own otherwise."""
+def exports_within_sites(rows: QuerySet[ExportLog], site_ids: list[int]) -> QuerySet[ExportLog]:
+    """The exports among ``rows`` that cover no site outside ``site_ids``."""
+    outside = ExportLog.sites.through.objects.exclude(site_id__in=site_ids)
+    return rows.exclude(pk__in=outside.values("exportlog_id"))
+
+
+def exports_for_user(
+    *, user: Any, see_all: bool, site_ids: list[int], before: int | None, size: int
+) -> list[ExportLog]:
+    """The export log, newest first: everyone's for a manager, one's own otherwise; only the
+    exports wholly within ``site_ids`` (the sites the person may see)."""
     rows = ExportLog.objects.select_related("requested_by").defer("manifest").order_by("-pk")
+    rows = exports_within_sites(rows, site_ids)
     if not see_all:
         rows = rows.filter(requested_by=user)
     if before:

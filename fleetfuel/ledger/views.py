@@ -79,7 +79,13 @@ def _history_render(
 def _recent(user: Any) -> dict[str, Any]:
     """One's last few exports, and whether one of them is still being written (the box then
     refreshes itself; an export interrupted long ago stops it asking)."""
-    rows = exports_for_user(user=user, see_all=False, before=None, size=RECENT_EXPORTS)
+    rows = exports_for_user(
+        user=user,
+        see_all=False,
+        site_ids=site_ids_for_user(user),
+        before=None,
+        size=RECENT_EXPORTS,
+    )
     since = timezone.now() - PENDING_FOR
     pending = any(not r.finished and r.requested_at > since for r in rows)
     return {"recent": rows, "recent_pending": pending}
@@ -123,11 +129,13 @@ def correct(request: HttpRequest, pk: int) -> HttpResponse:
 @role_required(*EXPORTERS)
 @require_GET
 def exports(request: HttpRequest) -> HttpResponse:
-    """The export log: every export for a manager, one's own for an auditor."""
+    """The export log: every export for a manager, one's own for an auditor; only exports
+    wholly within the sites the person may see."""
     before = request.GET.get("before", "")
     rows = exports_for_user(
         user=request.user,
         see_all=user_role(request.user) == Role.MANAGER,
+        site_ids=site_ids_for_user(request.user),
         before=int(before) if before.isdigit() else None,
         size=LOG_PAGE + 1,
     )

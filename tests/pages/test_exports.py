@@ -300,3 +300,48 @@ def test_an_auditor_cannot_fetch_another_persons_manifest(
     client.force_login(auditor)
     assert client.get(reverse("pages:export_manifest", args=[log.pk])).status_code == 404
     assert log.sha256 not in client.get(reverse("ledger:exports")).content.decode()
+
+
+def _export_by(client: Any, user: Any, **filters: str) -> ExportLog:
+    client.force_login(user)
+    response = client.post(reverse("pages:export"), {"format": "csv", **filters})
+    b"".join(response.streaming_content)
+    return ExportLog.objects.get(pk=int(response["X-Fleetfuel-Export"]))
+
+
+def test_an_export_records_the_sites_it_covered(
+    client: Any, manager: Any, unit: Any, other_site: Any, unit_class: Any, mechanic: Any
+) -> None:
+    south = f.unit_make(site=other_site, unit_class=unit_class, fleet_number="S-001")
+    events_add(unit, mechanic, 1)
+    events_add(south, mechanic, 1)
+    everything = _export_by(client, manager)
+    north_only = _export_by(client, manager, unit="N-001")
+    assert set(everything.sites.values_list("name", flat=True)) == {"North Depot", "South Depot"}
+    assert list(north_only.sites.values_list("name", flat=True)) == ["North Depot"]
+
+
+def test_a_one_depot_manager_sees_only_exports_wholly_within_their_depot(
+    client: Any, manager: Any, site: Any, unit: Any, other_site: Any, unit_class: Any,
+    mechanic: Any,
+) -> None:  # fmt: skip
+    south = f.unit_make(site=other_site, unit_class=unit_class, fleet_number="S-001")
+    events_add(unit, mechanic, 1)
+    events_add(south, mechanic, 1)
+    everything = _export_by(client, manager)  # both depots: every unit's serial and head
+    south_only = _export_by(client, manager, unit="S-001")
+    north_manager = f.user_make("manager", username="nora", sites=[site])
+    north_own = _export_by(client, north_manager)
+    assert list(north_own.sites.values_list("name", flat=True)) == ["North Depot"]
+    client.force_login(north_manager)
+    for log in (everything, south_only):
+        url = reverse("pages:export_manifest", args=[log.pk])
+        assert client.get(url).status_code == 404, url
+    assert client.get(reverse("pages:export_manifest", args=[north_own.pk])).status_code == 200
+    page = client.get(reverse("ledger:exports")).content.decode()
+    assert north_own.sha256 in page
+    assert everything.sha256 not in page and south_only.sha256 not in page
+    # The manager of every depot still sees all three.
+    client.force_login(manager)
+    page = client.get(reverse("ledger:exports")).content.decode()
+    assert all(log.sha256 in page for log in (everything, south_only, north_own))

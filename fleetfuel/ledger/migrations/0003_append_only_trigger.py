@@ -1,8 +1,7 @@
 """On PostgreSQL, the database itself refuses UPDATE and DELETE on the service history.
 
 SQLite has no such trigger here: there the app-level guard (ServiceEvent.save/delete and the
-read-only admin) holds. TRUNCATE is left alone on purpose: the test runner empties tables
-with it between transactional tests, and only a database owner can issue it.
+read-only admin) holds. TRUNCATE is refused by migration 0006 (a statement trigger).
 """
 
 from django.db import migrations

@@ -5,15 +5,18 @@ from __future__ import annotations
 from typing import Any
 
 from django.core.management.base import BaseCommand, CommandError, CommandParser
+from django.utils import timezone
 
 from fleetfuel.fleet.models import Unit
-from fleetfuel.ledger.verification import ledger_verify
+from fleetfuel.ledger.verification import ledger_verify, verification_mark_record
 
 
 class Command(BaseCommand):
     help = (
         "Recompute every unit's hash chain from the database (or one unit's), report the first "
-        "broken link of each broken chain and exit non-zero; print one OK line otherwise."
+        "broken link of each broken chain, each unit whose checkpoints were removed, and any "
+        "table emptier than the last clean verification saw, and exit non-zero; otherwise print "
+        "one OK line and (for a full run) sign a note of what was seen for the next run."
     )
 
     def add_arguments(self, parser: CommandParser) -> None:
@@ -29,6 +32,8 @@ class Command(BaseCommand):
                 raise CommandError(f"No unit has fleet number {options['unit']!r}.")
         report = ledger_verify(unit_ids=unit_ids)
         if report.ok:
+            if unit_ids is None:
+                verification_mark_record(now=timezone.now())
             self.stdout.write(
                 f"OK: {report.units} unit chain(s), {report.events} event(s) verified; "
                 f"{report.checkpoints} agree with their signed checkpoint."
@@ -42,8 +47,14 @@ class Command(BaseCommand):
         }
         for p in report.problems:
             where = f"event {p.event_id} seq {p.seq}" if p.event_id else f"seq {p.seq}"
+            if p.unit_id is None:
+                self.stderr.write(f"BROKEN ledger: {p.problem}")
+                continue
             unit = names.get(p.unit_id, p.unit_id)
             self.stderr.write(f"BROKEN unit {unit}: {where}: {p.problem}")
+        units = {p.unit_id for p in report.problems if p.unit_id is not None}
+        whole = len(report.problems) - sum(1 for p in report.problems if p.unit_id is not None)
         raise CommandError(
-            f"{len(report.problems)} of {report.units} unit chain(s) failed verification."
+            f"{len(units)} of {report.units} unit chain(s) failed verification"
+            + (f"; {whole} problem(s) of the whole ledger." if whole else ".")
         )
