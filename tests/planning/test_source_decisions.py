@@ -145,3 +145,19 @@ def test_a_manager_cannot_record_superseded(tank: Any, two_units: Any, manager: 
             decision_id=SourceDecision.objects.get().pk, user=manager, outcome="superseded",
             note="", new_sample_reference="", now=NOW,
         )  # fmt: skip
+
+
+@pytest.mark.parametrize("sources", [1, 6])
+def test_the_recompute_reads_a_fixed_number_of_queries(
+    site: Any, unit_class: Any, sources: int, django_assert_num_queries: Any
+) -> None:
+    for n in range(sources):
+        tank = f.source_make(name=f"Tank {n}", site=site)
+        unit = f.unit_make(site=site, unit_class=unit_class, fleet_number=f"Q-{n}")
+        history_make(unit=unit, source=tank, days=5)
+        sample_make(source=tank, at=NOW - timedelta(days=2), code="17/15/12", ref=f"S-{n}")
+    # 1 sources with their latest sample's id, 2 open decisions, 3 the latest samples,
+    # 4 decisions already made on them, 5 deliveries, 6 fuelings since, 7 filter plans'
+    # references; then the transaction's savepoint and its release (no writes: all clean).
+    with django_assert_num_queries(9):
+        assert source_decisions_recompute(now=NOW).opened == 0
