@@ -8,11 +8,15 @@ water. The units each decision lists are checked against the fuel log read here.
 
 from __future__ import annotations
 
+import json
 from collections.abc import Iterator
 from datetime import datetime
+from io import StringIO
 from typing import Any
 
 import pytest
+import time_machine
+from django.core.management import call_command
 
 from fleetfuel.demo.actions import demo_seed
 from fleetfuel.fleet.models import Fueling, FuelSample
@@ -76,3 +80,16 @@ def test_recomputing_the_demo_opens_nothing_more(demo: None, db: Any) -> None:
     result = source_decisions_recompute(now=NOW)
     assert result.opened == 0 and result.refreshed == 2
     assert SourceDecision.objects.count() == before
+
+
+def test_the_command_prints_each_open_decision_with_its_units(demo: None, db: Any) -> None:
+    out = StringIO()
+    with time_machine.travel(NOW, tick=False):
+        call_command("source_decisions", "--site", "kestrel", "--json", stdout=out)
+    rows = [json.loads(line) for line in out.getvalue().splitlines()]
+    assert [r["sample"] for r in rows] == ["FS-D001"]
+    sample = FuelSample.objects.get(reference="FS-D001")
+    expected = fuelled_since(sample)
+    assert {u["unit"]: u["litres_fuelled"] for u in rows[0]["units"]} == pytest.approx(
+        expected, abs=0.11
+    )
