@@ -3,12 +3,13 @@ and record a manager's resolution. The rules are ``services.source_quality``'s."
 
 from __future__ import annotations
 
+import logging
 from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 
 from django.conf import settings
-from django.db import transaction
+from django.db import IntegrityError, transaction
 from django.db.models import OuterRef, Subquery
 
 from fleetfuel.fleet.models import (
@@ -23,6 +24,8 @@ from services import source_quality as sq
 from services.fuel_quality import Codes, parse_iso4406
 
 from .source_models import SourceDecision, SourceDecisionUnit
+
+logger = logging.getLogger(__name__)
 
 
 @dataclass(frozen=True)
@@ -180,43 +183,57 @@ def source_decisions_recompute(*, now: datetime) -> SourceRecompute:
         return SourceRecompute(**counts)
     with transaction.atomic():
         for sample in batch.samples.values():
-            decision = batch.open_by_sample.get(sample.pk)
-            if decision is None and sample.pk in batch.decided:
-                continue  # resolved: kept as it was closed
-            source = batch.sources[sample.source_id]
-            later = batch.samples.get(source.latest_id) if source.latest_id != sample.pk else None
-            standing = sq.sample_standing_check(
-                sampled_at=sample.sampled_at,
-                deliveries_at=batch.deliveries.get(sample.source_id, []),
-                later_sample_at=later.sampled_at if later else None,
-                max_age_days=settings.SOURCE_SAMPLE_MAX_AGE_DAYS,
-                now=now,
-            )
-            if decision is not None and standing.standing is sq.Standing.NEWER_SAMPLE:
-                decision.resolved_at, decision.outcome = now, SourceDecision.Outcome.SUPERSEDED
-                decision.note = f"Closed by the projection run: {standing.reason}."
-                decision.new_sample = later
-                decision.new_sample_reference = later.reference if later else ""
-                decision.save()
-                counts["superseded"] += 1
+            if sample.sampled_at > now:
+                continue  # a recompute for an earlier instant: not yet taken
+            try:
+                done = _sample_decide(batch=batch, sample=sample, now=now)
+            except ValueError as exc:  # refused before any write: the others go on
+                logger.warning("sample %s left out of source decisions: %s", sample.pk, exc)
                 continue
-            if decision is None and not standing.stands:
-                continue
-            fields, reach, out = _decision_fields(
-                batch=batch, sample=sample, standing=standing, now=now
-            )
-            if decision is None and not out:
-                continue
-            if decision is None:
-                decision = SourceDecision.objects.create(
-                    source=source, sample=sample, opened_at=now, **fields
-                )
-                counts["opened"] += 1
-            else:
-                SourceDecision.objects.filter(pk=decision.pk).update(**fields)
-                counts["refreshed"] += 1
-            _reached_replace(decision=decision, reach=reach)
+            if done:
+                counts[done] += 1
     return SourceRecompute(**counts)
+
+
+def _sample_decide(*, batch: _Batch, sample: FuelSample, now: datetime) -> str | None:
+    """Open, refresh or supersede the decision on one sample; what was done, if anything."""
+    decision = batch.open_by_sample.get(sample.pk)
+    if decision is None and sample.pk in batch.decided:
+        return None  # resolved: kept as it was closed
+    source = batch.sources[sample.source_id]
+    later = batch.samples.get(source.latest_id) if source.latest_id != sample.pk else None
+    standing = sq.sample_standing_check(
+        sampled_at=sample.sampled_at,
+        deliveries_at=batch.deliveries.get(sample.source_id, []),
+        later_sample_at=later.sampled_at if later else None,
+        max_age_days=settings.SOURCE_SAMPLE_MAX_AGE_DAYS,
+        now=now,
+    )
+    if decision is not None and standing.standing is sq.Standing.NEWER_SAMPLE:
+        decision.resolved_at, decision.outcome = now, SourceDecision.Outcome.SUPERSEDED
+        decision.note = f"Closed by the projection run: {standing.reason}."
+        decision.new_sample = later
+        decision.new_sample_reference = later.reference if later else ""
+        decision.save()
+        return "superseded"
+    if decision is None and not standing.stands:
+        return None
+    fields, reach, out = _decision_fields(batch=batch, sample=sample, standing=standing, now=now)
+    if decision is None and not out:
+        return None
+    if decision is not None:
+        SourceDecision.objects.filter(pk=decision.pk).update(**fields)
+        _reached_replace(decision=decision, reach=reach)
+        return "refreshed"
+    try:
+        with transaction.atomic():  # another worker may open the same one at the same time
+            decision = SourceDecision.objects.create(
+                source=source, sample=sample, opened_at=now, **fields
+            )
+    except IntegrityError:
+        return None  # opened by the other run; its next recompute refreshes it
+    _reached_replace(decision=decision, reach=reach)
+    return "opened"
 
 
 def source_decision_resolve(

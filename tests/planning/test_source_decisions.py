@@ -161,3 +161,24 @@ def test_the_recompute_reads_a_fixed_number_of_queries(
     # references; then the transaction's savepoint and its release (no writes: all clean).
     with django_assert_num_queries(9):
         assert source_decisions_recompute(now=NOW).opened == 0
+
+
+def test_one_bad_row_leaves_the_projection_and_the_other_sources_alone(
+    site: Any, unit_class: Any, two_units: list[Any], tank: Any
+) -> None:
+    other = f.source_make(name="South bowser", site=site)
+    Fueling.objects.bulk_create(  # past the model's validators, as a raw import might
+        [Fueling(unit=two_units[0], source=other, fueled_at=NOW - timedelta(hours=2), litres=-5)]
+    )
+    sample_make(source=other, at=NOW - timedelta(days=1), code="22/20/17", ref="S-BAD-LOG")
+    sample_make(source=tank, at=NOW - timedelta(days=1), code="22/20/17", ref="S-GOOD")
+    result = due_items_recompute(unit_ids=[u.pk for u in two_units], now=NOW)
+    assert result.items > 0
+    assert [d.sample.reference for d in SourceDecision.objects.all()] == ["S-GOOD"]
+
+
+def test_a_sample_after_now_is_not_yet_taken(tank: Any, two_units: Any) -> None:
+    sample_make(source=tank, at=NOW - timedelta(days=1), code="22/20/17", ref="S-DIRTY")
+    source_decisions_recompute(now=NOW)
+    assert source_decisions_recompute(now=NOW - timedelta(days=2)).refreshed == 0
+    assert SourceDecision.objects.get().is_open
