@@ -364,6 +364,11 @@ LOGGING = {
 
 # Planning engine
 PLANNING_BATCH_SIZE = env_int("PLANNING_BATCH_SIZE", 200, low=1)
+# A fuel source's sample is out of range when a size channel is more than this many ISO 4406
+# scale numbers above the cleanest plan reference of the units it feeds (or water is over
+# EN 590's 200 mg/kg); it stops standing for the tank after this many days. Global settings.
+SOURCE_SAMPLE_MARGIN_SCALE_NUMBERS = env_int("SOURCE_SAMPLE_MARGIN_SCALE_NUMBERS", 2, low=0)
+SOURCE_SAMPLE_MAX_AGE_DAYS = env_int("SOURCE_SAMPLE_MAX_AGE_DAYS", 90, low=1)
 
 # Cache: Redis in production (the feed's per-token request counts are shared by every web
 # worker there); without CACHE_URL, each process's own memory.

@@ -18,7 +18,7 @@ from typing import Any, TypeVar
 from django.apps import apps
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
-from django.db.models import QuerySet
+from django.db.models import Q, QuerySet
 from django.http import Http404, HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404
 
@@ -164,6 +164,24 @@ def due_item_for_user(user: Any, pk: int) -> Any:
         due_item.objects.select_related("unit", "unit__site", "component"),
         pk=pk,
         site_id__in=site_ids_for_user(user),
+    )
+
+
+def source_decision_for_user(user: Any, pk: int, *, write: bool = False) -> Any:
+    """A decision at a fuel source, to a manager or an auditor (403 for a mechanic; to write,
+    ``write=True``, a manager only), when the source is at a site they may see, or, for a
+    source shared by sites, when it reached a unit at one (404 otherwise)."""
+    roles = (Role.MANAGER,) if write else (Role.MANAGER, Role.AUDITOR)
+    role_check(user, roles, refusal="Decisions at fuel sources are the fleet manager's.")
+    decision = model_get("planning", "SourceDecision")
+    ids = site_ids_for_user(user)
+    visible = decision.objects.filter(
+        Q(site_id__in=ids) | Q(site__isnull=True, reached__unit__site_id__in=ids)
+    ).values("pk")
+    return get_object_or_404(
+        decision.objects.select_related("source", "sample", "resolved_by", "new_sample"),
+        pk=pk,
+        pk__in=visible,
     )
 
 

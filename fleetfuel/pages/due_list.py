@@ -18,6 +18,7 @@ from fleetfuel.accounts.requests import HtmxHttpRequest
 from fleetfuel.fleet.models import Site, UnitClass
 from fleetfuel.planning.forms import DueFilterForm, WorkListSettingsForm
 from fleetfuel.planning.selectors import due_page
+from fleetfuel.planning.source_selectors import source_decisions_open
 from fleetfuel.planning.worklists import recent_dispatches
 from fleetfuel.workorders import selectors
 from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_due_items
@@ -46,6 +47,7 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
     context = {"form": form, "page": page, "query": query.urlencode()}
     if not request.htmx:
         context["dispatches"] = recent_dispatches(user=request.user)
+        context["source_decisions"] = source_decisions_open(site_ids=site_ids)
         profile = getattr(request.user, "profile", None)
         context["settings_form"] = WorkListSettingsForm(instance=profile or Profile())
     if request.htmx and not request.htmx.boosted:

@@ -13,6 +13,7 @@ from services.common import DueStatus
 from .engine import unit_compute
 from .models import DueItem, UnitFlag
 from .selectors import batch_inputs_load
+from .source_decisions import source_decisions_recompute
 
 STATUS_RANK = {DueStatus.OVERDUE: 0, DueStatus.DUE: 1, DueStatus.SOON: 2, DueStatus.OK: 3}
 DUE_FIELDS = [
@@ -136,4 +137,5 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             key=("unit_id", "code"),
             update_fields=FLAG_FIELDS,
         )
+    source_decisions_recompute(now=now)  # the sources' decisions, after their units
     return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))

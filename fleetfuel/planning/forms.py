@@ -11,6 +11,7 @@ from fleetfuel.accounts.models import Profile
 from fleetfuel.fleet.models import Site, UnitClass
 
 from .models import DueItem
+from .source_models import SourceDecision
 
 
 class DueFilterForm(forms.Form):
@@ -50,3 +51,24 @@ class WorkListSettingsForm(forms.ModelForm):
     class Meta:
         model = Profile
         fields = ["work_list_subscribed", "work_list_hour", "work_list_days_ahead"]
+
+
+class SourceDecisionResolveForm(forms.Form):
+    """What a manager records when closing a decision at a fuel source."""
+
+    outcome = forms.ChoiceField(
+        label="What was done",
+        choices=[
+            (o.value, o.label)
+            for o in SourceDecision.Outcome
+            if o in SourceDecision.MANAGER_OUTCOMES
+        ],
+        widget=forms.RadioSelect,
+    )
+    note = forms.CharField(label="Note", required=False, widget=forms.Textarea(attrs={"rows": 3}))
+    new_sample_reference = forms.CharField(
+        label="New sample (lab reference)",
+        max_length=40,
+        required=False,
+        help_text="Linked to the lab result when that reference is on file.",
+    )

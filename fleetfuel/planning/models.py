@@ -9,6 +9,9 @@ from __future__ import annotations
 from django.db import models
 from django.db.models import Q
 
+# Decisions at a fuel source live in their own module; imported so Django registers them.
+from .source_models import SourceDecision, SourceDecisionUnit  # noqa: F401
+
 
 class DueItem(models.Model):
     class Task(models.TextChoices):

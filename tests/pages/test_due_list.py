@@ -221,8 +221,9 @@ def test_query_count_does_not_grow_with_the_fleet(
     # 5 all sites' ids, 6 counts by status, 7 one page of items (+1, with unit, site, class,
     # component, and workorders' open-work-order mark as a subquery), 8 flags of the units on
     # the page,
-    # 9 the manager's recent work-list emails, 10 site choices, 11 class choices,
-    # 12 the manager's profile (work-list subscription).
-    with django_assert_num_queries(12):
+    # 9 the manager's recent work-list emails, 10 open decisions at fuel sources (none here,
+    # so their units are not fetched), 11 site choices, 12 class choices,
+    # 13 the manager's profile (work-list subscription).
+    with django_assert_num_queries(13):
         response = as_manager.get(reverse("pages:due_list"), {"status": "overdue", "sort": "unit"})
     assert response.status_code == 200 and len(rows(response)) == min(50, size * 3 // 4)
