@@ -48,6 +48,7 @@ from fleetfuel.ledger.selectors import HistoryScope
 from fleetfuel.pages.manifest import history_export_start
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem, ProjectionRun, UnitFlag
+from fleetfuel.planning.source_models import SourceDecision
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 from tests import factories as f
 from tests.conftest import db_shared
@@ -84,6 +85,7 @@ EXPECTED: dict[str, str] = {
     "pages:unit_detail": "L/L 200/405 404/405 200/405 200/405",
     "pages:export": "L/L 405/302 405/302 403/403 405/302",
     "pages:export_manifest": "L/L 200/405 404/405 403/403 404/405",
+    "planning:source_decision": "L/L 200/400 404/404 403/403 200/403",
     "planning:worklist_send_now": "L/L 405/302 405/302 403/403 403/403",
     "planning:worklist_settings": "L/L 405/302 405/302 403/403 403/403",
     "workorders:my_work": "L/L 200/200 200/200 200/200 403/403",
@@ -261,6 +263,7 @@ class World:
         ).token
         self.url_objects: dict[str, Any] = {
             "intake:feed_token_revoke": token,
+            "planning:source_decision": self.decision,
             "ledger:correct": ServiceEvent.objects.filter(unit=unit).first(),
             "pages:due_item_detail": DueItem.objects.filter(unit=unit).first(),
             "pages:unit_detail": unit,
@@ -291,6 +294,13 @@ class World:
         FilterPressureReading.objects.create(
             component=unit.components.first(), taken_at=NOW, hours=1200, dp_bar=0.2
         )
+        dirty = FuelSample.objects.create(
+            reference="PERM-S2", source=source, sampled_at=NOW, iso4406="22/20/17"
+        )
+        self.decision = SourceDecision.objects.create(
+            source=source, site=self.there, sample=dirty, opened_at=NOW, reach_from=NOW,
+            computed_at=NOW,
+        )  # fmt: skip
 
     def client_for(self, person: str) -> Client:
         client = Client()
