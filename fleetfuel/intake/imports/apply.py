@@ -150,7 +150,8 @@ def _rows_run(
     now: datetime, progress: Callable[[int], None] | None, xlsx: bool,
 ) -> None:  # fmt: skip
     ctx = Context(now=now)
-    declared = {c.key for c in layout.columns}
+    given = {c.key for c, _, _ in found}
+    absent = [c for c in layout.columns if c.key not in given]
     seen: dict[tuple[Any, ...], int] = {}
     rows = 0
     try:
@@ -159,8 +160,10 @@ def _rows_run(
                 rows += 1
                 try:
                     values = _row_values(found, cells, sheet)
-                    for key in declared - values.keys():
-                        values[key] = None if key not in ("site",) else ""
+                    for column in absent:  # optional columns the file leaves out
+                        values[column.key] = cell_parse(
+                            column, None, header="", decimal_comma=False
+                        )
                     natural = tuple(values.get(k) for k in layout.key)
                     if natural in seen:
                         raise RowRefused("", f"the same row as line {seen[natural]} "

@@ -62,6 +62,8 @@ def number_parse(value: Any, *, decimal_comma: bool) -> float:
         text = str(value).strip().replace("\u00a0", "").replace(" ", "")
         if decimal_comma and "," in text:
             text = text.replace(".", "").replace(",", ".")
+        if text.lower().lstrip("+-") in ("nan", "inf", "infinity"):
+            raise CellError(f"{str(value).strip()!r} is not a finite number")
         if not _NUMBER.fullmatch(text):
             hint = "" if decimal_comma else _COMMA_FILE_HINT
             raise CellError(f"{str(value).strip()!r} is not a number{hint}")
