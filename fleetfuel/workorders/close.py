@@ -26,11 +26,13 @@ import uuid
 from dataclasses import dataclass, field
 from datetime import date, datetime, timedelta
 from typing import Any
+from zoneinfo import ZoneInfo
 
 from django.db import transaction
 from django.utils import timezone
 
 from fleetfuel.accounts.access import user_role
+from fleetfuel.fleet.checks import meter_reading_refusal
 from fleetfuel.fleet.models import Component, MeterReading, MeterReplacement
 from fleetfuel.ledger.actions import service_event_append
 from fleetfuel.ledger.models import ServiceEvent
@@ -137,7 +139,7 @@ def work_order_close(
                 work_order=wo, job=job, override_reason=override_reason, snapshot=snapshot
             )
             return _closed_by_other(wo, user=user, now=now, entered=entered)
-        visit = _visit_read(wo)
+        visit = _visit_read(wo, now=now)
         if visit.violations or visit.problems:
             refusal = _refusal(wo, visit, user=user, override=override, reason=override_reason)
             if refusal is not None:
@@ -183,7 +185,7 @@ def _closed_by_other(wo: WorkOrder, *, user: Any, now: datetime, entered: str) -
     )
 
 
-def _visit_read(wo: WorkOrder) -> _Visit:
+def _visit_read(wo: WorkOrder, *, now: datetime) -> _Visit:
     """The tasks, the last reading, what is missing and what the rules say."""
     ctx = task_context(wo)
     every = list(wo.tasks.select_related("component", "not_done_by").order_by("id"))
@@ -207,6 +209,7 @@ def _visit_read(wo: WorkOrder) -> _Visit:
         meter_replaced=wo.meter_replaced,
         cylinders=wo.unit.cylinders,
     )
+    problems += _meter_implausible(wo, violations=violations, now=now)
     return _Visit(
         ctx=ctx,
         tasks=tasks,
@@ -216,6 +219,21 @@ def _visit_read(wo: WorkOrder) -> _Visit:
         violations=violations,
         problems=problems,
     )
+
+
+def _meter_implausible(
+    wo: WorkOrder, *, violations: list[rules.RuleViolation], now: datetime
+) -> list[str]:
+    """The plausibility rule every intake path shares (``fleet.checks``), for the reading the
+    close records at ``now``. A meter replaced at this job starts again (its own checks are in
+    ``meter_entry_problems``); a reading below the last is the closing rule's violation."""
+    if wo.meter_replaced or wo.hour_meter is None:
+        return []
+    if any(v.code == "hour_meter_backwards" for v in violations):
+        return []
+    zone = ZoneInfo(wo.unit.site.time_zone)
+    refusal = meter_reading_refusal(unit=wo.unit, at=now, hours=wo.hour_meter, now=now, zone=zone)
+    return [refusal] if refusal else []
 
 
 def _refusal(

@@ -6,14 +6,17 @@ These are the inputs of the interval engine. All are indexed for "by unit, by ti
 
 from __future__ import annotations
 
+from zoneinfo import ZoneInfo
+
 from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.db.models import Q
+from django.utils import timezone
 
 from services.fuel_quality import codes_from_counts, format_iso4406, parse_iso4406
-from services.hour_meter import meter_backwards
 
+from .. import checks
 from .assets import FILTER_KINDS, Component, Site, Unit
 
 
@@ -40,28 +43,21 @@ class MeterReading(models.Model):
         return f"{self.unit.fleet_number} {self.hours:.1f} h at {self.taken_at:%Y-%m-%d %H:%M}"
 
     def clean(self) -> None:
-        """The meter may not go backwards, unless a meter replacement lies in between."""
+        """The reading must fit between its neighbours in time (``services.plausibility``):
+        the meter may not go backwards unless a meter replacement lies in between, nor gain
+        more hours than elapsed, nor be dated in the future."""
         if not self.unit_id or self.taken_at is None or self.hours is None:
             return
-        previous = (
-            MeterReading.objects.filter(unit_id=self.unit_id, taken_at__lte=self.taken_at)
-            .exclude(pk=self.pk)
-            .order_by("-taken_at")
-            .first()
+        refusal = checks.meter_reading_refusal(
+            unit=self.unit,
+            at=self.taken_at,
+            hours=self.hours,
+            now=timezone.now(),
+            exclude_pk=self.pk,
+            zone=ZoneInfo(self.unit.site.time_zone),
         )
-        if previous is None:
-            return
-        replaced = MeterReplacement.objects.filter(
-            unit_id=self.unit_id, replaced_at__gt=previous.taken_at, replaced_at__lte=self.taken_at
-        ).exists()
-        if meter_backwards(hours=self.hours, earlier_hours=previous.hours, replaced=replaced):
-            raise ValidationError(
-                {
-                    "hours": f"{self.hours:,.1f} h is lower than the previous reading "
-                    f"({previous.hours:,.1f} h on {previous.taken_at:%Y-%m-%d}). Record a meter "
-                    "replacement first if the hour meter was changed."
-                }
-            )
+        if refusal:
+            raise ValidationError({"hours": refusal})
 
 
 class MeterReplacement(models.Model):
