@@ -11,6 +11,7 @@ from typing import Any
 
 import openpyxl
 
+from .imports.columns import Column
 from .imports.kind import Layout
 from .imports.layouts import LAYOUTS, ORDER
 
@@ -66,3 +67,53 @@ def template_xlsx(*, layout: Layout) -> bytes:
     buffer = io.BytesIO()
     book.save(buffer)
     return buffer.getvalue()
+
+
+_TYPES = {
+    "text": "text", "number": "number", "integer": "whole number",
+    "datetime": "ISO 8601 time", "date": "ISO 8601 date", "choice": "one of",
+}  # fmt: skip
+
+
+_TABLE_HEAD = "| column | or | type | required | limits | note |\n|---|---|---|---|---|---|"
+
+
+def _limits(column: Column) -> str:
+    low, high = column.low, column.high
+    if column.max_length:
+        return f"at most {column.max_length} characters"
+    if low is not None and high is not None:
+        return f"{low:g} to {high:g}"
+    return f"at least {low:g}" if low is not None else f"at most {high:g}" if high else ""
+
+
+def layouts_markdown() -> str:
+    """docs/import-layouts.md, written from the registry (``export_data --layouts-doc``)."""
+    out = [
+        "# Import layouts",
+        "",
+        "Written from `fleetfuel/intake/imports/layouts.py` by "
+        "`python manage.py export_data --layouts-doc > docs/import-layouts.md`; a test keeps "
+        "the two the same. A file is CSV (UTF-8, with or without a byte-order mark; `,` or `;` "
+        "between columns, a `;` file taking the decimal comma) or XLSX (the first sheet). "
+        "The first row names the columns, in any order; optional columns may be left out. "
+        "Times without an offset are read in the depot's time zone; the export writes UTC. "
+        "Where a column has two names, the name says the unit and the value is converted "
+        "(stored SI: litres, bar, mL, degC).",
+        "",
+    ]
+    for kind in ORDER:
+        layout = LAYOUTS[kind]
+        out += [f"## {layout.title}: `{kind}.csv`", ""]
+        if layout.note:
+            out += [layout.note, ""]
+        headers = {c.key: c.header for c in layout.columns}
+        key = ", ".join(headers[k] for k in layout.key)
+        out += [f"Natural key (a re-import updates, never duplicates): {key}.", "", _TABLE_HEAD]
+        for c in layout.columns:
+            kind_text = _TYPES[c.type] + (f": {', '.join(c.choices)}" if c.choices else "")
+            alt = ", ".join(name for name, _ in c.alternatives)
+            out.append(f"| `{c.header}` | {alt} | {kind_text} | {'yes' if c.required else ''} "
+                       f"| {_limits(c)} | {c.note} |")  # fmt: skip
+        out.append("")
+    return "\n".join(out)

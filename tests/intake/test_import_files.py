@@ -11,7 +11,7 @@ import openpyxl
 import pytest
 
 from fleetfuel.fleet.models import Fueling, MeterReading
-from fleetfuel.intake.exports import template_csv, template_xlsx
+from fleetfuel.intake.exports import layouts_markdown, template_csv, template_xlsx
 from fleetfuel.intake.imports.apply import ALL_OR_NOTHING, DRY_RUN, file_import
 from fleetfuel.intake.imports.layouts import LAYOUTS, kind_from_name, layout_for
 from fleetfuel.intake.imports.readers import MAX_BYTES
@@ -117,3 +117,10 @@ def test_templates_carry_the_layouts_header(kind: str, tmp_path: Path) -> None:
     book = openpyxl.load_workbook(path, read_only=True)
     assert [c.value for c in next(book.worksheets[0].iter_rows())] == header
     assert kind_from_name(file_name=f"2026-{kind}.xlsx") == kind
+
+
+def test_the_layouts_doc_is_the_registry(db: Any) -> None:
+    """docs/import-layouts.md is written from the registry; regenerate it when a layout
+    changes (``manage.py export_data --layouts-doc > docs/import-layouts.md``)."""
+    doc = (Path(__file__).parents[2] / "docs" / "import-layouts.md").read_text(encoding="utf-8")
+    assert doc == layouts_markdown()

@@ -48,8 +48,28 @@ def test_a_date_in_the_future(unit: Any, tmp_path: Path) -> None:
         tmp_path, "readings", f"unit,taken_at,hours\n{unit.fleet_number},{later},13000\n"
     )
     assert found == [
-        f"readings.csv line 2, column taken_at: {later} is in the future (now {NOW.isoformat()})"
+        "readings.csv line 2, column taken_at: The reading is dated 2027-01-11 12:00, in the "
+        "future: no later than 10 minutes after now (2026-06-15 13:00)."  # in the depot's time
     ]
+
+
+def test_hours_between_neighbours_and_beyond_elapsed_time(unit: Any, tmp_path: Path) -> None:
+    """The issue's case: 11,100 h dated between readings of 10,974 h and 11,025 h. An engine
+    runs at most 24 h a day (common practice), and the meter only counts up."""
+    MeterReading.objects.create(unit=unit, taken_at=NOW - timedelta(days=10), hours=10_974)
+    MeterReading.objects.create(unit=unit, taken_at=NOW - timedelta(days=1), hours=11_025)
+    n = unit.fleet_number
+    day5 = (NOW - timedelta(days=5)).isoformat()
+    day9 = (NOW - timedelta(days=9, hours=12)).isoformat()
+    found = errors(
+        tmp_path, "readings", f"unit,taken_at,hours\n{n},{day5},11100\n{n},{day9},11000\n"
+    )
+    assert len(found) == 2
+    assert found[0].startswith("readings.csv line 2, column hours: ")
+    # 126 h gained in the 120 h since 10,974 h (and above the later 11,025 h besides)
+    assert "10,974.0 h" in found[0] and "at most 24 h a day" in found[0]
+    assert found[1].startswith("readings.csv line 3, column hours: ")
+    assert "10,974" in found[1]  # 26 h gained in 12 h since the earlier neighbour
 
 
 def test_hours_going_backwards(unit: Any, tmp_path: Path) -> None:

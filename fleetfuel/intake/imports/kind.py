@@ -14,11 +14,11 @@ from django.core.exceptions import ValidationError
 from django.db import models
 
 from fleetfuel.fleet.models import FuelSource, Site, Unit
+from services.plausibility import time_refusal
 
 from .columns import Column
 
 CREATED, UPDATED, UNCHANGED = "created", "updated", "unchanged"
-FUTURE_ALLOWANCE_S = 300  # a clock a few minutes fast is not "in the future" (common practice)
 
 
 class RowRefused(Exception):
@@ -98,25 +98,32 @@ class Context:
             raise RowRefused(column, f"no user named {username!r}")
         return user
 
-    def instant(self, value: datetime, *, time_zone: str, column: str) -> datetime:
-        """``value`` as an aware instant (a time without offset is the depot's), not later
-        than now plus a small clock allowance."""
+    def instant(self, value: datetime, *, time_zone: str, column: str, what: str) -> datetime:
+        """``value`` as an aware instant (a time without offset is the depot's), not in the
+        future beyond the clock allowance (services.plausibility, as on every path)."""
+        zone = ZoneInfo(time_zone)
         if value.tzinfo is None or value.utcoffset() is None:
-            value = value.replace(tzinfo=ZoneInfo(time_zone))
-        if (value - self.now).total_seconds() > FUTURE_ALLOWANCE_S:
-            raise RowRefused(
-                column, f"{value.isoformat()} is in the future (now {self.now.isoformat()})"
-            )
+            value = value.replace(tzinfo=zone)
+        refusal = time_refusal(at=value.astimezone(zone), now=self.now.astimezone(zone), what=what)
+        if refusal:
+            raise RowRefused(column, refusal)
         return value
 
 
 def model_check(
-    obj: models.Model, *, columns: Mapping[str, str] | None = None, exclude: list[str] | None = None
+    obj: models.Model,
+    *,
+    columns: Mapping[str, str] | None = None,
+    exclude: list[str] | None = None,
+    fields_only: bool = False,
 ) -> None:
-    """full_clean, each message turned into a RowRefused naming the column (field names are
-    the column keys unless ``columns`` maps them)."""
+    """full_clean (or only the fields' own checks), each message turned into a RowRefused
+    naming the column (field names are the column keys unless ``columns`` maps them)."""
     try:
-        obj.full_clean(exclude=exclude)
+        if fields_only:
+            obj.clean_fields(exclude=exclude)
+        else:
+            obj.full_clean(exclude=exclude)
     except ValidationError as exc:
         field_name, messages = next(iter(exc.message_dict.items()))
         column = (columns or {}).get(field_name, field_name)

@@ -124,7 +124,12 @@ METER_REPLACEMENTS = (
 
 def replacement_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
-    at = ctx.instant(values["replaced_at"], time_zone=unit.site.time_zone, column="replaced_at")
+    at = ctx.instant(
+        values["replaced_at"],
+        time_zone=unit.site.time_zone,
+        column="replaced_at",
+        what="meter replacement",
+    )
     fields = {n: values[n] for n in ("old_meter_final", "new_meter_start", "note")}
     existing = MeterReplacement.objects.filter(unit=unit, replaced_at=at).first()
     return row_save(MeterReplacement(unit=unit, replaced_at=at, **fields), fields, existing)

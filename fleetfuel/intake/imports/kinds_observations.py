@@ -5,9 +5,11 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from typing import Any
+from zoneinfo import ZoneInfo
 
 from django.db.models import F
 
+from fleetfuel.fleet.checks import fueling_refusal_for, meter_reading_refusal
 from fleetfuel.fleet.models import (
     FILTER_KINDS,
     Component,
@@ -21,7 +23,6 @@ from services.units import psi_to_bar, us_gal_to_litres
 
 from .columns import Column
 from .kind import Context, Layout, RowRefused, row_save, unit_columns
-from .plausible import fueling_refusal_for, meter_reading_refusal
 
 READINGS = (
     *unit_columns(),
@@ -33,17 +34,20 @@ READINGS = (
 
 def reading_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
-    at = ctx.instant(values["taken_at"], time_zone=unit.site.time_zone, column="taken_at")
+    at = ctx.instant(
+        values["taken_at"], time_zone=unit.site.time_zone, column="taken_at", what="reading"
+    )
     existing = MeterReading.objects.filter(unit=unit, taken_at=at).first()
     refusal = meter_reading_refusal(
         unit=unit, at=at, hours=values["hours"], now=ctx.now,
-        exclude_pk=existing.pk if existing else None,
+        exclude_pk=existing.pk if existing else None, zone=ZoneInfo(unit.site.time_zone),
     )  # fmt: skip
     if refusal:
         raise RowRefused("hours", refusal)
     fields = {"hours": values["hours"], "source": values["source"] or MeterReading.Source.MANUAL}
     reading = MeterReading(unit=unit, taken_at=at, **fields)
-    return row_save(reading, fields, existing, exclude=["unit"])  # the unit was just read
+    # The rule above is what MeterReading.clean would ask again: only the fields are checked.
+    return row_save(reading, fields, existing, exclude=["unit"], fields_only=True)
 
 
 def reading_rows() -> Iterator[dict[str, Any]]:
@@ -64,7 +68,9 @@ FUELINGS = (
 
 def fueling_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
-    at = ctx.instant(values["fueled_at"], time_zone=unit.site.time_zone, column="fueled_at")
+    at = ctx.instant(
+        values["fueled_at"], time_zone=unit.site.time_zone, column="fueled_at", what="fueling"
+    )
     refusal = fueling_refusal_for(unit=unit, litres=values["litres"])
     if refusal:
         raise RowRefused("litres", refusal)
@@ -95,7 +101,7 @@ DELIVERIES = (
 def delivery_store(values: dict[str, Any], ctx: Context) -> str:
     source = ctx.source_get(values["source"])
     zone = source.site.time_zone if source.site else "UTC"
-    at = ctx.instant(values["delivered_at"], time_zone=zone, column="delivered_at")
+    at = ctx.instant(values["delivered_at"], time_zone=zone, column="delivered_at", what="delivery")
     fields = {n: values[n] for n in ("litres", "supplier", "ticket")}
     existing = Delivery.objects.filter(source=source, delivered_at=at).first()
     return row_save(Delivery(source=source, delivered_at=at, **fields), fields, existing)
@@ -120,7 +126,12 @@ EVENTS = (
 
 def event_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
-    at = ctx.instant(values["occurred_at"], time_zone=unit.site.time_zone, column="occurred_at")
+    at = ctx.instant(
+        values["occurred_at"],
+        time_zone=unit.site.time_zone,
+        column="occurred_at",
+        what="engine event",
+    )
     key = {"unit": unit, "occurred_at": at, "spn": values["spn"], "fmi": values["fmi"]}
     fields = {"hours": values["hours"], "occurrences": values["occurrences"],
               "kind": values["kind"] or EngineEvent.Kind.OTHER}  # fmt: skip
@@ -160,7 +171,12 @@ def component_fitted(*, unit: Any, kind: str, position: int | None, column: str)
 
 def dp_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
-    at = ctx.instant(values["taken_at"], time_zone=unit.site.time_zone, column="taken_at")
+    at = ctx.instant(
+        values["taken_at"],
+        time_zone=unit.site.time_zone,
+        column="taken_at",
+        what="pressure reading",
+    )
     comp = component_fitted(unit=unit, kind=values["filter"], position=None, column="filter")
     fields = {"hours": values["hours"], "dp_bar": values["dp_bar"]}
     existing = FilterPressureReading.objects.filter(component=comp, taken_at=at).first()

@@ -55,7 +55,7 @@ def sample_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values) if values["unit"] else None
     site = unit.site if unit else source.site if source else None
     zone = site.time_zone if site else "UTC"
-    at = ctx.instant(values["sampled_at"], time_zone=zone, column="sampled_at")
+    at = ctx.instant(values["sampled_at"], time_zone=zone, column="sampled_at", what="sample")
     delivery = None
     if values["delivery"]:
         delivery = Delivery.objects.filter(source=source, ticket=values["delivery"]).first()
@@ -131,9 +131,11 @@ SERVICE_EVENTS = (
 def service_event_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
     zone = unit.site.time_zone
-    at = ctx.instant(values["performed_at"], time_zone=zone, column="performed_at")
+    at = ctx.instant(
+        values["performed_at"], time_zone=zone, column="performed_at", what="service event"
+    )
     recorded_at = (
-        ctx.instant(values["recorded_at"], time_zone=zone, column="recorded_at")
+        ctx.instant(values["recorded_at"], time_zone=zone, column="recorded_at", what="record")
         if values["recorded_at"] else at
     )  # fmt: skip
     fields = {n: values[n] for n in EVENT_FIELDS}
