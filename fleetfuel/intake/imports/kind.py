@@ -17,6 +17,7 @@ from fleetfuel.fleet.models import FuelSource, Site, Unit
 from services.plausibility import time_refusal
 
 from .columns import Column
+from .neighbours import ReadingsNearby
 
 CREATED, UPDATED, UNCHANGED = "created", "updated", "unchanged"
 
@@ -47,20 +48,25 @@ class Layout:
 
 @dataclass
 class Context:
-    """Lookups for one file's rows (each read once), and the instant the import runs at."""
+    """Lookups for one file's rows (each read once), and the instant the import runs at.
+    ``site_ids``: the sites the importing person may reach (None: all, as for the command);
+    units, sites and fuel sources elsewhere are not found."""
 
     now: datetime
+    site_ids: frozenset[int] | None = None
     _units: dict[str, list[Unit]] = field(default_factory=dict)
     _sources: dict[str, FuelSource | None] = field(default_factory=dict)
     _users: dict[str, User | None] = field(default_factory=dict)
     _sites: dict[str, Site | None] = field(default_factory=dict)
+    readings: ReadingsNearby = field(default_factory=ReadingsNearby)
 
     def unit_get(self, values: Mapping[str, Any]) -> Unit:
         number, site = values["unit"], values.get("site") or ""
         if number not in self._units:
-            self._units[number] = list(
-                Unit.objects.filter(fleet_number=number).select_related("site", "unit_class")
-            )
+            units = Unit.objects.filter(fleet_number=number).select_related("site", "unit_class")
+            if self.site_ids is not None:
+                units = units.filter(site_id__in=self.site_ids)
+            self._units[number] = list(units)
         found = [u for u in self._units[number] if not site or u.site.code == site]
         if not found:
             where = f" at site {site!r}" if site else ""
@@ -76,6 +82,8 @@ class Context:
     def source_get(self, name: str, *, column: str = "source") -> FuelSource:
         if name not in self._sources:
             found = FuelSource.objects.select_related("site").filter(name=name).first()
+            if found and found.site_id and self.site_ids is not None:
+                found = found if found.site_id in self.site_ids else None
             self._sources[name] = found
         source = self._sources[name]
         if source is None:
@@ -84,7 +92,10 @@ class Context:
 
     def site_get(self, code: str) -> Site:
         if code not in self._sites:
-            self._sites[code] = Site.objects.filter(code=code).first()
+            sites = Site.objects.filter(code=code)
+            if self.site_ids is not None:
+                sites = sites.filter(pk__in=self.site_ids)
+            self._sites[code] = sites.first()
         site = self._sites[code]
         if site is None:
             raise RowRefused("site", f"no site with code {code!r}")

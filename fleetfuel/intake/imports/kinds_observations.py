@@ -5,11 +5,10 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from typing import Any
-from zoneinfo import ZoneInfo
 
 from django.db.models import F
 
-from fleetfuel.fleet.checks import fueling_refusal_for, meter_reading_refusal
+from fleetfuel.fleet.checks import fueling_refusal_for
 from fleetfuel.fleet.models import (
     FILTER_KINDS,
     Component,
@@ -37,17 +36,18 @@ def reading_store(values: dict[str, Any], ctx: Context) -> str:
     at = ctx.instant(
         values["taken_at"], time_zone=unit.site.time_zone, column="taken_at", what="reading"
     )
-    existing = MeterReading.objects.filter(unit=unit, taken_at=at).first()
-    refusal = meter_reading_refusal(
-        unit=unit, at=at, hours=values["hours"], now=ctx.now,
-        exclude_pk=existing.pk if existing else None, zone=ZoneInfo(unit.site.time_zone),
-    )  # fmt: skip
+    pk = ctx.readings.existing_pk(unit, at)
+    existing = MeterReading.objects.get(pk=pk) if pk else None
+    refusal = ctx.readings.refusal(unit, at=at, hours=values["hours"], now=ctx.now)
     if refusal:
         raise RowRefused("hours", refusal)
     fields = {"hours": values["hours"], "source": values["source"] or MeterReading.Source.MANUAL}
     reading = MeterReading(unit=unit, taken_at=at, **fields)
     # The rule above is what MeterReading.clean would ask again: only the fields are checked.
-    return row_save(reading, fields, existing, exclude=["unit"], fields_only=True)
+    outcome = row_save(reading, fields, existing, exclude=["unit"], fields_only=True)
+    stored = existing or reading
+    ctx.readings.stored(unit, at=at, hours=stored.hours, pk=stored.pk)
+    return outcome
 
 
 def reading_rows() -> Iterator[dict[str, Any]]:
