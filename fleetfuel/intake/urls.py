@@ -3,6 +3,7 @@
 from django.urls import path
 
 from . import entry_views
+from .imports import views as import_views
 
 app_name = "intake"
 urlpatterns = [
@@ -12,4 +13,14 @@ urlpatterns = [
     path("delivery/", entry_views.delivery_entry, name="delivery"),
     path("sample/", entry_views.sample_entry, name="sample"),
     path("event/", entry_views.event_entry, name="event"),
+    # spreadsheet imports
+    path("import/", import_views.import_upload, name="import"),
+    path("import/<int:pk>/", import_views.import_run_page, name="import_run"),
+    path("import/<int:pk>/apply/", import_views.import_run_apply_view, name="import_apply"),
+    path("import/<int:pk>/rejects/", import_views.import_rejects, name="import_rejects"),
+    path(
+        "import/template/<str:kind>.<str:fmt>",
+        import_views.import_template,
+        name="import_template",
+    ),
 ]

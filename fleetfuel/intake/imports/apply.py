@@ -123,6 +123,7 @@ def file_import(
     mode: str,
     now: datetime,
     progress: Callable[[int], None] | None = None,
+    site_ids: frozenset[int] | None = None,
 ) -> ImportResult:
     """Import one file. Never raises for bad input: the result carries every refusal."""
     if mode not in MODES:
@@ -135,7 +136,8 @@ def file_import(
             if problem:
                 result.file_error = problem
                 return result
-            _rows_run(result, layout=layout, sheet=sheet, found=found, now=now,
+            ctx = Context(now=now, site_ids=site_ids)
+            _rows_run(result, layout=layout, sheet=sheet, found=found, ctx=ctx,
                       progress=progress, xlsx=path.suffix.lower() == ".xlsx")  # fmt: skip
     except FileRefused as exc:
         result.file_error = f"refused: {exc}"
@@ -147,9 +149,8 @@ def file_import(
 
 def _rows_run(
     result: ImportResult, *, layout: Layout, sheet: Sheet, found: list[tuple[Column, int, str]],
-    now: datetime, progress: Callable[[int], None] | None, xlsx: bool,
+    ctx: Context, progress: Callable[[int], None] | None, xlsx: bool,
 ) -> None:  # fmt: skip
-    ctx = Context(now=now)
     given = {c.key for c, _, _ in found}
     absent = [c for c in layout.columns if c.key not in given]
     seen: dict[tuple[Any, ...], int] = {}

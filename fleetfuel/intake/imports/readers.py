@@ -49,13 +49,19 @@ def column_name(index: int, sheet: Sheet) -> str:
     return header
 
 
+def size_refusal(size: int, *, max_bytes: int = MAX_BYTES) -> str | None:
+    if size <= max_bytes:
+        return None
+    return (
+        f"the file is {size / 1024 / 1024:,.1f} MB; the limit is "
+        f"{max_bytes / 1024 / 1024:,.0f} MB (split it into several files)"
+    )
+
+
 def _size_check(path: Path, *, max_bytes: int) -> None:
-    size = path.stat().st_size
-    if size > max_bytes:
-        raise FileRefused(
-            f"the file is {size / 1024 / 1024:,.1f} MB; the limit is "
-            f"{max_bytes / 1024 / 1024:,.0f} MB (split it into several files)"
-        )
+    refusal = size_refusal(path.stat().st_size, max_bytes=max_bytes)
+    if refusal:
+        raise FileRefused(refusal)
 
 
 def _sniff_refusal(head: bytes) -> str | None:
