@@ -55,6 +55,7 @@ def fleet_rows_delete() -> None:
     ]
     with connection.cursor() as cursor:
         if connection.vendor == "postgresql":
+            cursor.execute("SET CONSTRAINTS ALL IMMEDIATE")  # the demo's deferred checks first
             cursor.execute(f"TRUNCATE {', '.join(tables)} CASCADE")
         else:
             for table in tables:

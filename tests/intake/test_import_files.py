@@ -3,12 +3,15 @@
 from __future__ import annotations
 
 import codecs
+import csv
 from datetime import timedelta
 from pathlib import Path
 from typing import Any
 
 import openpyxl
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from fleetfuel.fleet.models import Fueling, MeterReading
 from fleetfuel.intake.exports import layouts_markdown, template_csv, template_xlsx
@@ -124,3 +127,33 @@ def test_the_layouts_doc_is_the_registry(db: Any) -> None:
     changes (``manage.py export_data --layouts-doc > docs/import-layouts.md``)."""
     doc = (Path(__file__).parents[2] / "docs" / "import-layouts.md").read_text(encoding="utf-8")
     assert doc == layouts_markdown()
+
+
+CELL = st.one_of(
+    st.text(max_size=12),
+    st.sampled_from(["", "nan", "-1", "1e400", "12,5", "2026-02-30", "T-1", ";", '"', "\r"]),
+)
+
+
+@settings(suppress_health_check=[HealthCheck.function_scoped_fixture], max_examples=40)
+@given(rows=st.lists(st.lists(CELL, min_size=0, max_size=5), max_size=8))
+def test_malformed_rows_are_each_refused_with_a_reason(
+    unit: Any, tmp_path: Path, rows: list[list[str]]
+) -> None:
+    """Whatever the rows hold, the dry run ends; every row is counted once (stored or
+    refused), and each refusal names its line and says why (property-based, hypothesis)."""
+    path = tmp_path / "fuelings.csv"
+    with path.open("w", newline="", encoding="utf-8") as out:
+        writer = csv.writer(out)
+        writer.writerow(["unit", "fueled_at", "litres", "source"])
+        writer.writerows(rows)
+    result = imported(path, "fuelings", DRY_RUN)
+    if result.file_error:
+        assert result.file_error.startswith(("the file has a header and no rows", "refused: "))
+        return
+    filled = sum(1 for row in rows if any(cell.strip() for cell in row))
+    assert sum(result.counts.values()) == filled  # no row dropped
+    assert result.counts["refused"] == len(result.errors)
+    for error in result.errors:
+        assert error.line >= 2 and error.reason
+    assert Fueling.objects.count() == 0

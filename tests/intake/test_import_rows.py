@@ -12,9 +12,11 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from fleetfuel.fleet.models import FuelSample, MeterReading
-from fleetfuel.intake.imports.apply import DRY_RUN, file_import
+from fleetfuel.intake.imports.apply import DRY_RUN, GOOD_ROWS_ONLY, file_import
 from fleetfuel.intake.imports.columns import CellError, Column, cell_parse, number_parse
 from fleetfuel.intake.imports.layouts import layout_for
+from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.ledger.verification import ledger_verify
 from services.fuel_quality import parse_iso4406
 from tests import factories as f
 
@@ -174,3 +176,28 @@ def test_malformed_codes_are_refused_by_the_parser_with_a_reason(text: str) -> N
         assert str(exc)
     else:
         assert len(codes) == 3  # ISO 4406:1999 and later: three scale numbers
+
+
+def test_service_events_join_the_units_chain(unit: Any, manager: Any, tmp_path: Path) -> None:
+    n = unit.fleet_number
+    text = (
+        "unit,kind,performed_at,hour_meter,component,water_ml,recorded_by\n"
+        f"{n},separator_drained,{T1},1000,primary_filter,40,{manager.username}\n"
+        f"{n},separator_drained,{T2},1010,primary_filter,35,nobody\n"
+        f"{n},filter_changed,{T2},1010,rail,,{manager.username}\n"
+        f"{n},separator_drained,{T1},1000,primary_filter,40,{manager.username}\n"
+    )
+    path = tmp_path / "service_events.csv"
+    path.write_text(text, encoding="utf-8")
+    result = file_import(
+        path=path, layout=layout_for(kind="service_events"), mode=GOOD_ROWS_ONLY, now=NOW
+    )
+    assert [str(e) for e in result.errors] == [
+        "service_events.csv line 3, column recorded_by: no user named 'nobody'",
+        "service_events.csv line 5: the same row as line 2 "
+        "(unit, site, kind, performed_at, component_kind, cylinder, measurement_name)",
+    ]
+    # The rail is fitted on the test unit (fleet.actions.unit_fuel_system_fit): line 4 stands.
+    assert result.counts["created"] == 2
+    assert ServiceEvent.objects.filter(unit=unit).count() == 2
+    assert ledger_verify(unit_ids=[unit.pk]).ok

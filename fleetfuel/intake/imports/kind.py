@@ -136,9 +136,16 @@ def model_check(
         else:
             obj.full_clean(exclude=exclude)
     except ValidationError as exc:
-        field_name, messages = next(iter(exc.message_dict.items()))
-        column = (columns or {}).get(field_name, field_name)
-        raise RowRefused("" if column == "__all__" else column, " ".join(messages)) from None
+        raise validation_refusal(exc, columns=columns) from None
+
+
+def validation_refusal(exc: ValidationError, *, columns: Mapping[str, str] | None) -> RowRefused:
+    """The first message of a model's ValidationError, as a refusal naming its column."""
+    if not hasattr(exc, "error_dict"):
+        return RowRefused("", " ".join(exc.messages))
+    field_name, messages = next(iter(exc.message_dict.items()))
+    column = (columns or {}).get(field_name, field_name)
+    return RowRefused("" if column == "__all__" else column, " ".join(messages))
 
 
 def fields_update(obj: models.Model, values: Mapping[str, Any]) -> bool:

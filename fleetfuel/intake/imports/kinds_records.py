@@ -6,13 +6,24 @@ from __future__ import annotations
 from collections.abc import Iterator
 from typing import Any
 
+from django.core.exceptions import ValidationError
+
 from fleetfuel.fleet.models import ComponentKind, Delivery, FuelSample
 from fleetfuel.ledger.actions import service_event_append
 from fleetfuel.ledger.models import ServiceEvent
 from services.units import fahrenheit_to_celsius, psi_to_bar, us_fl_oz_to_ml
 
 from .columns import Column
-from .kind import CREATED, UNCHANGED, Context, Layout, RowRefused, model_check, unit_columns
+from .kind import (
+    CREATED,
+    UNCHANGED,
+    Context,
+    Layout,
+    RowRefused,
+    model_check,
+    unit_columns,
+    validation_refusal,
+)
 from .kinds_observations import component_fitted
 
 SAMPLE_FIELDS = (
@@ -128,6 +139,9 @@ SERVICE_EVENTS = (
 )  # fmt: skip
 
 
+EVENT_COLUMNS = {"component": "component_kind", "unit": "unit", "recorded_by": "recorded_by"}
+
+
 def service_event_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
     zone = unit.site.time_zone
@@ -148,14 +162,14 @@ def service_event_store(values: dict[str, Any], ctx: Context) -> str:
             unit=unit, kind=fields["component_kind"], position=fields["cylinder"],
             column="component_kind",
         )  # fmt: skip
-    probe = ServiceEvent(unit=unit, kind=values["kind"], performed_at=at, recorded_at=recorded_at,
-                         recorded_by=ctx.user_get(values["recorded_by"], column="recorded_by"),
-                         seq=1, prev_hash="-", hash="-", **fields)  # fmt: skip
-    model_check(probe, exclude=["hash", "prev_hash", "seq"])
-    service_event_append(
-        unit=unit, kind=values["kind"], performed_at=at, recorded_by=probe.recorded_by,
-        recorded_at=recorded_at, **fields,
-    )  # fmt: skip
+    recorded_by = ctx.user_get(values["recorded_by"], column="recorded_by")
+    try:  # the ledger validates the event before it seals it
+        service_event_append(
+            unit=unit, kind=values["kind"], performed_at=at, recorded_by=recorded_by,
+            recorded_at=recorded_at, **fields,
+        )  # fmt: skip
+    except ValidationError as exc:
+        raise validation_refusal(exc, columns=EVENT_COLUMNS) from None
     return CREATED
 
 
