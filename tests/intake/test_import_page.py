@@ -134,3 +134,8 @@ def test_templates_download(as_manager: Any, fmt: str, tmp_path: Path) -> None:
         assert [c.value for c in next(sheet.iter_rows())] == [
             "unit", "site", "fueled_at", "litres", "source"
         ]  # fmt: skip
+
+
+def test_the_entry_pages_lead_to_the_import(as_manager: Any, site: Any) -> None:
+    page = as_manager.get(reverse("intake:home")).content.decode()
+    assert f'href="{reverse("intake:import")}"' in page
