@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from fleetfuel.fleet.models import FuelSample, MeterReading
+from fleetfuel.fleet.models import FuelSample, MeterReading, Unit
 from fleetfuel.intake.imports.apply import DRY_RUN, GOOD_ROWS_ONLY, file_import
 from fleetfuel.intake.imports.columns import CellError, Column, cell_parse, number_parse
 from fleetfuel.intake.imports.layouts import layout_for
@@ -201,3 +201,37 @@ def test_service_events_join_the_units_chain(unit: Any, manager: Any, tmp_path: 
     assert result.counts["created"] == 2
     assert ServiceEvent.objects.filter(unit=unit).count() == 2
     assert ledger_verify(unit_ids=[unit.pk]).ok
+
+
+def test_units_name_their_site_and_class(site: Any, unit_class: Any, tmp_path: Path) -> None:
+    head = (
+        "site,fleet_number,unit_class,make,model,serial_number,year,cylinders,in_service_on,"
+        "tank_us_gal\n"
+    )
+    good = f"{site.code},LD-7,{unit_class.name},Maker,M-1,S77,2019,6,2019-03-01,100\n"
+    text = (
+        head
+        + good
+        + (
+            f"nowhere,LD-8,{unit_class.name},Maker,M-1,S78,2019,6,2019-03-01,\n"
+            f"{site.code},LD-9,Spaceship,Maker,M-1,S79,2019,6,2019-03-01,\n"
+            f"{site.code},LD-10,{unit_class.name},Maker,M-1,S80,1900,6,2019-03-01,\n"
+        )
+    )
+    path = tmp_path / "units.csv"
+    path.write_text(text, encoding="utf-8")
+    layout = layout_for(kind="units")
+    result = file_import(path=path, layout=layout, mode=GOOD_ROWS_ONLY, now=NOW)
+    assert [str(e) for e in result.errors] == [
+        "units.csv line 3, column site: no site with code 'nowhere'",
+        "units.csv line 4, column unit_class: no unit class named 'Spaceship'",
+        "units.csv line 5, column year: 1900 is below the lowest allowed (1950)",
+    ]
+    unit = Unit.objects.get(fleet_number="LD-7")
+    # NIST Handbook 44 Appendix C: 1 US gallon = 3.785411784 L (exact).
+    assert unit.tank_capacity_l == pytest.approx(378.5411784)
+    # The same file again with another tank: the unit is updated, not duplicated.
+    path.write_text(head + good.replace(",100\n", ",120\n"), encoding="utf-8")
+    again = file_import(path=path, layout=layout, mode=GOOD_ROWS_ONLY, now=NOW)
+    assert again.counts == {"created": 0, "updated": 1, "unchanged": 0, "refused": 0}
+    assert Unit.objects.filter(fleet_number="LD-7").count() == 1
