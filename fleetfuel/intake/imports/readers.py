@@ -43,12 +43,6 @@ class Sheet:
     decimal_comma: bool
 
 
-def column_name(index: int, sheet: Sheet) -> str:
-    """How a row error names a column: its header, and its letter in an XLSX sheet."""
-    header = sheet.header[index] if index < len(sheet.header) else f"#{index + 1}"
-    return header
-
-
 def size_refusal(size: int, *, max_bytes: int = MAX_BYTES) -> str | None:
     if size <= max_bytes:
         return None
