@@ -41,6 +41,7 @@ from fleetfuel.fleet.models import (
     MeterReplacement,
 )
 from fleetfuel.intake.feed_tokens import feed_token_create
+from fleetfuel.intake.models import ImportRun
 from fleetfuel.ledger.checkpoints import chain_checkpoints_record
 from fleetfuel.ledger.manifest import export_finish
 from fleetfuel.ledger.models import ServiceEvent
@@ -112,6 +113,13 @@ EXPECTED: dict[str, str] = {
     "intake:event": "L/L 200/200 200/200 403/403 403/403",
     "intake:feed_tokens": "L/L 200/200 200/200 403/403 403/403",
     "intake:feed_token_revoke": "L/L 405/302 405/404 403/403 403/403",
+    # Spreadsheet imports: managers; a run is its maker's (404 to others); this run has no
+    # rejects file (404).
+    "intake:import": "L/L 200/200 200/200 403/403 403/403",
+    "intake:import_run": "L/L 200/200 404/404 403/403 403/403",
+    "intake:import_apply": "L/L 405/404 405/404 403/403 403/403",
+    "intake:import_rejects": "L/L 404/404 404/404 403/403 403/403",
+    "intake:import_template": "L/L 200/200 200/200 403/403 403/403",
     "api:telematics": "405/401 405/401 405/401 405/401 405/401",
     "admin:index": "L/L 200/200 200/200 L/L L/L",
     "admin:auth_group_changelist": "L/L 403/403 403/403 L/L L/L",
@@ -264,6 +272,7 @@ class World:
         self.url_objects: dict[str, Any] = {
             "intake:feed_token_revoke": token,
             "planning:source_decision": self.decision,
+            "intake:import_template": {"kind": "readings", "fmt": "csv"},
             "ledger:correct": ServiceEvent.objects.filter(unit=unit).first(),
             "pages:due_item_detail": DueItem.objects.filter(unit=unit).first(),
             "pages:unit_detail": unit,
@@ -274,6 +283,12 @@ class World:
         }
         for name in ("detail", "job_save", "task_add", "close", "override"):
             self.url_objects[f"workorders:{name}"] = wo
+        run = ImportRun.objects.create(
+            created_by=self.people["manager_all"], created_at=NOW, kind="readings",
+            mode=ImportRun.Mode.DRY_RUN, file="uploads/perm.csv", original_name="perm.csv",
+        )  # fmt: skip
+        for name in ("import_run", "import_apply", "import_rejects"):
+            self.url_objects[f"intake:{name}"] = run
 
     def _observations(self, unit: Any) -> None:
         MeterReading.objects.create(unit=unit, taken_at=NOW - timedelta(days=1), hours=1200)
@@ -324,6 +339,8 @@ class World:
         if "<" in route:
             obj = self.url_objects.get(name)
             assert obj is not None, f"{name} ({route}) names an object: add it to World"
+            if isinstance(obj, dict):
+                return reverse(name, kwargs=obj)
             return reverse(name, args=[obj.pk])
         return reverse(name)
 

@@ -3,6 +3,7 @@
 from django.urls import path
 
 from . import entry_views, feed_pages
+from .imports import views as import_views
 
 app_name = "intake"
 urlpatterns = [
@@ -18,5 +19,15 @@ urlpatterns = [
         "feed-tokens/<int:pk>/revoke/",
         feed_pages.feed_token_revoke_view,
         name="feed_token_revoke",
+    ),
+    # spreadsheet imports
+    path("import/", import_views.import_upload, name="import"),
+    path("import/<int:pk>/", import_views.import_run_page, name="import_run"),
+    path("import/<int:pk>/apply/", import_views.import_run_apply_view, name="import_apply"),
+    path("import/<int:pk>/rejects/", import_views.import_rejects, name="import_rejects"),
+    path(
+        "import/template/<str:kind>.<str:fmt>",
+        import_views.import_template,
+        name="import_template",
     ),
 ]

@@ -10,6 +10,7 @@ page to know whether a next page exists, so it never counts the whole table.
 from __future__ import annotations
 
 import math
+import zlib
 from collections import defaultdict
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -110,7 +111,9 @@ def unit_forecast(b: UnitInputs, *, now: datetime) -> UsageForecast:
         class_rate=b.unit.unit_class.typical_hours_per_day,
         floor=max(floors, key=lambda f: f[1]) if floors else None,
         evidence_at=b.latest_fueled_at,
-        seed=b.unit.pk,
+        # Seeded by what names the unit (depot and fleet number), not its database id, so the
+        # same fleet gives the same band in any installation (export_data / import_data).
+        seed=zlib.crc32(f"{b.unit.site.code}/{b.unit.fleet_number}".encode()),
     )
 
 
