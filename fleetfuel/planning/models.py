@@ -136,8 +136,9 @@ class StaleProjection(models.Model):
 
 
 class WorkListDispatch(models.Model):
-    """One emailed work list: a manager, a site, a local day. Claimed before sending, so a
-    rerun of the hourly tick, or two workers, never send the same list twice."""
+    """One emailed work list: a manager, a site, a local day, scheduled or by hand. Claimed
+    before sending, so a rerun of the hourly tick, two workers, or two presses of "send now"
+    never send the same list twice."""
 
     class Status(models.TextChoices):
         PENDING = "pending", "Waiting to send"
@@ -160,10 +161,10 @@ class WorkListDispatch(models.Model):
     class Meta:
         ordering = ["-created_at"]
         constraints = [
+            # One scheduled and one by-hand list a day: a second press sends nothing.
             models.UniqueConstraint(
-                fields=["user", "site", "local_date"],
-                condition=Q(manual=False),
-                name="worklist_once_per_user_site_day",
+                fields=["user", "site", "local_date", "manual"],
+                name="worklist_once_per_user_site_day_kind",
             ),
         ]
 

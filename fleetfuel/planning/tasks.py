@@ -14,7 +14,7 @@ from fleetfuel.fleet.models import Unit
 
 from .actions import due_items_recompute, stale_units_recompute
 from .models import ProjectionRun, WorkListDispatch
-from .worklists import dispatch_claim, dispatch_send, worklists_due_now
+from .worklists import dispatch_claim, dispatch_send, dispatches_stuck, worklists_due_now
 
 RETRY = {
     "autoretry_for": (OperationalError,),
@@ -103,10 +103,15 @@ def stale_sweep() -> dict[str, int]:
 
 @shared_task(name="fleetfuel.planning.tasks.worklists_tick", time_limit=120, soft_time_limit=100)
 def worklists_tick() -> int:
-    """Hourly (beat): queue the work lists whose local hour has come. Rerunning is harmless."""
-    due = worklists_due_now(now=timezone.now())
+    """Hourly (beat): queue the work lists whose local hour has come, and again the ones that
+    were never picked up (a "send now" while the broker was down). Rerunning is harmless:
+    each send claims its dispatch first."""
+    now = timezone.now()
+    due = worklists_due_now(now=now)
     for user_id, site_id, local_date in due:
         worklist_send.delay(user_id, site_id, local_date.isoformat())
+    for user_id, site_id, local_date, manual in dispatches_stuck(now=now):
+        worklist_send.delay(user_id, site_id, local_date.isoformat(), manual)
     return len(due)
 
 

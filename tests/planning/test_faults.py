@@ -19,6 +19,7 @@ from typing import Any
 import pytest
 import time_machine
 from celery import current_app
+from django.test import override_settings
 from django.urls import reverse
 from django.utils import timezone
 
@@ -27,11 +28,14 @@ from fleetfuel.fleet.models import MeterReading
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning import actions
 from fleetfuel.planning.actions import due_items_recompute
-from fleetfuel.planning.models import DueItem, StaleProjection
-from fleetfuel.planning.tasks import stale_sweep
+from fleetfuel.planning.models import DueItem, StaleProjection, WorkListDispatch
+from fleetfuel.planning.tasks import stale_sweep, worklists_tick
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 from tests import factories as f
+from tests.planning.test_worklists import Inbox, smtp, smtp_mailer, subscribed
 from tests.workorders.conftest import task_make, work_order_make
+
+__all__ = ["smtp", "subscribed"]  # fixtures shared with the work-list tests
 
 MARKER = "Out of date: recompute pending"
 
@@ -216,3 +220,30 @@ def test_a_recompute_keeps_a_mark_made_after_it_read_the_inputs(
     assert marks.get().marked_at == first + timedelta(seconds=1)
     due_items_recompute(unit_ids=[unit.pk], now=timezone.now())
     assert not marks.exists()
+
+
+@pytest.mark.usefixtures("clock_at_now")  # 13:00 in London: not the list's chosen hour
+@pytest.mark.django_db(transaction=True)
+def test_send_now_with_the_broker_unreachable_is_queued_again_by_the_schedule(
+    client: Any, subscribed: dict[str, Any], smtp: tuple[Inbox, int], broker_down: str
+) -> None:
+    inbox, port = smtp
+    client.force_login(subscribed["manager"])
+    response = client.post(reverse("planning:worklist_send_now"), follow=True)
+    assert response.status_code == 200
+    [(level, text)] = [(m.level_tag, m.message) for m in response.context["messages"]]
+    assert level == "error" and "task queue could not be reached" in text
+    dispatch = WorkListDispatch.objects.get(manual=True)
+    assert dispatch.status == WorkListDispatch.Status.PENDING
+
+    # The broker is back (in-process here); the hourly tick queues the lost list again.
+    app_point_at(None, eager=True)
+    with (
+        time_machine.travel(f.NOW + timedelta(minutes=20), tick=True),
+        override_settings(MAILERS=smtp_mailer(port)),
+    ):
+        worklists_tick()
+        worklists_tick()  # a rerun sends nothing twice
+    dispatch.refresh_from_db()
+    assert dispatch.status == WorkListDispatch.Status.SENT
+    assert [rcpt for _, rcpt, _ in inbox.messages] == [["morgan@depot.example"]]
