@@ -19,6 +19,7 @@ from typing import Any
 import pytest
 import time_machine
 from celery import current_app
+from django.conf import settings
 from django.test import override_settings
 from django.urls import reverse
 from django.utils import timezone
@@ -196,6 +197,14 @@ def test_admin_save_of_a_reading_with_the_broker_unreachable_stands(
     assert StaleProjection.objects.filter(unit=unit).exists()
     assert all(i.projection_stale for i in items_of(unit).values())
     assert_sweep_recomputes(unit, before)
+
+
+def test_every_scheduled_job_names_a_task_of_the_app() -> None:
+    """The sweep is on beat's schedule, and no entry names a task the workers lack."""
+    app.loader.import_default_modules()
+    names = {entry["task"] for entry in settings.CELERY_BEAT_SCHEDULE.values()}
+    assert stale_sweep.name in names
+    assert names <= set(app.tasks)
 
 
 @pytest.mark.django_db
