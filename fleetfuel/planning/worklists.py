@@ -137,11 +137,12 @@ def dispatch_request(*, user_id: int, site_id: int, local_date: date) -> WorkLis
 
 
 def dispatch_send(*, dispatch: WorkListDispatch) -> None:
-    """Send a claimed dispatch. SMTP errors propagate to the caller after being recorded."""
-    message, count = worklist_message(
-        user=dispatch.user, site=dispatch.site, today=dispatch.local_date
-    )
+    """Send a claimed dispatch. Errors (building the message or SMTP) propagate to the caller
+    after being recorded, so the dispatch never stays claimed by a send that failed."""
     try:
+        message, count = worklist_message(
+            user=dispatch.user, site=dispatch.site, today=dispatch.local_date
+        )
         message.send()
     except Exception as exc:
         final = dispatch.attempts >= MAX_ATTEMPTS

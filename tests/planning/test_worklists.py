@@ -242,3 +242,25 @@ def test_auditor_cannot_change_work_list_settings(as_auditor: Any) -> None:
         as_auditor.post(reverse("planning:worklist_settings"), {"work_list_hour": "5"}).status_code
         == 403
     )
+
+
+@pytest.mark.django_db
+def test_a_depot_whose_list_cannot_be_built_is_reported_and_the_others_sent(
+    smtp: tuple[Inbox, int], subscribed: dict[str, Any], client: Any
+) -> None:
+    """A depot name with a line break cannot go in an email subject (a header injection,
+    refused by the email package): that depot's error is shown, the other depot's list is
+    sent, and the refused one is left to retry rather than claimed for ever."""
+    inbox, port = smtp
+    manager = subscribed["manager"]
+    broken = f.site_make(name="Depot\r\nBcc: someone@example.test")
+    manager.profile.sites.add(broken)
+    client.force_login(manager)
+    with override_settings(MAILERS=smtp_mailer(port)):
+        response = client.post(reverse("planning:worklist_send_now"), follow=True)
+    levels = {m.message.split(":")[0]: m.level_tag for m in response.context["messages"]}
+    assert levels[subscribed["site"].name] == "success"
+    assert [level for name, level in levels.items() if name.startswith("Depot")] == ["error"]
+    assert len(inbox.messages) == 1
+    failed = WorkListDispatch.objects.get(site=broken)
+    assert failed.status == WorkListDispatch.Status.RETRYING and "linefeed" in failed.last_error
