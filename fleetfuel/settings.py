@@ -335,12 +335,26 @@ CELERY_TASK_SOFT_TIME_LIMIT = 240
 # Retries and countdowns stay well under this, so Redis never re-delivers a task twice.
 CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": 3600}
 CELERY_TIMEZONE = "UTC"
+# Publishing from a request fails fast when the broker is down: the write has committed, the
+# units are marked stale and the sweep catches up, so the request must not wait ~20 s for
+# Celery's default reconnection attempts (the result store's are 20 of 1 s each).
+_PUBLISH_RETRY = {"max_retries": 1, "interval_start": 0, "interval_step": 0.2, "interval_max": 0.2}
+CELERY_BROKER_CONNECTION_TIMEOUT = 2
+CELERY_REDIS_SOCKET_CONNECT_TIMEOUT = 2
+CELERY_TASK_PUBLISH_RETRY_POLICY = _PUBLISH_RETRY
+CELERY_RESULT_BACKEND_TRANSPORT_OPTIONS = {"retry_policy": _PUBLISH_RETRY}
 # Keep beat single (one process): every scheduled job is idempotent anyway.
 CELERY_BEAT_SCHEDULE = {
     "nightly-recompute": {
         "task": "fleetfuel.planning.tasks.recompute_all",
         "schedule": crontab(hour=2, minute=15),
         "options": {"expires": 6 * 3600},
+    },
+    "stale-sweep": {
+        # Units whose recompute could not be queued, and a nightly run whose chain broke.
+        "task": "fleetfuel.planning.tasks.stale_sweep",
+        "schedule": crontab(minute="*/5"),
+        "options": {"expires": 4 * 60},
     },
     "ledger-checkpoints": {
         "task": "fleetfuel.ledger.tasks.checkpoint_heads",

@@ -7,11 +7,12 @@ from datetime import datetime
 from typing import Any
 
 from django.db import transaction
+from django.db.models import Q
 
 from services.common import DueStatus
 
 from .engine import unit_compute
-from .models import DueItem, UnitFlag
+from .models import DueItem, StaleProjection, UnitFlag
 from .selectors import batch_inputs_load
 from .source_decisions import source_decisions_recompute
 
@@ -30,6 +31,7 @@ DUE_FIELDS = [
     "explanation",
     "inputs",
     "computed_at",
+    "projection_stale",
 ]
 
 
@@ -76,7 +78,12 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
     Idempotent: the same inputs give the same rows (upserts keyed on component and task, so
     a due item keeps its id, and the work-order tasks that point at it stay linked).
     A fixed number of queries per call, whatever the number of units.
+    The units' stale marks read before their inputs are removed after (a mark made since
+    stays, for the sweep).
     """
+    marks = list(
+        StaleProjection.objects.filter(unit_id__in=unit_ids).values_list("unit_id", "marked_at")
+    )
     batch = batch_inputs_load(unit_ids=unit_ids, now=now)
     items: list[DueItem] = []
     flags: list[UnitFlag] = []
@@ -137,5 +144,34 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             key=("unit_id", "code"),
             update_fields=FLAG_FIELDS,
         )
+        if marks:
+            seen = Q()
+            for unit_id, marked_at in marks:
+                seen |= Q(unit_id=unit_id, marked_at=marked_at)
+            StaleProjection.objects.filter(seen).delete()
     source_decisions_recompute(now=now)  # the sources' decisions, after their units
     return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))
+
+
+def units_mark_stale(*, unit_ids: list[int], now: datetime, reason: str) -> None:
+    """Mark units whose recompute could not be queued: the sweep and the pages see it."""
+    if not unit_ids:
+        return
+    with transaction.atomic():
+        StaleProjection.objects.bulk_create(
+            [StaleProjection(unit_id=u, marked_at=now, reason=reason[:1000]) for u in unit_ids],
+            update_conflicts=True,
+            unique_fields=["unit"],
+            update_fields=["marked_at", "reason"],
+        )
+        DueItem.objects.filter(unit_id__in=unit_ids).update(projection_stale=True)
+
+
+def stale_units_recompute(*, now: datetime, limit: int) -> RecomputeResult:
+    """Recompute up to ``limit`` units marked stale, oldest mark first (the sweep's work)."""
+    ids = list(
+        StaleProjection.objects.order_by("marked_at").values_list("unit_id", flat=True)[:limit]
+    )
+    if not ids:
+        return RecomputeResult(units=0, items=0, flags=0)
+    return due_items_recompute(unit_ids=ids, now=now)

@@ -49,6 +49,11 @@ class DueItem(models.Model):
     explanation = models.JSONField(default=list)
     inputs = models.JSONField(default=dict)
     computed_at = models.DateTimeField()
+    # Copied from StaleProjection when the unit is marked, so the due list shows it from its
+    # one table; every recompute writes the row fresh (False).
+    projection_stale = models.BooleanField(
+        default=False, help_text="A recompute of this unit is owed (its inputs changed since)."
+    )
 
     class Meta:
         ordering = ["due_on", "unit_id", "task"]
@@ -97,6 +102,11 @@ class ProjectionRun(models.Model):
     units = models.PositiveIntegerField(default=0)
     items = models.PositiveIntegerField(default=0)
     trigger = models.CharField(max_length=20, default="nightly")
+    # The batches' cursor: every unit with an id up to here is done. A batch moves it with a
+    # conditional update, so a redelivered batch neither counts twice nor forks the chain,
+    # and a run whose chain broke (a worker killed) resumes from here (the stale sweep).
+    last_unit_id = models.PositiveBigIntegerField(default=0)
+    updated_at = models.DateTimeField(null=True, blank=True)
 
     class Meta:
         ordering = ["-started_at"]
@@ -108,9 +118,30 @@ class ProjectionRun(models.Model):
         ]
 
 
+class StaleProjection(models.Model):
+    """A unit whose inputs changed but whose recompute could not be queued (broker down).
+
+    The write that changed them stands; the periodic sweep recomputes these units, and a
+    recompute that read the unit's inputs after the mark was made removes it.
+    """
+
+    unit = models.OneToOneField(
+        "fleet.Unit", on_delete=models.CASCADE, primary_key=True, related_name="+"
+    )
+    marked_at = models.DateTimeField()
+    reason = models.TextField(blank=True)
+
+    class Meta:
+        ordering = ["marked_at"]
+
+    def __str__(self) -> str:
+        return f"unit {self.unit_id} projection stale since {self.marked_at}"
+
+
 class WorkListDispatch(models.Model):
-    """One emailed work list: a manager, a site, a local day. Claimed before sending, so a
-    rerun of the hourly tick, or two workers, never send the same list twice."""
+    """One emailed work list: a manager, a site, a local day, scheduled or by hand. Claimed
+    before sending, so a rerun of the hourly tick, two workers, or two presses of "send now"
+    never send the same list twice."""
 
     class Status(models.TextChoices):
         PENDING = "pending", "Waiting to send"
@@ -133,10 +164,10 @@ class WorkListDispatch(models.Model):
     class Meta:
         ordering = ["-created_at"]
         constraints = [
+            # One scheduled and one by-hand list a day: a second press sends nothing.
             models.UniqueConstraint(
-                fields=["user", "site", "local_date"],
-                condition=Q(manual=False),
-                name="worklist_once_per_user_site_day",
+                fields=["user", "site", "local_date", "manual"],
+                name="worklist_once_per_user_site_day_kind",
             ),
         ]
 

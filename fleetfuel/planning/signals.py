@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import logging
 import threading
 from datetime import timedelta
 from typing import Any
@@ -10,6 +11,7 @@ from django.conf import settings
 from django.db import transaction
 from django.db.models.signals import post_save
 from django.dispatch import receiver
+from django.utils import timezone
 
 from fleetfuel.fleet.models import (
     EngineEvent,
@@ -22,9 +24,11 @@ from fleetfuel.fleet.models import (
 )
 from fleetfuel.ledger.models import ServiceEvent
 
+from .actions import units_mark_stale
 from .selectors import LOOKBACK_DAYS
 from .tasks import recompute_units
 
+log = logging.getLogger(__name__)
 _pending = threading.local()
 
 
@@ -45,11 +49,27 @@ def unit_recompute_enqueue(unit_ids: list[int]) -> None:
 
 
 def _flush() -> None:
+    """Send the gathered ids. It runs after the commit, so it never raises: the write stands
+    whatever happens here. A batch that cannot be queued (broker down, or an in-process
+    recompute failing) is logged and its units marked stale for the sweep and the pages."""
     ids = sorted(getattr(_pending, "ids", None) or ())
     _pending.ids = set()
     size = settings.PLANNING_BATCH_SIZE
     for start in range(0, len(ids), size):
-        recompute_units.delay(ids[start : start + size])
+        batch = ids[start : start + size]
+        try:
+            recompute_units.delay(batch)
+        except Exception as exc:
+            log.exception("recompute of units %s not queued; marking them stale", batch)
+            _batch_mark_stale(batch, f"{type(exc).__name__}: {exc}")
+
+
+def _batch_mark_stale(unit_ids: list[int], reason: str) -> None:
+    try:
+        units_mark_stale(unit_ids=unit_ids, now=timezone.now(), reason=reason)
+    except Exception:
+        # The database as well: the nightly recompute is the last net.
+        log.exception("units %s could not be marked stale either", unit_ids)
 
 
 @receiver(post_save, sender=MeterReading)

@@ -93,24 +93,26 @@ def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMulti
     return message, ctx["item_count"]
 
 
+def dispatch_get_or_create(
+    *, user_id: int, site_id: int, local_date: date, manual: bool
+) -> WorkListDispatch:
+    """The one dispatch of a manager, site and local day: scheduled, or sent by hand."""
+    key = {"user_id": user_id, "site_id": site_id, "local_date": local_date, "manual": manual}
+    try:
+        with transaction.atomic():
+            dispatch, _ = WorkListDispatch.objects.get_or_create(**key)
+    except IntegrityError:  # a concurrent tick or press created it first
+        dispatch = WorkListDispatch.objects.get(**key)
+    return dispatch
+
+
 def dispatch_claim(
     *, user_id: int, site_id: int, local_date: date, manual: bool
 ) -> WorkListDispatch | None:
     """Claim the right to send (None: already sent, or another worker is sending it)."""
-    if manual:
-        dispatch = WorkListDispatch.objects.create(
-            user_id=user_id, site_id=site_id, local_date=local_date, manual=True
-        )
-    else:
-        try:
-            with transaction.atomic():
-                dispatch, _ = WorkListDispatch.objects.get_or_create(
-                    user_id=user_id, site_id=site_id, local_date=local_date, manual=False
-                )
-        except IntegrityError:  # a concurrent tick created it first
-            dispatch = WorkListDispatch.objects.get(
-                user_id=user_id, site_id=site_id, local_date=local_date, manual=False
-            )
+    dispatch = dispatch_get_or_create(
+        user_id=user_id, site_id=site_id, local_date=local_date, manual=manual
+    )
     claimed = WorkListDispatch.objects.filter(
         pk=dispatch.pk,
         status__in=[WorkListDispatch.Status.PENDING, WorkListDispatch.Status.RETRYING],
@@ -121,12 +123,26 @@ def dispatch_claim(
     return dispatch
 
 
-def dispatch_send(*, dispatch: WorkListDispatch) -> None:
-    """Send a claimed dispatch. SMTP errors propagate to the caller after being recorded."""
-    message, count = worklist_message(
-        user=dispatch.user, site=dispatch.site, today=dispatch.local_date
+def dispatch_request(*, user_id: int, site_id: int, local_date: date) -> WorkListDispatch:
+    """The day's by-hand dispatch for "send now": one a day per manager and site, so a second
+    press sends nothing twice. A press after a final failure starts it again."""
+    dispatch = dispatch_get_or_create(
+        user_id=user_id, site_id=site_id, local_date=local_date, manual=True
     )
+    if WorkListDispatch.objects.filter(
+        pk=dispatch.pk, status=WorkListDispatch.Status.FAILED
+    ).update(status=WorkListDispatch.Status.PENDING, attempts=0):
+        dispatch.refresh_from_db()
+    return dispatch
+
+
+def dispatch_send(*, dispatch: WorkListDispatch) -> None:
+    """Send a claimed dispatch. Errors (building the message or SMTP) propagate to the caller
+    after being recorded, so the dispatch never stays claimed by a send that failed."""
     try:
+        message, count = worklist_message(
+            user=dispatch.user, site=dispatch.site, today=dispatch.local_date
+        )
         message.send()
     except Exception as exc:
         final = dispatch.attempts >= MAX_ATTEMPTS
@@ -155,6 +171,24 @@ def worklists_due_now(*, now: datetime) -> list[tuple[int, int, date]]:
             if local.hour == profile.work_list_hour:
                 due.append((profile.user_id, site.pk, local.date()))
     return due
+
+
+# A dispatch still unsent this long after it was made was lost: the broker was down when it
+# was queued, its worker died, or it ran in-process with no worker to retry it (the retries'
+# own backoff, 30 s, 2 and 8 min, is over by then). The hourly tick queues it again; the
+# claim keeps a late retry of its own from sending it twice.
+DISPATCH_STUCK_AFTER = timedelta(minutes=15)
+
+
+def dispatches_stuck(*, now: datetime) -> list[tuple[int, int, date, bool]]:
+    """(user, site, local day, by hand) of the dispatches of the last two days still unsent."""
+    return list(
+        WorkListDispatch.objects.filter(
+            status__in=[WorkListDispatch.Status.PENDING, WorkListDispatch.Status.RETRYING],
+            created_at__lt=now - DISPATCH_STUCK_AFTER,
+            local_date__gte=(now - timedelta(days=2)).date(),
+        ).values_list("user_id", "site_id", "local_date", "manual")
+    )
 
 
 def recent_dispatches(*, user: Any, limit: int = 8) -> list[WorkListDispatch]:

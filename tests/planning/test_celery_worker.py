@@ -48,6 +48,27 @@ def test_db_url() -> str:
 test_db_url.__test__ = False  # type: ignore[attr-defined]
 
 
+def worker_command(*, hostname: str, queue: str | None = None) -> list[str]:
+    """A real worker, one task at a time, on the default queue or on ``queue``."""
+    return [
+        sys.executable,
+        "-m",
+        "celery",
+        "-A",
+        "fleetfuel",
+        "worker",
+        "--pool",
+        "solo",
+        "--loglevel",
+        "WARNING",
+        "--without-gossip",
+        "--without-mingle",
+        "--hostname",
+        hostname,
+        *(["-Q", queue] if queue else []),
+    ]
+
+
 @pytest.mark.celery_worker
 @pytest.mark.django_db(transaction=True)
 def test_worker_recomputes_a_unit(site: Any, unit_class: Any) -> None:
@@ -64,31 +85,15 @@ def test_worker_recomputes_a_unit(site: Any, unit_class: Any) -> None:
         "FLEETFUEL_TESTING": "true",
     }
     worker = subprocess.Popen(
-        [
-            sys.executable,
-            "-m",
-            "celery",
-            "-A",
-            "fleetfuel",
-            "worker",
-            "--pool",
-            "solo",
-            "--loglevel",
-            "WARNING",
-            "--without-gossip",
-            "--without-mingle",
-            "-Q",
-            "fleetfuel-test",
-            "--hostname",
-            f"test-{os.getpid()}@localhost",
-        ],
+        worker_command(hostname=f"test-{os.getpid()}@localhost", queue="fleetfuel-test"),
         cwd=ROOT,
         env=env,
         stdout=subprocess.PIPE,
         stderr=subprocess.STDOUT,
     )
-    # A separate client app, so the suite's in-process (eager) app is left as it is.
-    sender = Celery("fleetfuel-test-client", broker=BROKER)
+    # A separate client app, so the suite's in-process (eager) app is left as it is (and
+    # stays the current app: the tasks of later tests still run in-process).
+    sender = Celery("fleetfuel-test-client", broker=BROKER, set_as_current=False)
     try:
         sender.send_task(recompute_units.name, args=[[unit.pk]], queue="fleetfuel-test")
         deadline = time.monotonic() + 90

@@ -10,6 +10,7 @@ from email.message import Message
 from typing import Any
 
 import pytest
+import time_machine
 from aiosmtpd.controller import Controller
 from django.test import override_settings
 from django.urls import reverse
@@ -155,16 +156,65 @@ def test_smtp_failure_is_retried_then_shown_on_the_managers_page(
     assert "Failed after retries" in page and "attempts" in page
 
 
+def texts(response: Any) -> list[tuple[str, str]]:
+    return [(m.level_tag, m.message) for m in response.context["messages"]]
+
+
 @pytest.mark.django_db
-def test_send_now_button(smtp: tuple[Inbox, int], subscribed: dict[str, Any], client: Any) -> None:
+def test_send_now_button_sends_once_a_day(
+    smtp: tuple[Inbox, int], subscribed: dict[str, Any], client: Any
+) -> None:
     inbox, port = smtp
     client.force_login(subscribed["manager"])
+    name = subscribed["site"].name
     with override_settings(MAILERS=smtp_mailer(port)):
-        response = client.post(reverse("planning:worklist_send_now"))
-        client.post(reverse("planning:worklist_send_now"))
-    assert response.status_code == 302
-    assert len(inbox.messages) == 2  # by hand, each press sends
-    assert WorkListDispatch.objects.filter(manual=True).count() == 2
+        first = client.post(reverse("planning:worklist_send_now"), follow=True)
+        second = client.post(reverse("planning:worklist_send_now"), follow=True)
+    assert texts(first) == [("success", f"{name}: work list sent to morgan@depot.example.")]
+    assert texts(second) == [
+        ("info", f"{name}: today's work list was already sent; not sent again.")
+    ]
+    assert len(inbox.messages) == 1  # the second press sends nothing
+    dispatch = WorkListDispatch.objects.get(manual=True)
+    assert (dispatch.status, dispatch.attempts) == (WorkListDispatch.Status.SENT, 1)
+
+
+@pytest.mark.usefixtures("clock_at_now")  # 13:00 in London: not the lists' chosen hour
+@pytest.mark.django_db
+def test_send_now_with_smtp_refusing_tries_every_depot_and_the_schedule_retries(
+    subscribed: dict[str, Any], client: Any, smtp: tuple[Inbox, int]
+) -> None:
+    """The mail server refuses (nothing listens on its port): each of four depots is tried
+    and named with its error; the hourly tick sends each list once the server is back, and
+    a later press sends nothing twice."""
+    manager = subscribed["manager"]
+    depots = [subscribed["site"]] + [f.site_make(name=f"Depot {c}") for c in "BCD"]
+    manager.profile.sites.set(depots)
+    client.force_login(manager)
+    with override_settings(MAILERS=smtp_mailer(free_port())):
+        response = client.post(reverse("planning:worklist_send_now"), follow=True)
+    assert response.status_code == 200
+    said = texts(response)
+    assert sorted(m.split(":")[0] for _, m in said) == sorted(d.name for d in depots)
+    assert {level for level, _ in said} == {"error"}
+    assert all("not sent" in m and "Connection refused" in m for _, m in said)
+    dispatches = WorkListDispatch.objects.filter(manual=True)
+    assert sorted(d.site_id for d in dispatches) == sorted(d.pk for d in depots)
+    assert {d.status for d in dispatches} == {WorkListDispatch.Status.RETRYING}
+    page = client.get(reverse("pages:due_list")).content.decode()
+    assert page.count("Failed, will retry") == 4
+
+    inbox, port = smtp
+    with (
+        time_machine.travel(f.NOW + timedelta(minutes=20), tick=True),
+        override_settings(MAILERS=smtp_mailer(port)),
+    ):
+        worklists_tick()
+        again = client.post(reverse("planning:worklist_send_now"), follow=True)
+    assert sorted(rcpt for _, rcpt, _ in inbox.messages) == [["morgan@depot.example"]] * 4
+    assert {d.status for d in dispatches.all()} == {WorkListDispatch.Status.SENT}
+    assert {level for level, _ in texts(again)} == {"info"}  # already sent: not again
+    assert len(inbox.messages) == 4
 
 
 @pytest.mark.django_db
@@ -192,3 +242,25 @@ def test_auditor_cannot_change_work_list_settings(as_auditor: Any) -> None:
         as_auditor.post(reverse("planning:worklist_settings"), {"work_list_hour": "5"}).status_code
         == 403
     )
+
+
+@pytest.mark.django_db
+def test_a_depot_whose_list_cannot_be_built_is_reported_and_the_others_sent(
+    smtp: tuple[Inbox, int], subscribed: dict[str, Any], client: Any
+) -> None:
+    """A depot name with a line break cannot go in an email subject (a header injection,
+    refused by the email package): that depot's error is shown, the other depot's list is
+    sent, and the refused one is left to retry rather than claimed for ever."""
+    inbox, port = smtp
+    manager = subscribed["manager"]
+    broken = f.site_make(name="Depot\r\nBcc: someone@example.test")
+    manager.profile.sites.add(broken)
+    client.force_login(manager)
+    with override_settings(MAILERS=smtp_mailer(port)):
+        response = client.post(reverse("planning:worklist_send_now"), follow=True)
+    levels = {m.message.split(":")[0]: m.level_tag for m in response.context["messages"]}
+    assert levels[subscribed["site"].name] == "success"
+    assert [level for name, level in levels.items() if name.startswith("Depot")] == ["error"]
+    assert len(inbox.messages) == 1
+    failed = WorkListDispatch.objects.get(site=broken)
+    assert failed.status == WorkListDispatch.Status.RETRYING and "linefeed" in failed.last_error

@@ -9,7 +9,7 @@ class Migration(migrations.Migration):
 
     dependencies = [
         ('fleet', '0004_iso_marks_efficiency_size_dp_conditions_coldest_fuel'),
-        ('planning', '0004_dueitem_site'),
+        ('planning', '0006_worklist_once_a_day_by_hand'),
         migrations.swappable_dependency(settings.AUTH_USER_MODEL),
     ]
 
