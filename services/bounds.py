@@ -139,9 +139,11 @@ def number_problem(*, value: float, quantity: str, label: str = "") -> str:
     bounds = RANGES[quantity]
     if bounds.low <= value <= bounds.high:
         return ""
+    unit = f" {bounds.unit}" if bounds.unit else ""
+    entered = _show(value) if abs(value) < 1e15 else f"{value:g}"
     return (
-        f"{name} must be from {_show(bounds.low)} to {_show(bounds.high)} {bounds.unit} "
-        f"(you entered {_show(value) if abs(value) < 1e15 else f'{value:g}'})."
+        f"{name} must be from {_show(bounds.low)} to {_show(bounds.high)}{unit} "
+        f"(you entered {entered})."
     )
 
 
