@@ -128,7 +128,9 @@ def quantity_for_name(*, name: str) -> str:
 
 
 def _show(value: float) -> str:
-    return f"{value:,.5g}" if abs(value) < 1e6 else f"{value:,.0f}"
+    if abs(value) >= 1e15:
+        return f"{value:g}"
+    return f"{value:,.0f}" if value == int(value) else f"{value:,.6g}"
 
 
 def number_problem(*, value: float, quantity: str, label: str = "") -> str:
@@ -140,7 +142,7 @@ def number_problem(*, value: float, quantity: str, label: str = "") -> str:
     if bounds.low <= value <= bounds.high:
         return ""
     unit = f" {bounds.unit}" if bounds.unit else ""
-    entered = _show(value) if abs(value) < 1e15 else f"{value:g}"
+    entered = _show(value)
     return (
         f"{name} must be from {_show(bounds.low)} to {_show(bounds.high)}{unit} "
         f"(you entered {entered})."
