@@ -11,7 +11,7 @@ import pint
 import pytest
 from django.urls import reverse
 
-from fleetfuel.fleet.models import FuelSample, FuelSource, Site
+from fleetfuel.fleet.models import FuelSample, FuelSource, MeterReading, Site
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.workorders import actions
 from fleetfuel.workorders.fields import TextField
@@ -20,7 +20,7 @@ from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 from services import bounds
 from tests import factories as f
 from tests.ledger.conftest import events_add
-from tests.workorders.conftest import reading, task_make, wo  # noqa: F401
+from tests.workorders.conftest import task_make, work_order_make
 
 HTMX = {"HTTP_HX_REQUEST": "true"}
 NUL = "ab\x00cd"
@@ -73,6 +73,14 @@ def test_late_close_notes_are_added_once_and_capped() -> None:
 # ----------------------------------------------------------------- the tablet
 
 
+@pytest.fixture
+def order(unit: Any, manager: Any, mechanic: Any) -> WorkOrder:
+    MeterReading.objects.create(
+        unit=unit, taken_at=f.NOW, hours=1_990.0, source=MeterReading.Source.TELEMATICS
+    )
+    return work_order_make(unit=unit, created_by=manager, assigned_to=mechanic, number="WO-0900")
+
+
 def text_fields() -> list[tuple[str, str]]:
     """(task kind, field name) for every text field of every task form."""
     return [
@@ -85,9 +93,9 @@ def text_fields() -> list[tuple[str, str]]:
 
 @pytest.mark.parametrize(("kind", "name"), text_fields())
 def test_nul_in_each_task_text_field_is_a_field_error_and_nothing_is_saved(
-    as_mechanic: Any, wo: WorkOrder, kind: str, name: str
+    as_mechanic: Any, order: WorkOrder, kind: str, name: str
 ) -> None:
-    task = task_make(wo, kind, cylinder=3 if KINDS[kind].per_cylinder else None)
+    task = task_make(order, kind, cylinder=3 if KINDS[kind].per_cylinder else None)
     url = reverse("workorders:task_save", args=[task.pk])
     response = as_mechanic.post(url, {name: NUL}, **HTMX)
     assert response.status_code == 200 and REFUSED in response.content.decode()
@@ -95,30 +103,30 @@ def test_nul_in_each_task_text_field_is_a_field_error_and_nothing_is_saved(
     assert name not in task.entry
 
 
-def test_job_fields_refuse_nul_and_1e308(as_mechanic: Any, wo: WorkOrder) -> None:
-    url = reverse("workorders:job_save", args=[wo.pk])
+def test_job_fields_refuse_nul_and_1e308(as_mechanic: Any, order: WorkOrder) -> None:
+    url = reverse("workorders:job_save", args=[order.pk])
     response = as_mechanic.post(url, {"hour_meter": "1e308", "notes": NUL}, **HTMX)
     html = response.content.decode()
     assert response.status_code < 500 and "Hour meter must be from 0 to 200,000 h" in html
-    wo.refresh_from_db()
-    assert (wo.hour_meter, wo.notes) == (None, "")
+    order.refresh_from_db()
+    assert (order.hour_meter, order.notes) == (None, "")
 
 
 def test_a_close_with_hour_meter_1e308_is_refused_and_closes_nothing(
-    as_mechanic: Any, wo: WorkOrder
+    as_mechanic: Any, order: WorkOrder
 ) -> None:
-    task_make(wo, WorkOrderTask.Kind.RELIEF_VALVE_REPLACE, description="Relief valve")
-    url = reverse("workorders:close", args=[wo.pk])
+    task_make(order, WorkOrderTask.Kind.RELIEF_VALVE_REPLACE, description="Relief valve")
+    url = reverse("workorders:close", args=[order.pk])
     response = as_mechanic.post(url, {"token": "big", "hour_meter": "1e308"})
     assert response.status_code == 400
     assert "Hour meter must be from 0 to 200,000 h" in response.content.decode()
-    wo.refresh_from_db()
-    assert wo.status == WorkOrder.Status.OPEN and not ServiceEvent.objects.exists()
-    assert wo.hour_meter is None
+    order.refresh_from_db()
+    assert order.status == WorkOrder.Status.OPEN and not ServiceEvent.objects.exists()
+    assert order.hour_meter is None
 
 
-def test_not_done_reason_and_added_task_refuse_nul(as_mechanic: Any, wo: WorkOrder) -> None:
-    task = task_make(wo, WorkOrderTask.Kind.RELIEF_VALVE_REPLACE, description="Relief valve")
+def test_not_done_reason_and_added_task_refuse_nul(as_mechanic: Any, order: WorkOrder) -> None:
+    task = task_make(order, WorkOrderTask.Kind.RELIEF_VALVE_REPLACE, description="Relief valve")
     reason = "Part not in stock\x00, ordered"
     response = as_mechanic.post(
         reverse("workorders:task_not_done", args=[task.pk]), {"reason": reason}, **HTMX
@@ -127,22 +135,22 @@ def test_not_done_reason_and_added_task_refuse_nul(as_mechanic: Any, wo: WorkOrd
     task.refresh_from_db()
     assert task.not_done_at is None and task.not_done_reason == ""
     added = as_mechanic.post(
-        reverse("workorders:task_add", args=[wo.pk]),
+        reverse("workorders:task_add", args=[order.pk]),
         {"kind": WorkOrderTask.Kind.INSPECTION, "description": "Look\x00 at it"},
     )
     assert added.status_code == 422 and REFUSED in added.content.decode()
-    assert wo.tasks.count() == 1
+    assert order.tasks.count() == 1
 
 
-def test_late_close_posts_do_not_grow_the_notes(wo: WorkOrder, mechanic: Any) -> None:
-    WorkOrder.objects.filter(pk=wo.pk).update(
-        status=WorkOrder.Status.CLOSED, closed_by=mechanic, closed_at=wo.created_at
+def test_late_close_posts_do_not_grow_the_notes(order: WorkOrder, mechanic: Any) -> None:
+    WorkOrder.objects.filter(pk=order.pk).update(
+        status=WorkOrder.Status.CLOSED, closed_by=mechanic, closed_at=order.created_at
     )
-    wo.refresh_from_db()
+    order.refresh_from_db()
     for _ in range(20):
-        actions.note_append(wo, "Close posted by another tablet: " + "entries " * 500)
-    wo.refresh_from_db()
-    assert wo.notes.count("Close posted by another tablet") == 1
+        actions.note_append(order, "Close posted by another tablet: " + "entries " * 500)
+    order.refresh_from_db()
+    assert order.notes.count("Close posted by another tablet") == 1
 
 
 # ----------------------------------------------------------------- lists and the ledger
