@@ -69,6 +69,8 @@ def test_main_pages_break_no_rule_of_the_policy(
             reverse("accounts:password_change"),
             reverse("accounts:unlock"),
             reverse("admin:index"),
+            reverse("admin:fleet_unit_change", args=[unit.pk]),
+            reverse("admin:workorders_workorder_change", args=[job.pk]),
         ],
         mechanic: [reverse("workorders:my_work"), reverse("workorders:detail", args=[job.pk])],
         auditor: [reverse("ledger:history")],
