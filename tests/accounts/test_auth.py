@@ -17,6 +17,7 @@ from django.urls import reverse
 
 from fleetfuel.accounts.middleware import session_end_reason
 from tests import factories as f
+from tests.workorders.conftest import work_order_make
 
 LOGIN = "accounts:login"
 
@@ -186,3 +187,21 @@ def test_signed_in_pages_are_not_stored_and_carry_the_policy(
 def test_exports_are_not_stored(as_manager: Any, unit: Any, mechanic: Any) -> None:
     response = as_manager.post(reverse("pages:export"), {"format": "csv"})
     assert response.status_code == 200 and "no-store" in response["Cache-Control"]
+
+
+def test_a_tablet_save_after_sign_out_is_refused_not_answered_with_the_login_form(
+    client: Any, mechanic: Any, unit: Any, manager: Any
+) -> None:
+    # Following the redirect would answer 200 (the login form): the tablet would drop its copy.
+    order = work_order_make(unit=unit, created_by=manager, assigned_to=mechanic)
+    page = reverse("workorders:detail", args=[order.pk])
+    response = client.post(
+        reverse("workorders:job_save", args=[order.pk]),
+        {"notes": "typed while signed out"},
+        HTTP_HX_REQUEST="true",
+        HTTP_HX_CURRENT_URL=f"http://testserver{page}",
+    )
+    assert response.status_code == 401
+    assert response["HX-Redirect"] == f"{reverse(LOGIN)}?next={page}"
+    order.refresh_from_db()
+    assert order.notes == ""
