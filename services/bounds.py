@@ -217,6 +217,13 @@ def text_problem(*, value: str, multiline: bool = True, label: str = "") -> str:
     return f"{label or 'This text'} cannot hold {what} (found {shown})."
 
 
+def length_problem(*, value: str, limit: int = NOTES_TOTAL_MAX, label: str = "") -> str:
+    """What is wrong with the length of ``value`` ("" when it fits ``limit`` characters)."""
+    if len(value) <= limit:
+        return ""
+    return f"{label or 'This text'} is {len(value):,} characters long; at most {limit:,} fit."
+
+
 def notes_append(*, notes: str, text: str, limit: int = NOTES_TOTAL_MAX) -> str:
     """``notes`` with ``text`` added as a new paragraph, at most ``limit`` characters.
 

@@ -12,7 +12,7 @@ import pytest
 from django.urls import reverse
 
 from fleetfuel.fleet.models import FuelSample, FuelSource, MeterReading, Site
-from fleetfuel.ledger.models import ServiceEvent
+from fleetfuel.ledger.models import ExportLog, ServiceEvent
 from fleetfuel.workorders import actions
 from fleetfuel.workorders.fields import TextField
 from fleetfuel.workorders.kinds import KINDS
@@ -244,3 +244,18 @@ def test_datetime_window_is_relative_to_today() -> None:
     today = datetime(2026, 12, 2).date()
     assert bounds.date_problem(value=today, today=today) == ""
     assert bounds.date_problem(value=datetime(9999, 12, 31).date(), today=today)
+
+
+def test_an_export_with_nul_in_the_unit_filter_is_refused_and_logs_nothing(
+    as_manager: Any, unit: Any
+) -> None:
+    response = as_manager.post(reverse("pages:export"), {"format": "csv", "unit": NUL})
+    assert response.status_code == 302 and response["Location"] == reverse("ledger:history")
+    page = as_manager.get(response["Location"]).content.decode()
+    assert "The export was not started" in page and REFUSED in page
+    assert not ExportLog.objects.exists()
+
+
+def test_a_text_without_its_own_cap_is_capped() -> None:
+    assert bounds.length_problem(value="x" * bounds.NOTES_TOTAL_MAX) == ""
+    assert bounds.length_problem(value="x" * (bounds.NOTES_TOTAL_MAX + 1))

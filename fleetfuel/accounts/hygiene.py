@@ -93,12 +93,15 @@ class DateValidator:
 
 
 class InputValidator:
-    """The check every form field gets: text, any number, any date."""
+    """The check every form field gets: text (its characters and, where the field sets no
+    shorter ``max_length``, a length cap), any number, any date."""
 
     def __init__(self) -> None:
         self.checks = (TextValidator(), QuantityValidator("magnitude"), DateValidator("plan"))
 
     def __call__(self, value: Any) -> None:
+        if isinstance(value, str) and (problem := bounds.length_problem(value=value)):
+            raise ValidationError(problem, code="too_long")
         for check in self.checks:
             check(value)
 
