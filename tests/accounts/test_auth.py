@@ -17,6 +17,7 @@ from django.urls import reverse
 
 from fleetfuel.accounts.middleware import session_end_reason
 from tests import factories as f
+from tests.test_settings import settings_error
 from tests.workorders.conftest import work_order_make
 
 LOGIN = "accounts:login"
@@ -205,3 +206,19 @@ def test_a_tablet_save_after_sign_out_is_refused_not_answered_with_the_login_for
     assert response["HX-Redirect"] == f"{reverse(LOGIN)}?next={page}"
     order.refresh_from_db()
     assert order.notes == ""
+
+
+@pytest.mark.parametrize(
+    ("env", "name", "hint"),
+    [
+        ({"LOGIN_FAILURE_LIMIT": "0"}, "LOGIN_FAILURE_LIMIT", "from 1 to 100"),
+        ({"LOGIN_LOCKOUT_MINUTES": "-5"}, "LOGIN_LOCKOUT_MINUTES", "from 0 to 10080"),
+        ({"SESSION_IDLE_MINUTES": "half an hour"}, "SESSION_IDLE_MINUTES", "whole number"),
+        ({"SESSION_MAX_HOURS": "0"}, "SESSION_MAX_HOURS", "from 1 to 336"),
+    ],
+)
+def test_a_bad_sign_in_setting_stops_the_start_naming_it(
+    env: dict[str, str], name: str, hint: str
+) -> None:
+    message = (settings_error(DEBUG="true", **env) or "").strip().splitlines()[-1]
+    assert f"variable {name}" in message and hint in message, message
