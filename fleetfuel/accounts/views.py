@@ -10,6 +10,7 @@ from django.contrib.auth import get_user_model
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
 from django.db import connection
+from django.db.models import Q
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.views.decorators.http import require_GET, require_http_methods
@@ -59,13 +60,13 @@ def login_locked(
 
 
 def locked_usernames(*, manager: Any) -> list[str]:
-    """Usernames locked out now, of people who share a site with ``manager``."""
-    names = (
-        get_user_model()
-        .objects.filter(profile__sites__in=site_ids_for_user(manager))
-        .values_list("username", flat=True)
-        .distinct()
-    )
+    """Usernames locked out now, of people who share a site with ``manager``; people of no
+    named site (they see every site) only for a manager of no named site."""
+    people = Q(profile__sites__in=site_ids_for_user(manager))
+    profile = getattr(manager, "profile", None)
+    if profile is None or not profile.sites.exists():
+        people |= Q(profile__sites__isnull=True)
+    names = get_user_model().objects.filter(people).values_list("username", flat=True).distinct()
     return sorted(
         AccessAttempt.objects.filter(
             username__in=list(names), failures_since_start__gte=settings.AXES_FAILURE_LIMIT

@@ -79,6 +79,19 @@ def test_a_manager_of_another_site_cannot_unlock(
     assert sign_in(client, mechanic.username, f.PASSWORD).status_code == 429
 
 
+def test_only_a_manager_of_every_site_unlocks_someone_of_every_site(
+    client: Any, auditor: Any, manager: Any, site: Any
+) -> None:
+    lock(client, auditor.username)  # an auditor of no named site sees every site
+    client.force_login(f.user_make("manager", username="local", sites=[site]))
+    assert auditor.username not in client.get(reverse("accounts:unlock")).content.decode()
+    client.force_login(manager)  # no named site: every site
+    assert auditor.username in client.get(reverse("accounts:unlock")).content.decode()
+    client.post(reverse("accounts:unlock"), {"username": auditor.username})
+    client.logout()
+    assert sign_in(client, auditor.username, f.PASSWORD).status_code == 302
+
+
 def test_mechanics_and_auditors_cannot_unlock(client: Any, mechanic: Any, auditor: Any) -> None:
     for user in (mechanic, auditor):
         client.force_login(user)
