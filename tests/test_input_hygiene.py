@@ -9,7 +9,7 @@ from typing import Any
 
 import pint
 import pytest
-from django.urls import reverse
+from django.urls import URLPattern, URLResolver, get_resolver, reverse
 
 from fleetfuel.fleet.models import FuelSample, FuelSource, MeterReading, Site
 from fleetfuel.ledger.models import ExportLog, ServiceEvent
@@ -259,3 +259,35 @@ def test_an_export_with_nul_in_the_unit_filter_is_refused_and_logs_nothing(
 def test_a_text_without_its_own_cap_is_capped() -> None:
     assert bounds.length_problem(value="x" * bounds.NOTES_TOTAL_MAX) == ""
     assert bounds.length_problem(value="x" * (bounds.NOTES_TOTAL_MAX + 1))
+
+
+def pages_without_arguments() -> list[str]:
+    """Every page of fleetfuel's URL configuration that takes no argument."""
+    found: list[str] = []
+
+    def walk(patterns: list[Any], prefix: str) -> None:
+        for p in patterns:
+            if isinstance(p, URLResolver):
+                if p.namespace != "admin":
+                    walk(p.url_patterns, f"{prefix}{p.namespace}:" if p.namespace else prefix)
+            elif isinstance(p, URLPattern) and p.name and not p.pattern.converters:
+                found.append(f"{prefix}{p.name}")
+
+    walk(get_resolver().url_patterns, "")
+    return sorted(set(found) - {"accounts:logout", "accounts:healthz"})
+
+
+ODD_QUERY = "&".join(
+    f"{name}={value}"
+    for name in ("q", "unit", "site", "status", "page", "older", "newer", "before", "correct",
+                 "within_hours", "within_days", "date_from", "kind", "sort")
+    for value in ("%00", "1e308")
+)  # fmt: skip
+
+
+@pytest.mark.parametrize("url_name", pages_without_arguments())
+def test_no_page_answers_500_to_nul_or_1e308_in_its_query(
+    as_manager: Any, unit: Any, url_name: str
+) -> None:
+    response = as_manager.get(f"{reverse(url_name)}?{ODD_QUERY}")
+    assert response.status_code < 500, (url_name, response.status_code)
