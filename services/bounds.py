@@ -62,7 +62,8 @@ RANGES: Final[dict[str, Range]] = {
         3_000.0,
         "bar(g)",
         "gauge pressure cannot be below minus one standard atmosphere, 101.325 kPa "
-        "(ISO 2533:1975, Table 1); common-rail systems run below 3,000 bar (common practice)",
+        "(ISO 2533:1975, the standard atmosphere at mean sea level); common-rail systems "
+        "run below 3,000 bar (common practice)",
     ),
     "temperature_c": Range(
         -60.0,
@@ -76,7 +77,7 @@ RANGES: Final[dict[str, Range]] = {
         1_000_000.0,
         "mg/kg",
         "a mass fraction: 1 kg is 1,000,000 mg, so no part of a kilogram exceeds it "
-        "(SI Brochure, 9th edition, 2019, Table 8: milli = 10^-3, kilo = 10^3)",
+        "(SI Brochure, 9th edition, 2019, section 3, SI prefixes: milli = 10^-3, kilo = 10^3)",
     ),
     "particles_per_ml": Range(
         0.0,
