@@ -10,6 +10,7 @@ a message that names the variable.
 from __future__ import annotations
 
 import os
+from datetime import timedelta
 from email.utils import parseaddr
 from pathlib import Path
 from urllib.parse import urlsplit
@@ -17,6 +18,7 @@ from urllib.parse import urlsplit
 import dj_database_url
 from celery.schedules import crontab
 from django.core.exceptions import ImproperlyConfigured
+from django.utils.csp import CSP
 
 BASE_DIR = Path(__file__).resolve().parent.parent
 
@@ -157,6 +159,7 @@ INSTALLED_APPS = [
     "django.contrib.staticfiles",
     "django.contrib.humanize",
     "django_htmx",
+    "axes",
     # fleetfuel's apps in the order they may import each other (lower first), then the
     # composing apps (DEVELOPERS.md, "Rules of the house").
     "fleetfuel.accounts",
@@ -178,7 +181,12 @@ MIDDLEWARE = [
     "django.contrib.auth.middleware.AuthenticationMiddleware",
     "django.contrib.messages.middleware.MessageMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
+    "django.middleware.csp.ContentSecurityPolicyMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
+    # Session lifetime and Cache-Control: no-store for signed-in people (accounts/middleware.py)
+    "fleetfuel.accounts.middleware.SignedInMiddleware",
+    # Last: it answers a locked-out login (django-axes).
+    "axes.middleware.AxesMiddleware",
 ]
 
 ROOT_URLCONF = "fleetfuel.urls"
@@ -195,6 +203,7 @@ TEMPLATES = [
                 "django.template.context_processors.request",
                 "django.contrib.auth.context_processors.auth",
                 "django.contrib.messages.context_processors.messages",
+                "django.template.context_processors.csp",
                 "fleetfuel.accounts.context.role",
             ],
             "builtins": ["fleetfuel.planning.templatetags.fleetfuel_tags"],
@@ -235,7 +244,10 @@ DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [
     {"NAME": "django.contrib.auth.password_validation.UserAttributeSimilarityValidator"},
-    {"NAME": "django.contrib.auth.password_validation.MinimumLengthValidator"},
+    {
+        "NAME": "django.contrib.auth.password_validation.MinimumLengthValidator",
+        "OPTIONS": {"min_length": 12},
+    },
     {"NAME": "django.contrib.auth.password_validation.CommonPasswordValidator"},
     {"NAME": "django.contrib.auth.password_validation.NumericPasswordValidator"},
 ]
@@ -245,6 +257,29 @@ if TESTING:
 LOGIN_URL = "accounts:login"
 LOGIN_REDIRECT_URL = "accounts:home"
 LOGOUT_REDIRECT_URL = "accounts:login"
+
+# Login throttling (django-axes): after LOGIN_FAILURE_LIMIT wrong passwords for one username,
+# that username is refused, the right password too, for LOGIN_LOCKOUT_MINUTES (0: until a
+# manager unlocks it). Counted per username, not per address: a shop's tablets share one.
+AUTHENTICATION_BACKENDS = [
+    "axes.backends.AxesStandaloneBackend",
+    "django.contrib.auth.backends.ModelBackend",
+]
+AXES_FAILURE_LIMIT = env_int("LOGIN_FAILURE_LIMIT", 5, low=1, high=100)
+_lockout_minutes = env_int("LOGIN_LOCKOUT_MINUTES", 30, low=0, high=7 * 24 * 60)
+AXES_COOLOFF_TIME = timedelta(minutes=_lockout_minutes) if _lockout_minutes else None
+AXES_LOCKOUT_PARAMETERS = ["username"]
+AXES_RESET_ON_SUCCESS = True
+AXES_LOCKOUT_CALLABLE = "fleetfuel.accounts.views.login_locked"
+AXES_SENSITIVE_PARAMETERS = ["password"]
+
+# Sessions on shared tablets: signed out after SESSION_IDLE_MINUTES without a request, and
+# SESSION_MAX_HOURS after signing in whatever happens (accounts/middleware.py).
+SESSION_IDLE_MINUTES = env_int("SESSION_IDLE_MINUTES", 30, low=1, high=24 * 60)
+SESSION_MAX_HOURS = env_int("SESSION_MAX_HOURS", 12, low=1, high=14 * 24)
+SESSION_COOKIE_AGE = SESSION_MAX_HOURS * 3600
+SESSION_EXPIRE_AT_BROWSER_CLOSE = True
+SESSION_COOKIE_HTTPONLY = True
 
 LANGUAGE_CODE = "en"
 TIME_ZONE = "UTC"
@@ -278,7 +313,23 @@ SECURE_REDIRECT_EXEMPT = [r"^healthz$"]
 SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")
 SECURE_CONTENT_TYPE_NOSNIFF = True
 X_FRAME_OPTIONS = "DENY"
+# Content Security Policy (Django's own middleware): scripts and styles from this site, or
+# inline ones carrying the response's nonce; no plugins, no framing, forms post here only.
+SECURE_CSP = {
+    "default-src": [CSP.SELF],
+    "script-src": [CSP.SELF, CSP.NONCE],
+    "style-src": [CSP.SELF, CSP.NONCE],
+    "img-src": [CSP.SELF, "data:"],
+    "object-src": [CSP.NONE],
+    "base-uri": [CSP.SELF],
+    "form-action": [CSP.SELF],
+    "frame-ancestors": [CSP.NONE],
+}
 SILENCED_SYSTEM_CHECKS = ["security.W021"] if not SECURE_HSTS_PRELOAD else []
+# django-axes warns when lockouts are not also counted per address (rotating cookies or
+# user agents would dodge a lock keyed on them). Ours is keyed on the username alone, which a
+# client cannot rotate; counting per address would lock out every tablet of a shop behind one.
+SILENCED_SYSTEM_CHECKS += ["axes.W006"]
 
 # Email: the console by default; SMTP when EMAIL_HOST is set (Django 6.1 MAILERS).
 # Every EMAIL_* variable is checked even while EMAIL_HOST is unset, so a slip shows at once.

@@ -9,12 +9,15 @@ from django import forms
 from django.db.models import QuerySet
 from django.utils import timezone
 
+from fleetfuel.accounts.hygiene import DateValidator, QuantityValidator, TextValidator
 from fleetfuel.fleet.models import Site
+from services import bounds
 
 from .models import ExportLog, ServiceEvent
 from .selectors import HistoryScope
 
 _DATE = forms.DateInput(attrs={"type": "date"}, format="%Y-%m-%d")
+_LINE = TextValidator(multiline=False)  # names, serials: one line (accounts/hygiene.py)
 
 
 class HistoryFilterForm(forms.Form):
@@ -76,18 +79,29 @@ class CorrectionForm(forms.Form):
         label="Done at (site time)",
         widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"),
         input_formats=["%Y-%m-%dT%H:%M", "%Y-%m-%d %H:%M"],
+        validators=[DateValidator("done")],
     )
-    hour_meter = forms.FloatField(label="Hour meter (h)", required=False, min_value=0)
-    part_number = forms.CharField(required=False, max_length=60)
-    old_serial = forms.CharField(label="Old serial", required=False, max_length=60)
-    new_serial = forms.CharField(label="New serial", required=False, max_length=60)
-    water_ml = forms.FloatField(label="Water drained (mL)", required=False, min_value=0)
+    hour_meter = forms.FloatField(
+        label="Hour meter (h)", required=False, validators=[QuantityValidator("hours")]
+    )
+    part_number = forms.CharField(required=False, max_length=60, validators=[_LINE])
+    old_serial = forms.CharField(
+        label="Old serial", required=False, max_length=60, validators=[_LINE]
+    )
+    new_serial = forms.CharField(
+        label="New serial", required=False, max_length=60, validators=[_LINE]
+    )
+    water_ml = forms.FloatField(
+        label="Water drained (mL)", required=False, validators=[QuantityValidator("volume_ml")]
+    )
     value = forms.FloatField(label="Measured value", required=False)
     passed = forms.NullBooleanField(label="Measurement passed", required=False)
-    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
+    notes = forms.CharField(
+        required=False, max_length=bounds.NOTE_MAX, widget=forms.Textarea(attrs={"rows": 2})
+    )
     reason = forms.CharField(
         label="Why is this being corrected?",
-        max_length=2000,
+        max_length=bounds.NOTE_MAX,
         widget=forms.Textarea(attrs={"rows": 2}),
     )
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from django import forms
 from django.core.paginator import Paginator
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import render
@@ -15,13 +16,21 @@ from .charts import chart_svg
 from .unit_page import unit_page, units_for_list
 
 
+class UnitSearchForm(forms.Form):
+    """The search's query string, checked like any field (accounts/hygiene.py)."""
+
+    q = forms.CharField(required=False, max_length=30)
+
+
 @role_required(*READERS)
 @require_GET
 def unit_list(request: HttpRequest) -> HttpResponse:
-    q = request.GET.get("q", "").strip()[:30]
+    search = UnitSearchForm({"q": request.GET.get("q", "")[:30]})
+    q = search.cleaned_data["q"] if search.is_valid() else ""
     paginator = Paginator(units_for_list(site_ids=site_ids_for_user(request.user), q=q), 50)
     page = paginator.get_page(request.GET.get("page"))
-    return render(request, "pages/unit_list.html", {"page": page, "q": q})
+    error = " ".join(search.errors.get("q", []))
+    return render(request, "pages/unit_list.html", {"page": page, "q": q, "q_error": error})
 
 
 @role_required(*READERS)

@@ -25,6 +25,7 @@ from django.utils import timezone
 from fleetfuel.accounts.models import Role
 from fleetfuel.fleet.models import Unit
 from fleetfuel.planning.models import DueItem
+from services import bounds
 
 from .forms import JobEntry, TaskDraft
 from .kinds import kind_for_due_task
@@ -55,8 +56,11 @@ def local_time(dt: datetime, unit: Unit) -> datetime:
 
 
 def note_append(work_order: WorkOrder, text: str) -> None:
-    work_order.notes = f"{work_order.notes.rstrip()}\n\n{text}" if work_order.notes else text
-    work_order.save(update_fields=["notes"])
+    """Add ``text`` to the notes once, within their cap (services/bounds.py)."""
+    notes = bounds.notes_append(notes=work_order.notes or "", text=text)
+    if notes != work_order.notes:
+        work_order.notes = notes
+        work_order.save(update_fields=["notes"])
 
 
 def lost_entry_note(

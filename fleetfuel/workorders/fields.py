@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any
 from django import forms
 from django.core.exceptions import ValidationError
 
+from fleetfuel.accounts.hygiene import TextValidator, number_error
 from fleetfuel.ledger.models import ServiceEvent
 from services import rules, units
 
@@ -60,10 +61,12 @@ class TaskField(forms.Field):
 
 class TextField(TaskField):
     widget = forms.TextInput(attrs={"autocomplete": "off", "autocapitalize": "characters"})
+    multiline = False  # a line break is refused (accounts/hygiene.py)
 
     def __init__(self, *, max_chars: int = MAX_TEXT, **kw: Any):
         super().__init__(**kw)
         self.max_chars = max_chars
+        self.validators.append(TextValidator(multiline=self.multiline))
 
     def to_python(self, value: Any) -> str:
         return str(value or "").strip()[: self.max_chars]
@@ -71,6 +74,7 @@ class TextField(TaskField):
 
 class NoteField(TextField):
     widget = forms.Textarea(attrs={"rows": 2})
+    multiline = True
 
     def __init__(self, **kw: Any):
         super().__init__(max_chars=MAX_NOTE, wide=True, **kw)
@@ -111,7 +115,10 @@ class QuantityField(TaskField):
             raise ValidationError(str(exc)) from None
         if number is None:
             return None
-        return units.to_si(value=number, quantity=self.quantity, system=self.system)
+        stored = units.to_si(value=number, quantity=self.quantity, system=self.system)
+        if problem := number_error(stored, quantity=self.quantity, label=str(self.label)):
+            raise ValidationError(problem)
+        return stored
 
     def as_input(self, value: Any, form: TaskForm) -> str:
         if not isinstance(value, int | float):

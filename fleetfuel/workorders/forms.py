@@ -14,12 +14,12 @@ from typing import TYPE_CHECKING, Any
 
 from django import forms
 
+from fleetfuel.accounts.hygiene import number_error, text_error
 from fleetfuel.fleet.models import Component
-from services import units
+from services import bounds, units
 
 from .context import TaskContext
 from .fields import (
-    MAX_NOTE,
     AppearanceField,
     CylinderField,
     FilterField,
@@ -175,6 +175,8 @@ def not_done_reason_clean(*, raw: str) -> tuple[str, str]:
     words, not of padding.
     """
     reason = " ".join(str(raw).split())
+    if problem := text_error(reason, label="The reason", multiline=False):
+        return "", problem
     if len(reason) >= NOT_DONE_MIN:
         return reason[:NOT_DONE_MAX], ""
     example = "e.g. “Filter not in stock, ordered for Tuesday”"
@@ -209,17 +211,26 @@ def job_entry_clean(data: Mapping[str, Any]) -> JobEntry:
 
     def number(name: str, label: str) -> float | None:
         try:
-            return units.parse_number(raw=str(data.get(name, "")), label=label)
+            value = units.parse_number(raw=str(data.get(name, "")), label=label)
         except ValueError as exc:
             errors[name] = str(exc)
             return None
+        if problem := number_error(value, quantity="hours", label=label):
+            errors[name] = problem
+            return None
+        return value
+
+    # The whole notes of the work order, with what closes appended to them.
+    notes = str(data["notes"]).strip()[: bounds.NOTES_TOTAL_MAX] if "notes" in data else None
+    if notes is not None and (problem := text_error(notes, label="Notes")):
+        errors["notes"], notes = problem, None
 
     entry = JobEntry(
         hour_meter=number("hour_meter", "Hour meter"),
         meter_replaced=str(data.get("meter_replaced", "")).lower() in {"on", "true", "1", "yes"},
         meter_old_final=number("meter_old_final", "Old meter's final reading"),
         meter_new_start=number("meter_new_start", "New meter's reading when fitted"),
-        notes=str(data["notes"]).strip()[: MAX_NOTE * 4] if "notes" in data else None,
+        notes=notes,
     )
     entry.errors = errors
     return entry

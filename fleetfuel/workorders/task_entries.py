@@ -7,6 +7,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from fleetfuel.accounts.hygiene import text_error
 from fleetfuel.fleet.models import Component
 from services import rules
 
@@ -135,6 +136,8 @@ def new_task_clean(data: Any, ctx: TaskContext) -> tuple[NewTask | None, str]:
         if limit is None:
             return None, "Choose which measurement."
     description = str(data.get("description", "")).strip()[:120]
+    if problem := text_error(description, label="Description", multiline=False):
+        return None, problem
     if not description:
         if cylinder is not None:
             description = f"{spec.add_label}, cylinder {cylinder}"

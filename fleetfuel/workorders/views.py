@@ -25,6 +25,7 @@ from fleetfuel.accounts.access import (
     task_for_user,
     work_order_for_user,
 )
+from fleetfuel.accounts.hygiene import text_error
 from fleetfuel.accounts.models import Role
 from fleetfuel.accounts.requests import HtmxHttpRequest
 
@@ -190,7 +191,7 @@ def _snapshot(request: HttpRequest) -> str:
     try:
         data = json.loads(raw) if raw else {}
     except ValueError:
-        return raw[:4000]
+        return json.dumps(raw[:4000], ensure_ascii=False)  # escapes control characters
     return actions.snapshot_text(data) if data else ""
 
 
@@ -198,6 +199,12 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
     wo = work_order_for_user(request.user, pk, write=True)
     token = request.POST.get("token", "")
     job = job_entry_clean(request.POST)
+    reason = request.POST.get("override_reason", "")
+    problems = [*job.errors.values(), text_error(reason, label="The override's reason")]
+    if any(problems):  # nothing is closed with a value the form would refuse
+        text = " ".join(p for p in problems if p)
+        context = page_context_build(request, wo, token=token, server_error=text)
+        return render(request, "workorders/detail.html", context, status=400)
     try:
         outcome = work_order_close(
             work_order_id=wo.pk,
@@ -205,7 +212,7 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
             token=token,
             job=job,
             override=override,
-            override_reason=request.POST.get("override_reason", ""),
+            override_reason=reason,
             snapshot=_snapshot(request),
         )
     except ValueError as exc:

@@ -1,6 +1,20 @@
 // fleetfuel: small shared behaviour. No framework beyond htmx.
 (function () {
   "use strict";
+  // htmx would add its indicator CSS as an inline <style>, which the Content-Security-Policy
+  // refuses; fleetfuel shows no htmx indicators. (htmx reads this when the page is ready,
+  // after the deferred scripts ran.)
+  // Nor may htmx evaluate strings as code (event filters, js: values): 'unsafe-eval' is off.
+  if (window.htmx) {
+    window.htmx.config.includeIndicatorStyles = false;
+    window.htmx.config.allowEval = false;
+  }
+  // An export was asked for: the history page's list of recent exports refreshes itself.
+  document.addEventListener("submit", function (e) {
+    if (e.target && e.target.id === "export-form") {
+      document.body.dispatchEvent(new CustomEvent("fleetfuel-exported", { bubbles: true }));
+    }
+  });
   var banner = function () { return document.getElementById("connection-banner"); };
   function offline(isOff) {
     var b = banner();

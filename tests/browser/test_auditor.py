@@ -35,7 +35,7 @@ def test_auditor_filters_a_unit_and_checks_a_csv_export(login_page: Any, tmp_pat
 
     page.fill("#id_unit", "EQ-101")
     page.get_by_role("button", name="Show").click()
-    page.wait_for_function("location.search.includes('unit=EQ-101')")
+    page.wait_for_url(lambda url: "unit=EQ-101" in url)  # no eval: the CSP refuses it
     page.wait_for_load_state("networkidle")
     rows = page.locator("#history-results tbody tr")
     assert rows.count() == 4
