@@ -272,6 +272,8 @@ AXES_LOCKOUT_PARAMETERS = ["username"]
 AXES_RESET_ON_SUCCESS = True
 AXES_LOCKOUT_CALLABLE = "fleetfuel.accounts.views.login_locked"
 AXES_SENSITIVE_PARAMETERS = ["password"]
+AXES_ENABLE_ADMIN = False  # locks are lifted on /unlock/ (site-limited), not in the admin
+AXES_VERBOSE = False
 
 # Sessions on shared tablets: signed out after SESSION_IDLE_MINUTES without a request, and
 # SESSION_MAX_HOURS after signing in whatever happens (accounts/middleware.py).
@@ -326,9 +328,8 @@ SECURE_CSP = {
     "frame-ancestors": [CSP.NONE],
 }
 SILENCED_SYSTEM_CHECKS = ["security.W021"] if not SECURE_HSTS_PRELOAD else []
-# django-axes warns when lockouts are not also counted per address (rotating cookies or
-# user agents would dodge a lock keyed on them). Ours is keyed on the username alone, which a
-# client cannot rotate; counting per address would lock out every tablet of a shop behind one.
+# axes.W006 (lock not keyed on the address): ours is keyed on the username, which a client cannot
+# rotate; keying on the address would lock out every tablet of a shop behind one address.
 SILENCED_SYSTEM_CHECKS += ["axes.W006"]
 
 # Email: the console by default; SMTP when EMAIL_HOST is set (Django 6.1 MAILERS).
@@ -429,9 +430,8 @@ LOGGING = {
 
 # Planning engine
 PLANNING_BATCH_SIZE = env_int("PLANNING_BATCH_SIZE", 200, low=1)
-# A fuel source's sample is out of range when a size channel is more than this many ISO 4406
-# scale numbers above the cleanest plan reference of the units it feeds (or water is over
-# EN 590's 200 mg/kg); it stops standing for the tank after this many days. Global settings.
+# A source sample is out of range when a size channel is this many ISO 4406 scale numbers above
+# the plans' reference (or water is over EN 590's 200 mg/kg); it stands for so many days.
 SOURCE_SAMPLE_MARGIN_SCALE_NUMBERS = env_int("SOURCE_SAMPLE_MARGIN_SCALE_NUMBERS", 2, low=0)
 SOURCE_SAMPLE_MAX_AGE_DAYS = env_int("SOURCE_SAMPLE_MAX_AGE_DAYS", 90, low=1)
 

@@ -79,6 +79,9 @@ EXPECTED: dict[str, str] = {
     "accounts:healthz": "200/405 200/405 200/405 200/405 200/405",
     "accounts:login": "200/200 200/200 200/200 200/200 200/200",
     "accounts:logout": "405/L 405/L 405/L 405/L 405/L",
+    "accounts:password_change": "L/L 200/200 200/200 200/200 200/200",
+    "accounts:password_change_done": "L/L 200/405 200/405 200/405 200/405",
+    "accounts:unlock": "L/L 200/302 200/302 403/403 403/403",
     "pages:due_list": "L/L 200/405 200/405 403/403 403/403",
     "pages:due_item_detail": "L/L 200/405 404/405 403/403 403/403",
     "pages:work_orders_create": "L/L 405/302 405/302 403/403 403/403",
@@ -334,7 +337,7 @@ class World:
         return found
 
     def url(self, name: str, route: str, model: Any = None) -> str:
-        if name.endswith("_change"):
+        if name.startswith("admin:") and name.endswith("_change"):
             return reverse(name, args=[self.admin_object(model).pk])
         if "<" in route:
             obj = self.url_objects.get(name)
