@@ -28,12 +28,13 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta, tzinfo
 
-from services.common import Basis, DueDate, Projection, TaskKind, UsageForecast
+from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
 from services.filter_dp import DpFit, DpReading, dp_fit_inputs, dp_limit
 from services.filter_inputs import FilterPlan, Loading, door_check
 from services.schedule import (
     due_status,
     earliest_due,
+    estimate_only,
     fmt_hours,
     json_number,
     plural,
@@ -135,7 +136,15 @@ def filter_projection(
         due_days=plan.due_days,
         raise_one_step=priority_raised,
     )
+    status = estimate_only(
+        status=status,
+        hard_limit_passed=_hard_limit_passed(
+            plan=plan, limits=limits, calendar=calendar, forecast=forecast, now=now,
+            dp_readings=dp_readings,
+        ),
+    )  # fmt: skip
     explanation = [
+        *([_check_sentence(spend.percent_used, limits)] if status is DueStatus.CHECK else []),
         _governs_sentence(basis, due, plan, limits.plan_hours, calendar, spend.percent_used),
         _band_sentence(due),
         f"{spend.percent_used:.0f} % of the filter's contaminant budget is used since the "
@@ -199,6 +208,38 @@ def _limits(
     if fit is not None and fit.crossing_hours is not None:
         hours.append((Basis.DIFFERENTIAL_PRESSURE, fit.crossing_hours))
     return _Limits(hours, plan_hours, volume_hours, fit, dp_sentence)
+
+
+def _hard_limit_passed(
+    *,
+    plan: FilterPlan,
+    limits: _Limits,
+    calendar: date,
+    forecast: UsageForecast,
+    now: datetime,
+    dp_readings: Sequence[DpReading],
+) -> bool:
+    """Whether a limit that is not an estimate has been reached: the plan's hours, days or fuel
+    volume, or the latest measured dP at or over the plan's limit."""
+    hours = forecast.current_hours
+    if hours >= limits.plan_hours or now.date() >= calendar:
+        return True
+    if limits.volume_hours is not None and hours >= limits.volume_hours:
+        return True
+    if plan.dp_limit_bar is not None and dp_readings:
+        latest = max(dp_readings, key=lambda r: (r.at, r.hours))
+        return latest.dp_bar >= plan.dp_limit_bar
+    return False
+
+
+def _check_sentence(percent_used: float, limits: _Limits) -> str:
+    return (
+        f"Check before changing: the estimate of the dirt the filter has taken has run out "
+        f"({percent_used:.0f} % of its estimated budget), but no measured or planned limit has "
+        f"been reached (the plan's hours fall at {fmt_hours(limits.plan_hours)}). Read the "
+        "filter's differential pressure or restriction indicator: at or over its limit, change "
+        "it; below, the reading re-bases the estimate."
+    )
 
 
 def _burn(*, burn_l_per_h: float | None, plan: FilterPlan) -> tuple[float, str, str]:

@@ -14,7 +14,7 @@ from .engine import unit_compute
 from .models import DueItem, UnitFlag
 from .selectors import batch_inputs_load
 
-STATUS_RANK = {DueStatus.OVERDUE: 0, DueStatus.DUE: 1, DueStatus.SOON: 2, DueStatus.OK: 3}
+STATUS_RANK = {s: rank for rank, s in enumerate(DueStatus)}  # in DueStatus's order of urgency
 DUE_FIELDS = [
     "unit",
     "site",

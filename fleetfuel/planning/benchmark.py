@@ -15,7 +15,7 @@ from fleetfuel.fleet.models import Component, ComponentKind, Site, Unit, UnitCla
 from .models import DueItem
 
 STATUSES = ["overdue", "due", "soon", "ok"]
-RANK = {"overdue": 0, "due": 1, "soon": 2, "ok": 3}
+RANK = {"overdue": 0, "due": 2, "soon": 3, "ok": 4}  # as planning.actions.STATUS_RANK
 OFFSET_DAYS = {"overdue": -3, "due": 1, "soon": 8, "ok": 40}
 
 

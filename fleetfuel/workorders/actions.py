@@ -266,6 +266,7 @@ def snapshot_text(data: dict[str, Any]) -> str:
 
 PRIORITY = {
     DueItem.Status.OVERDUE: WorkOrder.Priority.URGENT,
+    DueItem.Status.CHECK: WorkOrder.Priority.HIGH,  # a dP reading first, then maybe the change
     DueItem.Status.DUE: WorkOrder.Priority.HIGH,
 }
 
