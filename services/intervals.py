@@ -317,14 +317,10 @@ def _fuel_sentences(*, since: Sequence[Loading], plan: FilterPlan, current: floa
     if dirty:
         parts = []
         for (label, conc), loads in dirty:
-            litres = sum(ld.litres for ld in loads)
-            first, last = min(ld.at for ld in loads).date(), max(ld.at for ld in loads).date()
-            when = f"on {first.isoformat()}" if first == last else f"{first} to {last}"
-            parts.append(
-                f"{litres:,.0f} L in {len(loads)} fueling{'s' if len(loads) > 1 else ''} {when}, "
-                f"{label} ({conc / ref_conc:.1f}x the reference)"
-            )
-        out.append("Dirtiest fuel since the change: " + "; ".join(parts) + ".")
+            litres = sum(ld.litres for ld in loads)  # burned since the change (the labels say
+            # which fueling or delivery it came from and how much of it is burned in all)
+            parts.append(f"{litres:,.0f} L of {label} ({conc / ref_conc:.1f}x the reference)")
+        out.append("Dirtiest fuel burned since the change: " + "; ".join(parts) + ".")
     elif since:
         out.append("All fuel since the change was at or cleaner than the plan's reference.")
     if current > 0:

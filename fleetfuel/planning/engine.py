@@ -21,6 +21,7 @@ from services.common import Projection, TaskKind, UsageForecast
 from services.filter_dp import DpReading
 from services.schedule import MAX_FORECAST_DAYS
 
+from . import engine_tank
 from .selectors import BatchInputs, UnitInputs, unit_forecast
 
 FILTER_TASKS = {
@@ -55,6 +56,7 @@ class UnitFuel:
     events: list[fl.EngineEvent]
     burn: float | None  # measured L/h over the forecast window, when there is enough to tell
     refused: list[str] = field(default_factory=list)  # records left out, each with its reason
+    tank_samples: list[fi.Sample] = field(default_factory=list)  # of the unit's own tank
 
 
 def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
@@ -161,6 +163,7 @@ def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
         ],
         burn=burn,
         refused=refused,
+        tank_samples=[s for s in samples if s.unit_sample],
     )
 
 
@@ -215,27 +218,32 @@ def filter_compute(
         fitted_meter=comp.installed_hours,
         tz=now.tzinfo,
     )
-    loadings = []
-    for fueling, quality in fuel.paired:
-        if fueling.at < last_at:
-            continue
-        conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
-        label = f"from {fuel.source_names[int(fueling.ref)]}, " + (
-            quality.label if quality else "no sample: reference fuel assumed"
-        )
-        loadings.append(
-            filter_inputs.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
-                                  reference_assumed=assumed, label=label)
-        )  # fmt: skip
-    current, current_assumed = fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)
+    fplan = filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h)
+    last_hours = engine_hours_at(b, last_at, last_meter)
+    fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)  # refuses future fuel
+    burned = engine_tank.tank_loadings(
+        unit=b.unit,
+        paired=fuel.paired,
+        source_names=fuel.source_names,
+        tank_samples=fuel.tank_samples,
+        channel=channel,
+        hours=[
+            *((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
+            (last_at, last_hours),
+            (min(now, forecast.as_of), forecast.current_hours),
+        ],
+        burn_l_per_h=fuel.burn or fplan.reference_burn_l_per_h,
+        since=last_at,
+        now=now,
+    )
     projection = intervals.filter_projection(
         task=task,
-        plan=filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h),
+        plan=fplan,
         last_change_at=last_at,
-        last_change_hours=engine_hours_at(b, last_at, last_meter),
-        loadings=loadings,
-        current_concentration_per_ml=current,
-        current_reference_assumed=current_assumed,
+        last_change_hours=last_hours,
+        loadings=burned.loadings,
+        current_concentration_per_ml=burned.current_concentration_per_ml,
+        current_reference_assumed=burned.current_reference_assumed,
         burn_l_per_h=fuel.burn,
         dp_readings=[
             DpReading(
@@ -253,7 +261,7 @@ def filter_compute(
         now=now,
         priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
     )
-    projection.explanation.append(channel_note)
+    projection.explanation.extend([burned.sentence, channel_note])
     return projection
 
 
