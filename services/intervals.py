@@ -238,7 +238,8 @@ def _check_sentence(percent_used: float, limits: _Limits) -> str:
         f"({percent_used:.0f} % of its estimated budget), but no measured or planned limit has "
         f"been reached (the plan's hours fall at {fmt_hours(limits.plan_hours)}). Read the "
         "filter's differential pressure or restriction indicator: at or over its limit, change "
-        "it; below, the reading re-bases the estimate."
+        "it (a recorded reading there makes it overdue); below it, keep it and record the "
+        "reading, whose trend projects the change."
     )
 
 

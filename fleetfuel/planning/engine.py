@@ -57,6 +57,7 @@ class UnitFuel:
     burn: float | None  # measured L/h over the forecast window, when there is enough to tell
     refused: list[str] = field(default_factory=list)  # records left out, each with its reason
     tank_samples: list[fi.Sample] = field(default_factory=list)  # of the unit's own tank
+    sources: dict[int, engine_tank.SourceFuel] = field(default_factory=dict)  # bulk tanks
 
 
 def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
@@ -164,7 +165,23 @@ def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
         burn=burn,
         refused=refused,
         tank_samples=[s for s in samples if s.unit_sample],
+        sources=source_fuels(batch, samples),
     )
+
+
+def source_fuels(batch: BatchInputs, samples: list[fi.Sample]) -> dict[int, engine_tank.SourceFuel]:
+    """Each source's deliveries and samples, for its tank model."""
+    out: dict[int, engine_tank.SourceFuel] = {}
+    for d in batch.deliveries:
+        words = f"the {d.litres:,.0f} L delivery on {d.delivered_at:%Y-%m-%d}" + (
+            f" (ticket {d.ticket})" if d.ticket else ""
+        )
+        out.setdefault(d.source_id, engine_tank.SourceFuel([], []))
+        out[d.source_id].deliveries.append((d.delivered_at, d.litres, words))
+    for s in samples:
+        if not s.unit_sample and s.source_id in out:
+            out[s.source_id].samples.append(s)
+    return out
 
 
 def sample_quality(sample: FuelSample, source: FuelSource | None) -> fq.FuelQuality:
@@ -226,6 +243,7 @@ def filter_compute(
         paired=fuel.paired,
         source_names=fuel.source_names,
         tank_samples=fuel.tank_samples,
+        sources=fuel.sources,
         channel=channel,
         hours=[
             *((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),

@@ -19,6 +19,14 @@ from services import fuel_quality as fq
 
 
 @dataclass(frozen=True)
+class SourceFuel:
+    """What a fuel source's records say: its deliveries and its own samples, oldest first."""
+
+    deliveries: list[tuple[datetime, float, str]]  # (delivered at, litres, words naming it)
+    samples: list[fi.Sample]
+
+
+@dataclass(frozen=True)
 class TankLoadings:
     """What the unit's filters saw since their change, and the tank's fuel now."""
 
@@ -47,6 +55,7 @@ def tank_loadings(
     paired: Sequence[fi.Paired],
     source_names: dict[int, str],
     tank_samples: Sequence[fi.Sample],
+    sources: dict[int, SourceFuel],
     channel: int,
     hours: Sequence[tuple[datetime, float]],
     burn_l_per_h: float,
@@ -61,8 +70,13 @@ def tank_loadings(
         largest_fill_l=largest,
     )
     fills = []
+    measured = {id(s.quality) for s in tank_samples}
     for fueling, quality in paired:
         conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
+        words = quality.label if quality else "no sample: reference fuel assumed"
+        source = sources.get(fueling.source_id) if fueling.source_id is not None else None
+        if source and source.deliveries and id(quality) not in measured:
+            conc, assumed, words = source_fuel(source=source, at=fueling.at, channel=channel)
         fills.append(
             tank.Fill(
                 at=fueling.at,
@@ -70,8 +84,7 @@ def tank_loadings(
                 concentration_per_ml=conc,
                 reference_assumed=assumed,
                 label=f"the {fueling.litres:,.0f} L fuelled on {fueling.at:%Y-%m-%d} from "
-                f"{source_names[int(fueling.ref)]}, "
-                + (quality.label if quality else "no sample: reference fuel assumed"),
+                f"{source_names[int(fueling.ref)]}, {words}",
             )
         )
     measures = []
@@ -107,6 +120,43 @@ def tank_loadings(
         f"{burn_l_per_h:.1f} L/h."
     )
     return TankLoadings(loadings, state.concentration_per_ml, state.reference_assumed, sentence)
+
+
+def source_fuel(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:
+    """(particles per mL, reference assumed, words) of a bulk tank's fuel at ``at``: its
+    deliveries mix in (no sample of their own: the reference fuel), its samples measure it.
+    With no draws on record, each delivery makes its own room (the tank held no more than
+    its capacity less the delivery); the capacity is its largest delivery."""
+    largest = max(litres for _, litres, _ in source.deliveries)
+    capacity, _ = tank.tank_capacity(unit_l=None, class_l=None, largest_fill_l=largest)
+    conc0, _ = fq.concentration_or_reference(quality=None, channel=channel)
+    fills = [
+        tank.Fill(at=d_at, litres=litres, concentration_per_ml=conc0, reference_assumed=True,
+                  label=words)
+        for d_at, litres, words in source.deliveries
+        if d_at <= at
+    ]  # fmt: skip
+    measures = []
+    for s in source.samples:
+        conc, assumed = fq.concentration_or_reference(quality=s.quality, channel=channel)
+        if s.at <= at and not assumed:
+            measures.append(tank.Measure(at=s.at, concentration_per_ml=conc, label=s.quality.label))
+    first = min([at, *(f.at for f in fills), *(m.at for m in measures)])
+    initial = tank.Fill(
+        at=first, litres=capacity, concentration_per_ml=conc0, reference_assumed=True,
+        label="fuel of no record, before its first delivery",
+    )  # fmt: skip
+    state = tank.tank_run(
+        capacity_l=capacity, initial=initial, fills=fills, measures=measures, burned=[],
+        since=at, until=at,
+    )  # fmt: skip
+    held = sorted((p for p in state.parcels if p.left > 0), key=lambda p: -p.left)[:2]
+    words = "; ".join(
+        f"{p.left / capacity:.0%} {p.fill.label}"
+        + (f", as measured by {p.measured_by}" if p.measured_by else ", no sample since")
+        for p in held
+    )
+    return state.concentration_per_ml, state.reference_assumed, f"the tank then held {words}"
 
 
 def _parcel_words(p: tank.ParcelBurn) -> str:

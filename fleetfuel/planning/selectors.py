@@ -20,6 +20,7 @@ from django.db.models import Count, Exists, OuterRef, QuerySet, Subquery, Sum
 from fleetfuel.fleet.models import (
     Component,
     ComponentKind,
+    Delivery,
     EngineEvent,
     FilterPressureReading,
     Fueling,
@@ -65,6 +66,7 @@ class BatchInputs:
     units: list[UnitInputs]
     source_samples: list[FuelSample]
     sources: dict[int, FuelSource]
+    deliveries: list[Delivery] = field(default_factory=list)  # into the sources, oldest first
 
 
 def unit_forecast(b: UnitInputs, *, now: datetime) -> UsageForecast:
@@ -117,8 +119,17 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     _events_load(bundles=bundles, now=now, since=since)  # 9, 10. engine events, relief total
     _dp_load(bundles=bundles, now=now, since=since)  # 11. dP readings of the fitted filters
     sources = {s.pk: s for s in FuelSource.objects.all()}  # 12. fuel sources (a handful)
+    # 13. deliveries into the sources in the look-back (each source's tank model)
+    deliveries = list(
+        Delivery.objects.filter(delivered_at__gte=since, delivered_at__lte=now).order_by(
+            "delivered_at", "pk"
+        )
+    )
     return BatchInputs(
-        units=[bundles[i] for i in ids], source_samples=source_samples, sources=sources
+        units=[bundles[i] for i in ids],
+        source_samples=source_samples,
+        sources=sources,
+        deliveries=deliveries,
     )
 
 

@@ -18,7 +18,13 @@ import time_machine
 from django.core.management import call_command
 from django.urls import reverse
 
-from fleetfuel.fleet.models import Component, ComponentKind, FilterPressureReading, Fueling
+from fleetfuel.fleet.models import (
+    Component,
+    ComponentKind,
+    Delivery,
+    FilterPressureReading,
+    Fueling,
+)
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem
 from tests import factories as f
@@ -168,3 +174,26 @@ def test_project_due_and_the_due_list_show_the_check(
     html = page.content.decode()
     assert page.context["page"].counts["check"] == 2
     assert 'class="badge st-check"' in html and "Check dP first" in html
+
+
+def test_a_bulk_tank_carries_its_deliveries_and_samples(site: Any, unit_class: Any) -> None:
+    # Worked by hand. A bulk tank's deliveries: 10,000 L 60 days ago (its size, the largest
+    # delivery on record), sampled 22/20/17 (16x) 10 days ago, then 5,000 L more 5 days ago
+    # with no sample: 5,000 L of the sampled fuel stay, (5,000 x 16 + 5,000 x 1) / 10,000
+    # = 8.5x the reference. The unit's 200 L tank holds only its last 200 L fueling from it.
+    bulk = f.source_make(name="Bulk tank B")
+    Delivery.objects.create(source=bulk, delivered_at=NOW - timedelta(days=60), litres=10_000.0,
+                            ticket="T-1")  # fmt: skip
+    sample_make(source=bulk, at=NOW - timedelta(days=10), code="22/20/17", ref="S-BULK")
+    Delivery.objects.create(source=bulk, delivered_at=NOW - timedelta(days=5), litres=5_000.0,
+                            ticket="T-2")  # fmt: skip
+    unit = f.unit_make(site=site, unit_class=unit_class, fleet_number="B-1")
+    unit.tank_capacity_l = 200.0
+    unit.save()
+    history_make(unit=unit, source=bulk, days=30)
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)
+    fine = items(unit)["fine_filter"]
+    ref = fine.inputs["reference_concentration_per_ml"]
+    assert fine.inputs["current_concentration_per_ml"] == pytest.approx(8.5 * ref)
+    labels = fine.inputs["sample_labels"]
+    assert any("5,000 L delivery on" in x and "T-2" in x and "S-BULK" in x for x in labels)
