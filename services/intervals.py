@@ -95,6 +95,7 @@ def filter_projection(
     forecast: UsageForecast,
     now: datetime,
     priority_raised: bool = False,
+    loading_at_latest_dp: float | None = None,
 ) -> Projection:
     """Project the next change of one filter: the earliest of its limits.
 
@@ -125,6 +126,7 @@ def filter_projection(
         current_hours=forecast.current_hours,
         dp_readings=dp_readings,
         last_change=(last_change_at, last_change_hours),
+        checked=_estimate_checked(plan, dp_readings, loading_at_latest_dp, spend.budget),
     )
     calendar = (last_change_at + timedelta(days=plan.interval_days)).date()
     basis, due = earliest_due(hour_limits=limits.hours, calendar=calendar, forecast=forecast)
@@ -153,6 +155,7 @@ def filter_projection(
         burn_sentence,
         sentence(f"Usage: {forecast.note}"),
         *([limits.dp_sentence] if limits.dp_sentence else []),
+        *([limits.checked] if limits.checked else []),
         *spend.notes,
         *([RAISED_SENTENCE] if priority_raised else []),
     ]
@@ -179,6 +182,7 @@ class _Limits:
     volume_hours: float | None
     fit: DpFit | None
     dp_sentence: str | None
+    checked: str | None = None  # why the dirt estimate no longer governs (a dP check)
 
 
 def _limits(
@@ -189,6 +193,7 @@ def _limits(
     current_hours: float,
     dp_readings: Sequence[DpReading],
     last_change: tuple[datetime, float],
+    checked: str | None = None,
 ) -> _Limits:
     last_change_at, last_change_hours = last_change
     plan_hours = last_change_hours + plan.interval_hours
@@ -198,7 +203,8 @@ def _limits(
         left = max(0.0, plan.interval_litres - spend.litres_since)
         volume_hours = current_hours + left / burn
         hours.append((Basis.FUEL_VOLUME, volume_hours))
-    hours.append((Basis.CONTAMINANT_BUDGET, spend.budget_hours))
+    if checked is None:  # a dP check below the limit after the estimate ran out re-bases it
+        hours.append((Basis.CONTAMINANT_BUDGET, spend.budget_hours))
     fit, dp_sentence = dp_limit(
         limit_bar=plan.dp_limit_bar,
         readings=dp_readings,
@@ -207,7 +213,28 @@ def _limits(
     )
     if fit is not None and fit.crossing_hours is not None:
         hours.append((Basis.DIFFERENTIAL_PRESSURE, fit.crossing_hours))
-    return _Limits(hours, plan_hours, volume_hours, fit, dp_sentence)
+    return _Limits(hours, plan_hours, volume_hours, fit, dp_sentence, checked)
+
+
+def _estimate_checked(
+    plan: FilterPlan,
+    dp_readings: Sequence[DpReading],
+    loading_at_latest: float | None,
+    budget: float,
+) -> str | None:
+    """The words when the latest dP reading, below the plan's limit, was taken once the dirt
+    estimate had run out: the measurement shows life the estimate did not credit, so the
+    estimate gives way to the plan's limits and the dP trend (measured beats estimated)."""
+    if plan.dp_limit_bar is None or not dp_readings or loading_at_latest is None:
+        return None
+    latest = max(dp_readings, key=lambda r: (r.at, r.hours))
+    if latest.dp_bar >= plan.dp_limit_bar or loading_at_latest < budget:
+        return None
+    return (
+        f"A dP of {latest.dp_bar:.2f} bar at {fmt_hours(latest.hours)}, below the "
+        f"{plan.dp_limit_bar:g} bar limit, was recorded after the dirt estimate had run out: "
+        "the estimate no longer governs this filter; the plan's limits and its dP do."
+    )
 
 
 def _hard_limit_passed(
@@ -239,7 +266,7 @@ def _check_sentence(percent_used: float, limits: _Limits) -> str:
         f"been reached (the plan's hours fall at {fmt_hours(limits.plan_hours)}). Read the "
         "filter's differential pressure or restriction indicator: at or over its limit, change "
         "it (a recorded reading there makes it overdue); below it, keep it and record the "
-        "reading, whose trend projects the change."
+        "reading: the estimate then gives way to the plan's limits and the dP trend."
     )
 
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
+from functools import partial
 
 from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, FuelSource, ServicePlan
 from services import filter_inputs, intervals, usage, water
@@ -238,7 +239,8 @@ def filter_compute(
     fplan = filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h)
     last_hours = engine_hours_at(b, last_at, last_meter)
     fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)  # refuses future fuel
-    burned = engine_tank.tank_loadings(
+    tank_at = partial(
+        engine_tank.tank_loadings,
         unit=b.unit,
         paired=fuel.paired,
         source_names=fuel.source_names,
@@ -252,8 +254,10 @@ def filter_compute(
         ],
         burn_l_per_h=fuel.burn or fplan.reference_burn_l_per_h,
         since=last_at,
-        now=now,
     )
+    burned = tank_at(now=now)
+    dp_taken = [r.taken_at for r in b.dp_readings.get(comp.pk, []) if last_at <= r.taken_at <= now]
+    at_dp = tank_at(now=max(dp_taken)) if dp_taken else None  # the loading when dP was read
     projection = intervals.filter_projection(
         task=task,
         plan=fplan,
@@ -278,6 +282,7 @@ def filter_compute(
         forecast=forecast,
         now=now,
         priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
+        loading_at_latest_dp=at_dp.loading if at_dp else None,
     )
     projection.explanation.extend([burned.sentence, channel_note])
     return projection

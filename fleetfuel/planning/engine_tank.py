@@ -34,6 +34,7 @@ class TankLoadings:
     current_concentration_per_ml: float
     current_reference_assumed: bool
     sentence: str  # the tank model in words, for the explanation
+    loading: float  # litres x particles per mL burned since ``since``
 
 
 def hour_path(
@@ -119,7 +120,10 @@ def tank_loadings(
         f"{state.burned_since:,.0f} L burned since the change at "
         f"{burn_l_per_h:.1f} L/h."
     )
-    return TankLoadings(loadings, state.concentration_per_ml, state.reference_assumed, sentence)
+    return TankLoadings(
+        loadings, state.concentration_per_ml, state.reference_assumed, sentence,
+        state.loading_since,
+    )  # fmt: skip
 
 
 def source_fuel(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:

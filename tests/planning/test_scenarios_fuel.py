@@ -143,6 +143,33 @@ def test_a_measured_dp_at_the_limit_makes_it_overdue(dirty_unit: Any) -> None:
     assert items(dirty_unit)["primary_filter"].status == DueItem.Status.CHECK
 
 
+def test_a_dp_check_below_the_limit_re_bases_the_estimate(dirty_unit: Any) -> None:
+    # Read after the estimate ran out (960 % of it): the element has life the estimate did
+    # not credit, so the plan's 1,500 h (20 days at 10 h/day) governs again. Common practice:
+    # a filter is changed on its measured dP, not on an estimate.
+    fine = Component.objects.get(unit=dirty_unit, kind=ComponentKind.FINE_FILTER)
+    FilterPressureReading.objects.create(
+        component=fine, taken_at=NOW - timedelta(hours=2), hours=1299.0, dp_bar=0.4
+    )
+    due_items_recompute(unit_ids=[dirty_unit.pk], now=NOW)
+    item = items(dirty_unit)["fine_filter"]
+    assert item.status not in {DueItem.Status.OVERDUE, DueItem.Status.CHECK}
+    assert item.basis == "plan_hours" and item.due_hours == pytest.approx(1500.0)
+    assert any("no longer governs" in line for line in item.explanation)
+    assert items(dirty_unit)["primary_filter"].status == DueItem.Status.CHECK
+
+
+def test_a_dp_reading_before_the_estimate_ran_out_does_not_re_base(dirty_unit: Any) -> None:
+    # 2 days after the change: 20 h x 20 L/h x 16 = 6,400 of 10,000 reference-litres, not yet
+    # spent; the estimate still stands and has since run out.
+    fine = Component.objects.get(unit=dirty_unit, kind=ComponentKind.FINE_FILTER)
+    FilterPressureReading.objects.create(
+        component=fine, taken_at=NOW - timedelta(days=28), hours=1020.0, dp_bar=0.2
+    )
+    due_items_recompute(unit_ids=[dirty_unit.pk], now=NOW)
+    assert items(dirty_unit)["fine_filter"].status == DueItem.Status.CHECK
+
+
 def test_the_plans_hours_passed_make_it_overdue(
     site: Any, unit_class: Any, sources: dict[str, Any]
 ) -> None:
