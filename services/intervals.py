@@ -31,6 +31,7 @@ from datetime import date, datetime, time, timedelta, tzinfo
 from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
 from services.filter_dp import DpFit, DpReading, dp_fit_inputs, dp_limit
 from services.filter_inputs import FilterPlan, Loading, door_check
+from services.filter_status import check_sentence, estimate_checked, hard_limit_passed
 from services.schedule import (
     due_status,
     earliest_due,
@@ -126,7 +127,7 @@ def filter_projection(
         current_hours=forecast.current_hours,
         dp_readings=dp_readings,
         last_change=(last_change_at, last_change_hours),
-        checked=_estimate_checked(plan, dp_readings, loading_at_latest_dp, spend.budget),
+        checked=estimate_checked(plan, dp_readings, loading_at_latest_dp, spend.budget),
     )
     calendar = (last_change_at + timedelta(days=plan.interval_days)).date()
     basis, due = earliest_due(hour_limits=limits.hours, calendar=calendar, forecast=forecast)
@@ -140,13 +141,18 @@ def filter_projection(
     )
     status = estimate_only(
         status=status,
-        hard_limit_passed=_hard_limit_passed(
-            plan=plan, limits=limits, calendar=calendar, forecast=forecast, now=now,
+        hard_limit_passed=hard_limit_passed(
+            plan=plan, plan_hours=limits.plan_hours, volume_hours=limits.volume_hours,
+            calendar=calendar, current_hours=forecast.current_hours, now=now,
             dp_readings=dp_readings,
         ),
     )  # fmt: skip
     explanation = [
-        *([_check_sentence(spend.percent_used, limits)] if status is DueStatus.CHECK else []),
+        *(
+            [check_sentence(spend.percent_used, limits.plan_hours)]
+            if status is DueStatus.CHECK
+            else []
+        ),
         _governs_sentence(basis, due, plan, limits.plan_hours, calendar, spend.percent_used),
         _band_sentence(due),
         f"{spend.percent_used:.0f} % of the filter's contaminant budget is used since the "
@@ -214,60 +220,6 @@ def _limits(
     if fit is not None and fit.crossing_hours is not None:
         hours.append((Basis.DIFFERENTIAL_PRESSURE, fit.crossing_hours))
     return _Limits(hours, plan_hours, volume_hours, fit, dp_sentence, checked)
-
-
-def _estimate_checked(
-    plan: FilterPlan,
-    dp_readings: Sequence[DpReading],
-    loading_at_latest: float | None,
-    budget: float,
-) -> str | None:
-    """The words when the latest dP reading, below the plan's limit, was taken once the dirt
-    estimate had run out: the measurement shows life the estimate did not credit, so the
-    estimate gives way to the plan's limits and the dP trend (measured beats estimated)."""
-    if plan.dp_limit_bar is None or not dp_readings or loading_at_latest is None:
-        return None
-    latest = max(dp_readings, key=lambda r: (r.at, r.hours))
-    if latest.dp_bar >= plan.dp_limit_bar or loading_at_latest < budget:
-        return None
-    return (
-        f"A dP of {latest.dp_bar:.2f} bar at {fmt_hours(latest.hours)}, below the "
-        f"{plan.dp_limit_bar:g} bar limit, was recorded after the dirt estimate had run out: "
-        "the estimate no longer governs this filter; the plan's limits and its dP do."
-    )
-
-
-def _hard_limit_passed(
-    *,
-    plan: FilterPlan,
-    limits: _Limits,
-    calendar: date,
-    forecast: UsageForecast,
-    now: datetime,
-    dp_readings: Sequence[DpReading],
-) -> bool:
-    """Whether a limit that is not an estimate has been reached: the plan's hours, days or fuel
-    volume, or the latest measured dP at or over the plan's limit."""
-    hours = forecast.current_hours
-    if hours >= limits.plan_hours or now.date() >= calendar:
-        return True
-    if limits.volume_hours is not None and hours >= limits.volume_hours:
-        return True
-    if plan.dp_limit_bar is not None and dp_readings:
-        latest = max(dp_readings, key=lambda r: (r.at, r.hours))
-        return latest.dp_bar >= plan.dp_limit_bar
-    return False
-
-
-def _check_sentence(percent_used: float, limits: _Limits) -> str:
-    return (
-        f"Check before changing: the estimate of the dirt the filter has taken has run out "
-        f"({percent_used:.0f} % of its estimated budget), but no measured or planned limit has "
-        f"been reached (the plan's hours fall at {fmt_hours(limits.plan_hours)}). Read the "
-        "filter's differential pressure or restriction indicator: at or over its limit, change "
-        "it (a recorded reading there makes it overdue); below it, keep it and record the "
-        "reading: the estimate then gives way to the plan's limits and the dP trend."
-    )
 
 
 def _burn(*, burn_l_per_h: float | None, plan: FilterPlan) -> tuple[float, str, str]:
