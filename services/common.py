@@ -27,9 +27,14 @@ class TaskKind(enum.StrEnum):
 
 
 class DueStatus(enum.StrEnum):
-    """Where a projected task stands today. Ordered from most to least urgent."""
+    """Where a projected task stands today. Ordered from most to least urgent.
+
+    ``CHECK``: only an estimate (a filter's dirt budget) has run out, no hard limit has; the
+    filter's differential pressure or restriction indicator is to be checked before a change.
+    """
 
     OVERDUE = "overdue"
+    CHECK = "check"
     DUE = "due"
     SOON = "soon"
     OK = "ok"

@@ -28,13 +28,15 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta, tzinfo
 
-from services.common import Basis, DueDate, Projection, TaskKind, UsageForecast
+from services.common import Basis, DueDate, DueStatus, Projection, TaskKind, UsageForecast
 from services.filter_dp import DpFit, DpReading, dp_fit_inputs, dp_limit
 from services.filter_inputs import FilterPlan, Loading, door_check
 from services.filter_life import LifeBudget, life_inputs
+from services.filter_status import check_sentence, estimate_checked, hard_limit_passed
 from services.schedule import (
     due_status,
     earliest_due,
+    estimate_only,
     fmt_hours,
     json_number,
     plural,
@@ -96,6 +98,7 @@ def filter_projection(
     now: datetime,
     priority_raised: bool = False,
     life: LifeBudget | None = None,
+    loading_at_latest_dp: float | None = None,
 ) -> Projection:
     """Project the next change of one filter: the earliest of its limits.
 
@@ -130,18 +133,20 @@ def filter_projection(
         current_hours=forecast.current_hours,
         dp_readings=dp_readings,
         last_change=(last_change_at, last_change_hours),
+        checked=estimate_checked(plan, dp_readings, loading_at_latest_dp, spend.budget),
     )
     calendar = (last_change_at + timedelta(days=plan.interval_days)).date()
     basis, due = earliest_due(hour_limits=limits.hours, calendar=calendar, forecast=forecast)
-    status = due_status(
-        due=due,
-        current_hours=forecast.current_hours,
-        now=now,
-        soon_days=plan.soon_days,
-        due_days=plan.due_days,
-        raise_one_step=priority_raised,
-    )
+    status = _status(
+        plan=plan, due=due, limits=limits, calendar=calendar, forecast=forecast, now=now,
+        dp_readings=dp_readings, priority_raised=priority_raised,
+    )  # fmt: skip
     explanation = [
+        *(
+            [check_sentence(spend.percent_used, limits.plan_hours)]
+            if status is DueStatus.CHECK
+            else []
+        ),
         _governs_sentence(basis, due, plan, limits.plan_hours, calendar, spend.percent_used),
         _band_sentence(due),
         f"{spend.percent_used:.0f} % of the filter's contaminant budget is used since the "
@@ -151,6 +156,7 @@ def filter_projection(
         burn_sentence,
         sentence(f"Usage: {forecast.note}"),
         *([limits.dp_sentence] if limits.dp_sentence else []),
+        *([limits.checked] if limits.checked else []),
         *spend.notes,
         *([RAISED_SENTENCE] if priority_raised else []),
     ]
@@ -169,6 +175,36 @@ def filter_projection(
     return Projection(task, due, status, basis, explanation, inputs)
 
 
+def _status(
+    *,
+    plan: FilterPlan,
+    due: DueDate,
+    limits: _Limits,
+    calendar: date,
+    forecast: UsageForecast,
+    now: datetime,
+    dp_readings: Sequence[DpReading],
+    priority_raised: bool,
+) -> DueStatus:
+    """Where the item stands; only a hard limit makes it overdue (the estimate alone: check)."""
+    status = due_status(
+        due=due,
+        current_hours=forecast.current_hours,
+        now=now,
+        soon_days=plan.soon_days,
+        due_days=plan.due_days,
+        raise_one_step=priority_raised,
+    )
+    return estimate_only(
+        status=status,
+        hard_limit_passed=hard_limit_passed(
+            plan=plan, plan_hours=limits.plan_hours, volume_hours=limits.volume_hours,
+            calendar=calendar, current_hours=forecast.current_hours, now=now,
+            dp_readings=dp_readings,
+        ),
+    )  # fmt: skip
+
+
 @dataclass(frozen=True, slots=True)
 class _Limits:
     """A filter's hour limits (engine hours; the plan's first, as it wins a tie)."""
@@ -178,6 +214,7 @@ class _Limits:
     volume_hours: float | None
     fit: DpFit | None
     dp_sentence: str | None
+    checked: str | None = None  # why the dirt estimate no longer governs (a dP check)
 
 
 def _limits(
@@ -188,6 +225,7 @@ def _limits(
     current_hours: float,
     dp_readings: Sequence[DpReading],
     last_change: tuple[datetime, float],
+    checked: str | None = None,
 ) -> _Limits:
     last_change_at, last_change_hours = last_change
     plan_hours = last_change_hours + plan.interval_hours
@@ -197,7 +235,8 @@ def _limits(
         left = max(0.0, plan.interval_litres - spend.litres_since)
         volume_hours = current_hours + left / burn
         hours.append((Basis.FUEL_VOLUME, volume_hours))
-    hours.append((Basis.CONTAMINANT_BUDGET, spend.budget_hours))
+    if checked is None:  # a dP check below the limit after the estimate ran out re-bases it
+        hours.append((Basis.CONTAMINANT_BUDGET, spend.budget_hours))
     fit, dp_sentence = dp_limit(
         limit_bar=plan.dp_limit_bar,
         readings=dp_readings,
@@ -206,7 +245,7 @@ def _limits(
     )
     if fit is not None and fit.crossing_hours is not None:
         hours.append((Basis.DIFFERENTIAL_PRESSURE, fit.crossing_hours))
-    return _Limits(hours, plan_hours, volume_hours, fit, dp_sentence)
+    return _Limits(hours, plan_hours, volume_hours, fit, dp_sentence, checked)
 
 
 def _burn(*, burn_l_per_h: float | None, plan: FilterPlan) -> tuple[float, str, str]:
@@ -289,14 +328,10 @@ def _fuel_sentences(*, since: Sequence[Loading], plan: FilterPlan, current: floa
     if dirty:
         parts = []
         for (label, conc), loads in dirty:
-            litres = sum(ld.litres for ld in loads)
-            first, last = min(ld.at for ld in loads).date(), max(ld.at for ld in loads).date()
-            when = f"on {first.isoformat()}" if first == last else f"{first} to {last}"
-            parts.append(
-                f"{litres:,.0f} L in {len(loads)} fueling{'s' if len(loads) > 1 else ''} {when}, "
-                f"{label} ({conc / ref_conc:.1f}x the reference)"
-            )
-        out.append("Dirtiest fuel since the change: " + "; ".join(parts) + ".")
+            litres = sum(ld.litres for ld in loads)  # burned since the change (the labels say
+            # which fueling or delivery it came from and how much of it is burned in all)
+            parts.append(f"{litres:,.0f} L of {label} ({conc / ref_conc:.1f}x the reference)")
+        out.append("Dirtiest fuel burned since the change: " + "; ".join(parts) + ".")
     elif since:
         out.append("All fuel since the change was at or cleaner than the plan's reference.")
     if current > 0:

@@ -75,7 +75,7 @@ def earliest_due(
     )
 
 
-_ORDER = [DueStatus.OVERDUE, DueStatus.DUE, DueStatus.SOON, DueStatus.OK]
+_ORDER = [DueStatus.OVERDUE, DueStatus.CHECK, DueStatus.DUE, DueStatus.SOON, DueStatus.OK]
 
 
 def due_status(
@@ -106,6 +106,16 @@ def due_status(
         status = DueStatus.OK
     if raise_one_step and status in (DueStatus.SOON, DueStatus.OK):
         status = _ORDER[_ORDER.index(status) - 1]
+    return status
+
+
+def estimate_only(*, status: DueStatus, hard_limit_passed: bool) -> DueStatus:
+    """An estimate never makes an item overdue on its own: "overdue" with no hard limit passed
+    (the plan's hours, days or fuel volume, a measured dP at or over its limit, an alarm) is
+    "check", which asks for a measurement before the work (common practice: a filter is changed
+    on its differential pressure or restriction indicator, not on a dirt estimate)."""
+    if status is DueStatus.OVERDUE and not hard_limit_passed:
+        return DueStatus.CHECK
     return status
 
 

@@ -16,8 +16,8 @@ from fleetfuel.accounts.access import due_item_for_user, role_required, site_ids
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.accounts.requests import HtmxHttpRequest
 from fleetfuel.fleet.models import Site, UnitClass
+from fleetfuel.planning.due_selectors import due_page
 from fleetfuel.planning.forms import DueFilterForm, WorkListSettingsForm
-from fleetfuel.planning.selectors import due_page
 from fleetfuel.planning.source_selectors import source_decisions_open
 from fleetfuel.planning.worklists import recent_dispatches
 from fleetfuel.workorders import selectors

@@ -16,7 +16,7 @@ from .models import DueItem, StaleProjection, UnitFlag
 from .selectors import batch_inputs_load
 from .source_decisions import source_decisions_recompute
 
-STATUS_RANK = {DueStatus.OVERDUE: 0, DueStatus.DUE: 1, DueStatus.SOON: 2, DueStatus.OK: 3}
+STATUS_RANK = {s: rank for rank, s in enumerate(DueStatus)}  # in DueStatus's order of urgency
 DUE_FIELDS = [
     "unit",
     "site",

@@ -26,7 +26,7 @@ from fleetfuel.ledger.models import ServiceEvent
 from .models import DueItem
 
 STATUSES = ["overdue", "due", "soon", "ok"]
-RANK = {"overdue": 0, "due": 1, "soon": 2, "ok": 3}
+RANK = {"overdue": 0, "due": 2, "soon": 3, "ok": 4}  # as planning.actions.STATUS_RANK
 OFFSET_DAYS = {"overdue": -3, "due": 1, "soon": 8, "ok": 40}
 
 

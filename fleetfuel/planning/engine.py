@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
+from functools import partial
 
 from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, FuelSource, ServicePlan
 from services import filter_inputs, filter_life, intervals, usage, water
@@ -21,6 +22,7 @@ from services.common import Projection, TaskKind, UsageForecast
 from services.filter_dp import DpReading
 from services.schedule import MAX_FORECAST_DAYS
 
+from . import engine_tank
 from .selectors import BatchInputs, UnitInputs, unit_forecast
 
 FILTER_TASKS = {
@@ -55,6 +57,8 @@ class UnitFuel:
     events: list[fl.EngineEvent]
     burn: float | None  # measured L/h over the forecast window, when there is enough to tell
     refused: list[str] = field(default_factory=list)  # records left out, each with its reason
+    tank_samples: list[fi.Sample] = field(default_factory=list)  # of the unit's own tank
+    sources: dict[int, engine_tank.SourceFuel] = field(default_factory=dict)  # bulk tanks
 
 
 def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
@@ -209,7 +213,24 @@ def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
         ],
         burn=burn,
         refused=refused,
+        tank_samples=[s for s in samples if s.unit_sample],
+        sources=source_fuels(batch, samples),
     )
+
+
+def source_fuels(batch: BatchInputs, samples: list[fi.Sample]) -> dict[int, engine_tank.SourceFuel]:
+    """Each source's deliveries and samples, for its tank model."""
+    out: dict[int, engine_tank.SourceFuel] = {}
+    for d in batch.deliveries:
+        words = f"the {d.litres:,.0f} L delivery on {d.delivered_at:%Y-%m-%d}" + (
+            f" (ticket {d.ticket})" if d.ticket else ""
+        )
+        out.setdefault(d.source_id, engine_tank.SourceFuel([], []))
+        out[d.source_id].deliveries.append((d.delivered_at, d.litres, words))
+    for s in samples:
+        if not s.unit_sample and s.source_id in out:
+            out[s.source_id].samples.append(s)
+    return out
 
 
 def sample_quality(sample: FuelSample, source: FuelSource | None) -> fq.FuelQuality:
@@ -285,27 +306,36 @@ def filter_compute(
         fitted_meter=comp.installed_hours,
         tz=now.tzinfo,
     )
-    loadings = []
-    for fueling, quality in fuel.paired:
-        if fueling.at < last_at:
-            continue
-        conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
-        label = f"from {fuel.source_names[int(fueling.ref)]}, " + (
-            quality.label if quality else "no sample: reference fuel assumed"
-        )
-        loadings.append(
-            filter_inputs.Loading(at=fueling.at, litres=fueling.litres, concentration_per_ml=conc,
-                                  reference_assumed=assumed, label=label)
-        )  # fmt: skip
-    current, current_assumed = fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)
+    fplan = filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h)
+    last_hours = engine_hours_at(b, last_at, last_meter)
+    fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)  # refuses future fuel
+    tank_at = partial(
+        engine_tank.tank_loadings,
+        unit=b.unit,
+        paired=fuel.paired,
+        source_names=fuel.source_names,
+        tank_samples=fuel.tank_samples,
+        sources=fuel.sources,
+        channel=channel,
+        hours=[
+            *((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
+            (last_at, last_hours),
+            (min(now, forecast.as_of), forecast.current_hours),
+        ],
+        burn_l_per_h=fuel.burn or fplan.reference_burn_l_per_h,
+        since=last_at,
+    )
+    burned = tank_at(now=now)
+    dp_taken = [r.taken_at for r in b.dp_readings.get(comp.pk, []) if last_at <= r.taken_at <= now]
+    at_dp = tank_at(now=max(dp_taken)) if dp_taken else None  # the loading when dP was read
     projection = intervals.filter_projection(
         task=task,
-        plan=filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h),
+        plan=fplan,
         last_change_at=last_at,
-        last_change_hours=engine_hours_at(b, last_at, last_meter),
-        loadings=loadings,
-        current_concentration_per_ml=current,
-        current_reference_assumed=current_assumed,
+        last_change_hours=last_hours,
+        loadings=burned.loadings,
+        current_concentration_per_ml=burned.current_concentration_per_ml,
+        current_reference_assumed=burned.current_reference_assumed,
         burn_l_per_h=fuel.burn,
         dp_readings=[
             DpReading(
@@ -323,8 +353,9 @@ def filter_compute(
         now=now,
         priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
         life=life,
+        loading_at_latest_dp=at_dp.loading if at_dp else None,
     )
-    projection.explanation.append(channel_note)
+    projection.explanation.extend([burned.sentence, channel_note])
     return projection
 
 

@@ -22,6 +22,8 @@ class DueItem(models.Model):
     class Status(models.TextChoices):
         # Stored as text; ``rank`` orders by urgency for sorting and counting.
         OVERDUE = "overdue", "Overdue"
+        # Only the dirt estimate has run out: read the filter's dP or indicator before a change.
+        CHECK = "check", "Check dP first"
         DUE = "due", "Due"
         SOON = "soon", "Soon"
         OK = "ok", "OK"
@@ -35,7 +37,7 @@ class DueItem(models.Model):
     )
     task = models.CharField(max_length=30, choices=Task.choices)
     status = models.CharField(max_length=10, choices=Status.choices)
-    rank = models.PositiveSmallIntegerField(help_text="0 overdue, 1 due, 2 soon, 3 ok")
+    rank = models.PositiveSmallIntegerField(help_text="0 overdue, 1 check, 2 due, 3 soon, 4 ok")
     basis = models.CharField(max_length=40)
     due_hours = models.FloatField(null=True, blank=True)
     hours_left = models.FloatField(

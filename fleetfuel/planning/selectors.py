@@ -1,10 +1,9 @@
-"""Reads of the planning app: the engine's inputs, a unit's usage forecast, the due list.
+"""Reads of the planning app for the engine: its inputs and a unit's usage forecast (the due
+list's reads are in due_selectors.py).
 
 ``batch_inputs_load`` makes the same number of queries whatever the batch size (asserted in
 tests/planning/test_recompute.py); the result is plain per-unit bundles of rows that
-fleetfuel/planning/engine.py turns into services/ calls. The due list's queries do not grow
-with the fleet either (tests/pages/test_due_list.py); its paging fetches one row more than a
-page to know whether a next page exists, so it never counts the whole table.
+fleetfuel/planning/engine.py turns into services/ calls.
 """
 
 from __future__ import annotations
@@ -12,16 +11,16 @@ from __future__ import annotations
 import math
 import zlib
 from collections import defaultdict
-from collections.abc import Mapping
 from dataclasses import dataclass, field
 from datetime import date, datetime, time, timedelta
 from typing import Any
 
-from django.db.models import Count, Exists, OuterRef, Q, QuerySet, Subquery, Sum
+from django.db.models import Exists, OuterRef, Q, Subquery, Sum
 
 from fleetfuel.fleet.models import (
     Component,
     ComponentKind,
+    Delivery,
     EngineEvent,
     FilterPressureReading,
     Fueling,
@@ -36,8 +35,6 @@ from fleetfuel.ledger.models import ServiceEvent
 from services import usage
 from services.common import UsageForecast
 from services.filter_life import LifeBudget
-
-from .models import DueItem, UnitFlag
 
 # How far back the engine looks for fuel, events and drains. Plans longer than this are
 # still honoured for calendar limits (the last change date comes from its own query).
@@ -82,6 +79,7 @@ class BatchInputs:
     # ordered by unit and time: the evidence services/filter_life.py fits the life from.
     filter_changes: dict[tuple[int, str], list[ChangeRow]] = field(default_factory=dict)
     lives: dict[tuple[int, str], LifeBudget] = field(default_factory=dict)  # the engine's, once
+    deliveries: list[Delivery] = field(default_factory=list)  # into the sources, oldest first
 
 
 def unit_forecast(b: UnitInputs, *, now: datetime) -> UsageForecast:
@@ -158,11 +156,18 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     sources = {s.pk: s for s in FuelSource.objects.all()}  # 12. fuel sources (a handful)
     # 13. every filter change of the batch's unit classes: the life evidence
     filter_changes = filter_changes_load(class_ids=class_ids, now=now)
+    # 14. deliveries into the sources in the look-back (each source's tank model)
+    deliveries = list(
+        Delivery.objects.filter(delivered_at__gte=since, delivered_at__lte=now).order_by(
+            "delivered_at", "pk"
+        )
+    )
     return BatchInputs(
         units=[bundles[i] for i in ids],
         source_samples=source_samples,
         sources=sources,
         filter_changes=filter_changes,
+        deliveries=deliveries,
     )
 
 
@@ -368,82 +373,3 @@ def _dp_load(*, bundles: dict[int, UnitInputs], now: datetime, since: datetime) 
     ).order_by("component_id", "taken_at"):
         readings = bundles[comp_to_unit[dp.component_id]].dp_readings
         readings.setdefault(dp.component_id, []).append(dp)
-
-
-# --------------------------------------------------------------------------- the due list
-
-PAGE_SIZE = 50
-SORTS = {
-    "due": ["due_on", "id"],  # walks the (site, [status,] due_on, id) index
-    "unit": ["unit__fleet_number", "due_on", "task", "id"],
-    "task": ["task", "due_on", "unit__fleet_number", "id"],
-    "status": ["rank", "due_on", "unit__fleet_number", "id"],
-}
-
-
-@dataclass
-class DuePage:
-    items: list[DueItem]
-    counts: dict[str, int]
-    page: int
-    has_next: bool
-    flags_by_unit: dict[int, list[UnitFlag]] = field(default_factory=dict)
-
-
-def due_items_filtered(
-    *, site_ids: list[int], data: dict[str, Any], today: date
-) -> QuerySet[DueItem]:
-    # Disposed units have no due items: the recompute skips them and clears their rows.
-    qs = DueItem.objects.filter(site_id__in=site_ids)
-    if data.get("site"):
-        qs = qs.filter(site_id=data["site"].pk)
-    if data.get("unit_class"):
-        qs = qs.filter(unit__unit_class=data["unit_class"])
-    if data.get("task"):
-        qs = qs.filter(task=data["task"])
-    if data.get("within_days") is not None:
-        qs = qs.filter(due_on__lte=today + timedelta(days=data["within_days"]))
-    if data.get("within_hours") is not None:
-        # Hours left = due hours minus the engine hours the projection started from.
-        qs = qs.filter(hours_left__lte=data["within_hours"])
-    if data.get("flagged"):
-        qs = qs.filter(Exists(UnitFlag.objects.filter(unit_id=OuterRef("unit_id"))))
-    if data.get("q"):
-        qs = qs.filter(unit__fleet_number__icontains=data["q"].strip())
-    return qs
-
-
-def due_page(
-    *,
-    site_ids: list[int],
-    data: dict[str, Any],
-    today: date,
-    annotations: Mapping[str, Any] | None = None,
-) -> DuePage:
-    """The page of due items for these filters: three queries whatever the fleet size.
-
-    ``annotations`` are added to each row in the page's query (the composing page passes
-    what other apps say of an item, such as whether it is in an open work order).
-    """
-    base = due_items_filtered(site_ids=site_ids, data=data, today=today)
-    # Query 1: counts by status over the filtered set (without the status filter itself).
-    counts = dict.fromkeys(DueItem.Status.values, 0)
-    for row in base.values("status").annotate(n=Count("id")).order_by():
-        counts[row["status"]] = row["n"]
-    qs = base.filter(status=data["status"]) if data.get("status") else base
-    page = data.get("page") or 1
-    # Query 2: one page of rows (+1 to know if there is a next page), with unit, site,
-    # class and component joined, and the caller's annotations.
-    rows = list(
-        qs.select_related("unit", "unit__site", "unit__unit_class", "component")
-        .annotate(**(annotations or {}))
-        .order_by(*SORTS.get(data.get("sort") or "due", SORTS["due"]))
-        .defer("inputs")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
-    )
-    has_next = len(rows) > PAGE_SIZE
-    rows = rows[:PAGE_SIZE]
-    # Query 3: the flags of the units on this page.
-    flags: dict[int, list[UnitFlag]] = {}
-    for flag in UnitFlag.objects.filter(unit_id__in={r.unit_id for r in rows}).order_by("code"):
-        flags.setdefault(flag.unit_id, []).append(flag)
-    return DuePage(items=rows, counts=counts, page=page, has_next=has_next, flags_by_unit=flags)

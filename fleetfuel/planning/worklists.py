@@ -61,6 +61,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
         sections[flag.unit_id].flags.append(flag)
     base = settings.SITE_URL + reverse("pages:due_list")
     overdue = sum(1 for i in items if i.status == DueItem.Status.OVERDUE)
+    check = sum(1 for i in items if i.status == DueItem.Status.CHECK)  # dP reading first
     return {
         "user": user,
         "site": site,
@@ -68,7 +69,8 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
         "days": days,
         "sections": sorted(sections.values(), key=lambda s: s.fleet_number),
         "overdue": overdue,
-        "upcoming": len(items) - overdue,
+        "check": check,
+        "upcoming": len(items) - overdue - check,
         "flagged": len({f.unit_id for f in flags}),
         "link_overdue": f"{base}?{urlencode({'site': site.pk, 'status': 'overdue'})}",
         "link_upcoming": f"{base}?{urlencode({'site': site.pk, 'within_days': days})}",
@@ -82,7 +84,9 @@ def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMulti
     ctx = worklist_content(user=user, site=site, today=today)
     subject = (
         f"fleetfuel work list, {site.name}, {today:%a %d %b %Y}: "
-        f"{ctx['overdue']} overdue, {ctx['upcoming']} due within {ctx['days']} days"
+        f"{ctx['overdue']} overdue, "
+        + (f"{ctx['check']} to check, " if ctx["check"] else "")
+        + f"{ctx['upcoming']} due within {ctx['days']} days"
     )
     message = EmailMultiAlternatives(
         subject=subject,

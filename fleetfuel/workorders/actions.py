@@ -28,7 +28,7 @@ from fleetfuel.planning.models import DueItem
 from services import bounds
 
 from .forms import JobEntry, TaskDraft
-from .kinds import kind_for_due_task
+from .kinds import Kind, kind_for_due_task
 from .models import WorkOrder, WorkOrderTask
 from .selectors import due_item_ids_in_open_work_orders
 from .task_entries import NewTask
@@ -270,6 +270,7 @@ def snapshot_text(data: dict[str, Any]) -> str:
 
 PRIORITY = {
     DueItem.Status.OVERDUE: WorkOrder.Priority.URGENT,
+    DueItem.Status.CHECK: WorkOrder.Priority.HIGH,  # a dP reading first, then maybe the change
     DueItem.Status.DUE: WorkOrder.Priority.HIGH,
 }
 
@@ -359,9 +360,16 @@ def _work_order_from_items(
     WorkOrderTask.objects.bulk_create(
         WorkOrderTask(
             work_order=order,
-            kind=kind_for_due_task(i.task),
+            # An item waiting on a check gets the check, which then confirms or re-bases it.
+            kind=Kind.FILTER_CHECK
+            if i.status == DueItem.Status.CHECK
+            else kind_for_due_task(i.task),
             component=i.component,
-            description=i.get_task_display(),
+            description=(
+                f"Check dP first: {i.get_task_display()}"
+                if i.status == DueItem.Status.CHECK
+                else i.get_task_display()
+            ),
             due_item=i,
         )
         for i in unit_items

@@ -356,6 +356,8 @@ def _task_event_write(
     spec = kind_spec(task.kind)
     comp = task_component(task, ctx)
     service_event_append(kind=spec.event_kind, **task_event_fields(task, ctx, comp), **common)
+    if spec.records is not None:
+        spec.records(task, comp, common["performed_at"], common["hour_meter"])
     if comp is not None and spec.renews_component:
         _component_renew(comp, task, today=today, hours=common["hour_meter"])
 

@@ -117,6 +117,19 @@ class FilterChangeForm(TaskForm):
     )
 
 
+class FilterCheckForm(TaskForm):
+    """A check in seconds before a change: the filter's differential pressure now."""
+
+    filter = FilterField(label="Filter", needed=True)
+    dp_bar = QuantityField(
+        label="Differential pressure now",
+        quantity="pressure_bar_gauge",
+        needed=True,
+        help_text="From the gauge; with a restriction indicator only, its limit if it shows "
+        "red, else 0.",
+    )
+
+
 class SeparatorDrainForm(TaskForm):
     water_ml = QuantityField(
         label="Water drained", quantity="volume_ml", needed=True, help_text="0 if none."

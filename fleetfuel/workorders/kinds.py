@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from datetime import datetime
 from typing import TYPE_CHECKING, Any
 
 from django.db import models
@@ -23,6 +24,7 @@ from fleetfuel.fleet.models import (
     PER_CYLINDER_KINDS,
     Component,
     ComponentKind,
+    FilterPressureReading,
 )
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.models import DueItem
@@ -38,6 +40,7 @@ class Kind(models.TextChoices):
     """``WorkOrderTask.Kind``: the stored value and the label of each task kind."""
 
     FILTER_CHANGE = "filter_change", "Change filter"
+    FILTER_CHECK = "filter_check", "Check filter dP before a change"
     SEPARATOR_DRAIN = "separator_drain", "Drain water separator"
     INJECTOR_REPLACE = "injector_replace", "Replace injector"
     CONNECTOR_REPLACE = "connector_replace", "Replace high-pressure connector"
@@ -47,6 +50,8 @@ class Kind(models.TextChoices):
 
 
 EventFields = Callable[["WorkOrderTask", TaskContext, Component | None], dict[str, Any]]
+# Other records a close writes for a task: (task, its part, when, hour meter at the job).
+Records = Callable[["WorkOrderTask", Component | None, datetime, float | None], None]
 
 
 @dataclass(frozen=True)
@@ -61,6 +66,7 @@ class TaskKindSpec:
     renews_component: bool = False  # closing it fits a new part (serial, part number, hours)
     chooses: str = ""  # "filter" (which fitted filter) or "limit" (which measurement)
     due_tasks: tuple[str, ...] = ()  # DueItem.Task values a task of this kind does
+    records: Records | None = None  # other records its close writes (a dP reading)
 
     @property
     def per_cylinder(self) -> bool:
@@ -101,6 +107,24 @@ def _filter_fields(task: WorkOrderTask, ctx: TaskContext, comp: Component | None
         "part_number": _text(task, "part_number"),
         "dp_before_bar": task.entry.get("dp_before_bar"),
     }
+
+
+def _filter_check_fields(
+    task: WorkOrderTask, ctx: TaskContext, comp: Component | None
+) -> dict[str, Any]:
+    return {"measurement_name": "Filter differential pressure", "value": task.entry.get("dp_bar")}
+
+
+def _filter_check_records(
+    task: WorkOrderTask, comp: Component | None, at: datetime, hour_meter: float | None
+) -> None:
+    """The check's dP reading, which the projection reads: at or over the plan's limit the
+    filter is overdue; below it, read once the dirt estimate ran out, it re-bases it."""
+    dp = task.entry.get("dp_bar")
+    if comp is not None and isinstance(dp, int | float) and hour_meter is not None:
+        FilterPressureReading.objects.create(
+            component=comp, taken_at=at, hours=hour_meter, dp_bar=float(dp)
+        )
 
 
 def _drain_fields(task: WorkOrderTask, ctx: TaskContext, comp: Component | None) -> dict[str, Any]:
@@ -195,6 +219,17 @@ KINDS: dict[Kind, TaskKindSpec] = {
             renews_component=True,
             chooses="filter",
             due_tasks=(DueItem.Task.PRIMARY_FILTER, DueItem.Task.FINE_FILTER),
+        ),
+        TaskKindSpec(
+            kind=Kind.FILTER_CHECK,
+            add_label="Filter dP checked",
+            form=forms.FilterCheckForm,
+            event_kind=ServiceEvent.Kind.MEASUREMENT,
+            event_fields=_filter_check_fields,
+            component_kind=None,  # the filter checked is chosen
+            rule_kind="other",  # no follow-up of its own: the reading goes to the projection
+            chooses="filter",
+            records=_filter_check_records,
         ),
         TaskKindSpec(
             kind=Kind.SEPARATOR_DRAIN,

@@ -122,6 +122,20 @@ def test_demo_contaminated_deliveries_lead_the_due_list(at_demo_now: Instant, cl
     assert all(i.site.code in {"kestrel", "mill-lane"} for i in first)
 
 
+def test_demo_no_item_is_overdue_on_the_dirt_estimate_alone(at_demo_now: Instant) -> None:
+    # Only a hard limit makes a filter overdue (the plan's hours, days or fuel volume, a
+    # measured dP at its limit); a spent dirt estimate asks for a dP check ("check").
+    filters = DueItem.objects.filter(task__in=["primary_filter", "fine_filter"])
+    overdue_on = set(filters.filter(status="overdue").values_list("basis", flat=True))
+    assert overdue_on <= {"plan_hours", "plan_days", "fuel_volume", "differential_pressure"}
+    # Those of the dirty delivery's filters whose estimate is spent wait on a check, each
+    # naming the sample and the litres burned (how many depends on how the budget is set).
+    kestrel = filters.filter(site__code="kestrel", status="check")
+    for item in kestrel:
+        assert item.explanation[0].startswith("Check before changing")
+        assert any("FS-D001" in x and "burned so far" in x for x in item.explanation)
+
+
 def test_demo_ledger_verifies_against_its_checkpoints(at_demo_now: Instant) -> None:
     out = StringIO()
     call_command("verify_ledger", stdout=out)

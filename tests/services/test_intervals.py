@@ -203,7 +203,10 @@ def test_higher_burn_brings_due_forward() -> None:
 def test_budget_spent_is_overdue() -> None:
     # 15,000 L at 4x = 150,000,000 > B: nothing left, due at the current 10,100 h.
     p = project(loadings=[reference_loading(litres=15_000.0, conc=CODE_20_UPPER)])
-    assert p.status is DueStatus.OVERDUE
+    # Only the estimate has run out (10,100 h is before the plan's 10,500 h): "check", not
+    # overdue (common practice: change a filter on its dP or restriction indicator).
+    assert p.status is DueStatus.CHECK
+    assert p.explanation[0].startswith("Check before changing")
     assert p.inputs["remaining_budget"] == 0.0
 
 
@@ -350,8 +353,8 @@ def test_exhausted_budget_says_so_in_words() -> None:
         current_concentration_per_ml=4 * CODE_18_UPPER,
     )
     assert p.basis is Basis.CONTAMINANT_BUDGET
-    assert "already taken the dirt it is rated for (107 % of its budget)" in p.explanation[0]
-    assert p.status is DueStatus.OVERDUE
+    assert "already taken the dirt it is rated for (107 % of its budget)" in p.explanation[1]
+    assert p.status is DueStatus.CHECK
 
 
 # ----------------------------------------------------------------- where a filter's life starts

@@ -56,7 +56,13 @@ def test_per_cylinder_and_high_pressure_marks_follow_the_fuel_system() -> None:
     assert marks[Kind.INJECTOR_REPLACE] == (True, True)
     assert marks[Kind.CONNECTOR_REPLACE] == (True, True)
     assert marks[Kind.RELIEF_VALVE_REPLACE] == (False, True)
-    for kind in (Kind.FILTER_CHANGE, Kind.SEPARATOR_DRAIN, Kind.MEASUREMENT, Kind.INSPECTION):
+    for kind in (
+        Kind.FILTER_CHANGE,
+        Kind.FILTER_CHECK,
+        Kind.SEPARATOR_DRAIN,
+        Kind.MEASUREMENT,
+        Kind.INSPECTION,
+    ):
         assert marks[kind] == (False, False)
 
 

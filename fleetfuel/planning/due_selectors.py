@@ -1,0 +1,92 @@
+"""Reads of the planning app for the due list, with its filters, counts and pages.
+
+Its queries do not grow with the fleet (tests/pages/test_due_list.py); paging fetches one row
+more than a page to know whether a next page exists, so it never counts the whole table.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from datetime import date, timedelta
+from typing import Any
+
+from django.db.models import Count, Exists, OuterRef, QuerySet
+
+from .models import DueItem, UnitFlag
+
+PAGE_SIZE = 50
+SORTS = {
+    "due": ["due_on", "id"],  # walks the (site, [status,] due_on, id) index
+    "unit": ["unit__fleet_number", "due_on", "task", "id"],
+    "task": ["task", "due_on", "unit__fleet_number", "id"],
+    "status": ["rank", "due_on", "unit__fleet_number", "id"],
+}
+
+
+@dataclass
+class DuePage:
+    items: list[DueItem]
+    counts: dict[str, int]
+    page: int
+    has_next: bool
+    flags_by_unit: dict[int, list[UnitFlag]] = field(default_factory=dict)
+
+
+def due_items_filtered(
+    *, site_ids: list[int], data: dict[str, Any], today: date
+) -> QuerySet[DueItem]:
+    # Disposed units have no due items: the recompute skips them and clears their rows.
+    qs = DueItem.objects.filter(site_id__in=site_ids)
+    if data.get("site"):
+        qs = qs.filter(site_id=data["site"].pk)
+    if data.get("unit_class"):
+        qs = qs.filter(unit__unit_class=data["unit_class"])
+    if data.get("task"):
+        qs = qs.filter(task=data["task"])
+    if data.get("within_days") is not None:
+        qs = qs.filter(due_on__lte=today + timedelta(days=data["within_days"]))
+    if data.get("within_hours") is not None:
+        # Hours left = due hours minus the engine hours the projection started from.
+        qs = qs.filter(hours_left__lte=data["within_hours"])
+    if data.get("flagged"):
+        qs = qs.filter(Exists(UnitFlag.objects.filter(unit_id=OuterRef("unit_id"))))
+    if data.get("q"):
+        qs = qs.filter(unit__fleet_number__icontains=data["q"].strip())
+    return qs
+
+
+def due_page(
+    *,
+    site_ids: list[int],
+    data: dict[str, Any],
+    today: date,
+    annotations: Mapping[str, Any] | None = None,
+) -> DuePage:
+    """The page of due items for these filters: three queries whatever the fleet size.
+
+    ``annotations`` are added to each row in the page's query (the composing page passes
+    what other apps say of an item, such as whether it is in an open work order).
+    """
+    base = due_items_filtered(site_ids=site_ids, data=data, today=today)
+    # Query 1: counts by status over the filtered set (without the status filter itself).
+    counts = dict.fromkeys(DueItem.Status.values, 0)
+    for row in base.values("status").annotate(n=Count("id")).order_by():
+        counts[row["status"]] = row["n"]
+    qs = base.filter(status=data["status"]) if data.get("status") else base
+    page = data.get("page") or 1
+    # Query 2: one page of rows (+1 to know if there is a next page), with unit, site,
+    # class and component joined, and the caller's annotations.
+    rows = list(
+        qs.select_related("unit", "unit__site", "unit__unit_class", "component")
+        .annotate(**(annotations or {}))
+        .order_by(*SORTS.get(data.get("sort") or "due", SORTS["due"]))
+        .defer("inputs")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
+    )
+    has_next = len(rows) > PAGE_SIZE
+    rows = rows[:PAGE_SIZE]
+    # Query 3: the flags of the units on this page.
+    flags: dict[int, list[UnitFlag]] = {}
+    for flag in UnitFlag.objects.filter(unit_id__in={r.unit_id for r in rows}).order_by("code"):
+        flags.setdefault(flag.unit_id, []).append(flag)
+    return DuePage(items=rows, counts=counts, page=page, has_next=has_next, flags_by_unit=flags)

@@ -1,0 +1,173 @@
+"""A unit's tank for its filters: rows -> services.tank, and the fuel burned back as loadings.
+
+No queries and no decisions of the trade here (the mixing is ``services.tank``): this maps a
+unit's fuelings, its own tank samples and its engine hours to the tank's inputs, and the
+tank's parcels to the filter's loadings, with words naming each fueling and how much of it
+has been burned.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import datetime
+
+from fleetfuel.fleet.models import Unit
+from services import filter_inputs, tank
+from services import fuel_intake as fi
+from services import fuel_quality as fq
+
+
+@dataclass(frozen=True)
+class SourceFuel:
+    """What a fuel source's records say: its deliveries and its own samples, oldest first."""
+
+    deliveries: list[tuple[datetime, float, str]]  # (delivered at, litres, words naming it)
+    samples: list[fi.Sample]
+
+
+@dataclass(frozen=True)
+class TankLoadings:
+    """What the unit's filters saw since their change, and the tank's fuel now."""
+
+    loadings: list[filter_inputs.Loading]
+    current_concentration_per_ml: float
+    current_reference_assumed: bool
+    sentence: str  # the tank model in words, for the explanation
+    loading: float  # litres x particles per mL burned since ``since``
+
+
+def hour_path(
+    points: Sequence[tuple[datetime, float]], burn_l_per_h: float
+) -> list[tuple[datetime, float]]:
+    """(moment, cumulative litres burned): engine hours (never going back) times the burn."""
+    path: list[tuple[datetime, float]] = []
+    top = None
+    for at, hours in sorted(points, key=lambda p: p[0]):
+        top = hours if top is None else max(top, hours)
+        path.append((at, top))
+    start = path[0][1] if path else 0.0
+    return [(at, (h - start) * burn_l_per_h) for at, h in path]
+
+
+def tank_loadings(
+    *,
+    unit: Unit,
+    paired: Sequence[fi.Paired],
+    source_names: dict[int, str],
+    tank_samples: Sequence[fi.Sample],
+    sources: dict[int, SourceFuel],
+    channel: int,
+    hours: Sequence[tuple[datetime, float]],
+    burn_l_per_h: float,
+    since: datetime,
+    now: datetime,
+) -> TankLoadings:
+    """The fuel the filters burned since ``since``, one loading per fueling it came from."""
+    largest = max((f.litres for f, _ in paired), default=None)
+    capacity, capacity_words = tank.tank_capacity(
+        unit_l=unit.tank_capacity_l,
+        class_l=unit.unit_class.typical_tank_l,
+        largest_fill_l=largest,
+    )
+    fills = []
+    measured = {id(s.quality) for s in tank_samples}
+    for fueling, quality in paired:
+        conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
+        words = quality.label if quality else "no sample: reference fuel assumed"
+        source = sources.get(fueling.source_id) if fueling.source_id is not None else None
+        if source and source.deliveries and id(quality) not in measured:
+            conc, assumed, words = source_fuel(source=source, at=fueling.at, channel=channel)
+        fills.append(
+            tank.Fill(
+                at=fueling.at,
+                litres=fueling.litres,
+                concentration_per_ml=conc,
+                reference_assumed=assumed,
+                label=f"the {fueling.litres:,.0f} L fuelled on {fueling.at:%Y-%m-%d} from "
+                f"{source_names[int(fueling.ref)]}, {words}",
+            )
+        )
+    measures = []
+    for s in tank_samples:
+        conc, assumed = fq.concentration_or_reference(quality=s.quality, channel=channel)
+        if not assumed:
+            measures.append(tank.Measure(at=s.at, concentration_per_ml=conc, label=s.quality.label))
+    path = hour_path(hours, burn_l_per_h)
+    first_at = min([since, *(f.at for f in fills), *(t for t, _ in path[:1])])
+    conc0, _ = fq.concentration_or_reference(quality=None, channel=channel)
+    initial = tank.Fill(
+        at=first_at, litres=capacity, concentration_per_ml=conc0, reference_assumed=True,
+        label="the fuel in the tank before the first fueling on record (reference fuel assumed)",
+    )  # fmt: skip
+    state = tank.tank_run(
+        capacity_l=capacity, initial=initial, fills=fills, measures=measures, burned=path,
+        since=since, until=now,
+    )  # fmt: skip
+    loadings = [
+        filter_inputs.Loading(
+            at=min(now, max(p.fill.at, since)),
+            litres=p.burned_since,
+            concentration_per_ml=p.loading_since / p.burned_since,
+            reference_assumed=p.fill.reference_assumed and p.measured_by is None,
+            label=_parcel_words(p),
+        )
+        for p in state.parcels
+        if p.burned_since > 0
+    ]
+    sentence = (
+        f"Fuel is counted as it is burned, not as it is put in: {capacity_words}, well mixed; "
+        f"{state.burned_since:,.0f} L burned since the change at "
+        f"{burn_l_per_h:.1f} L/h."
+    )
+    return TankLoadings(
+        loadings, state.concentration_per_ml, state.reference_assumed, sentence,
+        state.loading_since,
+    )  # fmt: skip
+
+
+def source_fuel(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:
+    """(particles per mL, reference assumed, words) of a bulk tank's fuel at ``at``: its
+    deliveries mix in (no sample of their own: the reference fuel), its samples measure it.
+    With no draws on record, each delivery makes its own room (the tank held no more than
+    its capacity less the delivery); the capacity is its largest delivery."""
+    largest = max(litres for _, litres, _ in source.deliveries)
+    capacity, _ = tank.tank_capacity(unit_l=None, class_l=None, largest_fill_l=largest)
+    conc0, _ = fq.concentration_or_reference(quality=None, channel=channel)
+    fills = [
+        tank.Fill(at=d_at, litres=litres, concentration_per_ml=conc0, reference_assumed=True,
+                  label=words)
+        for d_at, litres, words in source.deliveries
+        if d_at <= at
+    ]  # fmt: skip
+    measures = []
+    for s in source.samples:
+        conc, assumed = fq.concentration_or_reference(quality=s.quality, channel=channel)
+        if s.at <= at and not assumed:
+            measures.append(tank.Measure(at=s.at, concentration_per_ml=conc, label=s.quality.label))
+    first = min([at, *(f.at for f in fills), *(m.at for m in measures)])
+    initial = tank.Fill(
+        at=first, litres=capacity, concentration_per_ml=conc0, reference_assumed=True,
+        label="fuel of no record, before its first delivery",
+    )  # fmt: skip
+    state = tank.tank_run(
+        capacity_l=capacity, initial=initial, fills=fills, measures=measures, burned=[],
+        since=at, until=at,
+    )  # fmt: skip
+    held = sorted((p for p in state.parcels if p.left > 0), key=lambda p: -p.left)[:2]
+    words = "; ".join(
+        f"{p.left / capacity:.0%} {p.fill.label}"
+        + (f", as measured by {p.measured_by}" if p.measured_by else ", no sample since")
+        for p in held
+    )
+    return state.concentration_per_ml, state.reference_assumed, f"the tank then held {words}"
+
+
+def _parcel_words(p: tank.ParcelBurn) -> str:
+    put_in = p.fill.litres
+    words = f"{p.fill.label} ({p.burned_total:,.0f} L of it burned so far"
+    if p.left > 0 and put_in > 0:
+        words += f", {p.left:,.0f} L still in the tank"
+    if p.measured_by:
+        words += f"; the tank then measured by {p.measured_by}"
+    return words + ")"
