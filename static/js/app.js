@@ -30,9 +30,21 @@
   document.addEventListener("htmx:afterRequest", function (e) {
     if (e.detail && e.detail.xhr && e.detail.xhr.status) { offline(false); }
   });
-  // Select-all boxes: <input type=checkbox data-select-all="name">
+  // A form that asks before it is sent: <form data-confirm="Revoke ...?">
+  document.addEventListener("submit", function (e) {
+    var f = e.target;
+    if (f && f.dataset && f.dataset.confirm && !window.confirm(f.dataset.confirm)) {
+      e.preventDefault();
+    }
+  });
+  // Select-all boxes: <input type=checkbox data-select-all="name">; a choice that sends its
+  // form at once: <select data-autosubmit>.
   document.addEventListener("change", function (e) {
     var t = e.target;
+    if (t && t.dataset && t.dataset.autosubmit !== undefined && t.form) {
+      t.form.submit();
+      return;
+    }
     if (t && t.dataset && t.dataset.selectAll) {
       document.querySelectorAll('input[type=checkbox][name="' + t.dataset.selectAll + '"]')
         .forEach(function (box) { if (!box.disabled) { box.checked = t.checked; } });
