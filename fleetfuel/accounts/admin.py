@@ -19,6 +19,13 @@ from django.http import HttpRequest
 from .access import sees_every_site, site_ids_for_user
 from .models import Profile
 
+# The records pages wear fleetfuel's name, and "View site" leads back to fleetfuel's own pages
+# (where the daily entry happens: /intake/); they hold plans and reference data.
+admin.site.site_header = "fleetfuel · fleet records"
+admin.site.site_title = "fleetfuel records"
+admin.site.index_title = "Plans, reference data and records"
+admin.site.site_url = "/"
+
 
 def site_limit(request: HttpRequest) -> list[int] | None:
     """The site ids the admin shows this person, or None for no limit."""

@@ -71,3 +71,10 @@ def test_fueling_beyond_the_tank_is_refused_in_the_admin(client: Any, unit: Any)
     assert not Fueling.objects.exists()
     assert client.post(url, {**base, "litres": "450"}).status_code == 302
     assert Fueling.objects.get().litres == 450
+
+
+def test_the_records_pages_wear_fleetfuels_name(client: Any, db: Any) -> None:
+    client.force_login(staff_manager())
+    page = client.get(reverse("admin:index")).content.decode()
+    assert "fleetfuel · fleet records" in page
+    assert "Django administration" not in page
