@@ -85,6 +85,9 @@ class TankState:
     loading_since: float  # litres x particles per mL burned from ``since`` to ``until``
 
 
+UNLOGGED_LABEL = "fuel burned but not in the fuel log (taken as the tank's last mix)"
+
+
 def tank_capacity(
     *, unit_l: float | None, class_l: float | None, largest_fill_l: float | None
 ) -> tuple[float, str]:
@@ -186,22 +189,46 @@ def _mix(parcels: Sequence[_Parcel], volume: float) -> float:
 
 def _draw(parcels: list[_Parcel], litres: float, counted: bool) -> None:
     """Draw litres at the tank's mix. With nothing coming in the mix does not change, so
-    each parcel gives its share of the tank. More drawn than the books hold (a fueling not
-    recorded) is drawn at the mix of what was last in the tank."""
+    each parcel gives its share of the tank, never more than it holds. More drawn than the
+    books hold (a fueling not recorded) is drawn at the mix of what was last in the tank, and
+    counted as fuel not in the log (a parcel of its own), so no fueling is said to have been
+    burned beyond its own litres."""
     if litres <= 0:
         return
     volume = sum(p.in_tank for p in parcels)
-    if volume <= 0:
-        shares = [(parcels[-1], 1.0)]
-    else:
-        shares = [(p, p.in_tank / volume) for p in parcels if p.in_tank > 0]
-    for parcel, share in shares:
-        taken = litres * share
-        parcel.in_tank = max(0.0, parcel.in_tank - taken)
-        parcel.total += taken
-        if counted:
-            parcel.since += taken
-            parcel.load += taken * parcel.conc
+    held = min(litres, volume)
+    last_conc = _mix(parcels, volume)
+    if held > 0:
+        for parcel in [p for p in parcels if p.in_tank > 0]:
+            _take(parcel, held * parcel.in_tank / volume, counted)
+    excess = litres - held
+    if excess > 0:
+        _take(_unlogged(parcels, last_conc), excess, counted)
+
+
+def _take(parcel: _Parcel, litres: float, counted: bool) -> None:
+    parcel.in_tank = max(0.0, parcel.in_tank - litres)
+    parcel.total += litres
+    if counted:
+        parcel.since += litres
+        parcel.load += litres * parcel.conc
+
+
+def _unlogged(parcels: list[_Parcel], conc: float) -> _Parcel:
+    """The parcel of fuel burned but not in the fuel log, at the tank's last mix."""
+    last = parcels[-1]
+    if last.fill.label == UNLOGGED_LABEL and last.conc == conc:
+        return last
+    fill = Fill(
+        at=last.fill.at,
+        litres=0.0,
+        concentration_per_ml=conc,
+        reference_assumed=last.fill.reference_assumed,
+        label=UNLOGGED_LABEL,
+    )
+    parcel = _Parcel(fill, 0.0)
+    parcels.append(parcel)
+    return parcel
 
 
 def _fill(parcels: list[_Parcel], fill: Fill, capacity_l: float) -> None:

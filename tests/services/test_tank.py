@@ -17,6 +17,7 @@ import pytest
 
 from services.tank import (
     FALLBACK_TANK_L,
+    UNLOGGED_LABEL,
     Fill,
     Measure,
     path_litres,
@@ -129,3 +130,21 @@ def test_bad_numbers_are_refused_by_name() -> None:
     with pytest.raises(ValueError, match="capacity"):
         tank_run(capacity_l=0.0, initial=initial(), fills=[], measures=[], burned=[],
                  since=T0, until=T0)  # fmt: skip
+
+
+def test_burning_more_than_the_log_holds_never_over_counts_a_fueling() -> None:
+    # Mass balance: what is burned is what the tank held plus fuel the log never saw. By hand:
+    # 400 L at 1,000/mL plus DIRTY's 200 L (mix 2,500/mL after 200 L burned) and then 600 L
+    # more burned by day 4 with no fueling: the 400 L in the tank go (200 L of each parcel),
+    # and 200 L come from fuel not in the log, taken at the last mix (2,500/mL).
+    path = [(day(0), 0.0), (day(2), 200.0), (day(4), 800.0)]
+    s = tank_run(capacity_l=400.0, initial=initial(), fills=[DIRTY], measures=[], burned=path,
+                 since=day(0), until=day(4))  # fmt: skip
+    logged = [p for p in s.parcels if p.fill.label != UNLOGGED_LABEL]
+    for parcel in logged[1:]:  # every fueling: burned at most what it put in
+        assert parcel.burned_total <= parcel.fill.litres + 1e-9
+    (unlogged,) = [p for p in s.parcels if p.fill.label == UNLOGGED_LABEL]
+    assert math.isclose(unlogged.burned_total, 200.0)
+    assert math.isclose(s.burned_since, 800.0)
+    # 200 x 1,000 + 400 x 2,500 + 200 x 2,500
+    assert math.isclose(s.loading_since, 200_000.0 + 1_000_000.0 + 500_000.0)
