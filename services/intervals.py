@@ -388,8 +388,9 @@ def _governs_sentence(
     interval = f"the plan's {fmt_hours(plan.interval_hours)} interval ({fmt_hours(plan_hours)})"
     if basis is Basis.CONTAMINANT_BUDGET and percent_used >= 100:
         return (
-            f"Due at {at} by contaminant loading: the filter has already taken the dirt it is "
-            f"rated for ({percent_used:.0f} % of its budget), before {interval}."
+            f"Due at {at} by the dirt estimate: by the fuel it has burned, the filter has used "
+            f"{percent_used:.0f} % of its estimated budget, before {interval}. An estimate, "
+            "not a measurement: a differential-pressure reading confirms or re-bases it."
         )
     if basis is Basis.CONTAMINANT_BUDGET:
         return f"Due at {at} by contaminant loading, before {interval}."

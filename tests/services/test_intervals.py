@@ -353,7 +353,9 @@ def test_exhausted_budget_says_so_in_words() -> None:
         current_concentration_per_ml=4 * CODE_18_UPPER,
     )
     assert p.basis is Basis.CONTAMINANT_BUDGET
-    assert "already taken the dirt it is rated for (107 % of its budget)" in p.explanation[1]
+    # An estimate says it is one (issue: the explanation must not claim what nobody measured).
+    assert "used 107 % of its estimated budget" in p.explanation[1]
+    assert "not a measurement" in p.explanation[1]
     assert p.status is DueStatus.CHECK
 
 
