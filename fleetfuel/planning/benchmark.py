@@ -22,11 +22,12 @@ from fleetfuel.fleet.models import (
 )
 from fleetfuel.ledger.actions import service_events_append
 from fleetfuel.ledger.models import ServiceEvent
+from services.common import DueStatus
 
+from .actions import STATUS_RANK
 from .models import DueItem
 
 STATUSES = ["overdue", "due", "soon", "ok"]
-RANK = {"overdue": 0, "due": 2, "soon": 3, "ok": 4}  # as planning.actions.STATUS_RANK
 OFFSET_DAYS = {"overdue": -3, "due": 1, "soon": 8, "ok": 40}
 
 
@@ -75,7 +76,7 @@ def synthetic_fleet_make(
                     component=comp,
                     task=task,
                     status=status,
-                    rank=RANK[status],
+                    rank=STATUS_RANK[DueStatus(status)],
                     basis="plan_hours",
                     due_hours=1000 + 10 * days,
                     hours_left=10.0 * days,
