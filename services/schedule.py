@@ -75,7 +75,7 @@ def earliest_due(
     )
 
 
-_ORDER = [DueStatus.OVERDUE, DueStatus.CHECK, DueStatus.DUE, DueStatus.SOON, DueStatus.OK]
+_ORDER = list(DueStatus)  # declared from most to least urgent
 
 
 def due_status(

@@ -350,7 +350,10 @@ class FilterPressureReading(models.Model):
         "fuel temperature (°C)",
         null=True,
         blank=True,
-        validators=[MinValueValidator(-50), MaxValueValidator(120)],
+        validators=[
+            MinValueValidator(FUEL_TEMPERATURE_RANGE_C[0]),
+            MaxValueValidator(FUEL_TEMPERATURE_RANGE_C[1]),
+        ],
     )
 
     class Meta:
