@@ -46,6 +46,7 @@ class UnitResult:
     skipped: list[str]  # why a task could not be projected (no plan, no filter fitted)
     current_hours: float  # engine hours now, from the usage forecast
     rate: float  # engine hours per day, from the usage forecast
+    burned: dict[int, float] = field(default_factory=dict)  # litres of each fueling burned
 
 
 @dataclass(frozen=True)
@@ -84,8 +85,24 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
     unit_flags = unit_flags_compute(b, fuel, forecast, now, refused)
     return UnitResult(
         unit.pk, unit.site_id, results, unit_flags, skipped + refused, forecast.current_hours,
-        forecast.rate,
+        forecast.rate, unit_burned(b, fuel, forecast, now),
     )  # fmt: skip
+
+
+def unit_burned(
+    b: UnitInputs, fuel: UnitFuel, forecast: UsageForecast, now: datetime
+) -> dict[int, float]:
+    """Litres of each fueling burned by ``now`` (for the source decisions); none when the
+    records are refused (the filters' tasks say why)."""
+    try:
+        return engine_tank.fuelings_burned(
+            unit=b.unit, paired=fuel.paired,
+            hours=[*((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
+                   (min(now, forecast.as_of), forecast.current_hours)],
+            burn_l_per_h=fuel.burn or b.unit.unit_class.typical_burn_l_per_h or 0.0, now=now,
+        )  # fmt: skip
+    except ValueError:
+        return {}
 
 
 def unit_tasks(

@@ -64,12 +64,7 @@ def tank_loadings(
     now: datetime,
 ) -> TankLoadings:
     """The fuel the filters burned since ``since``, one loading per fueling it came from."""
-    largest = max((f.litres for f, _ in paired), default=None)
-    capacity, capacity_words = tank.tank_capacity(
-        unit_l=unit.tank_capacity_l,
-        class_l=unit.unit_class.typical_tank_l,
-        largest_fill_l=largest,
-    )
+    capacity, capacity_words = unit_capacity(unit=unit, paired=paired)
     fills = []
     measured = {id(s.quality) for s in tank_samples}
     for fueling, quality in paired:
@@ -86,6 +81,7 @@ def tank_loadings(
                 reference_assumed=assumed,
                 label=f"the {fueling.litres:,.0f} L fuelled on {fueling.at:%Y-%m-%d} from "
                 f"{source_names[int(fueling.ref)]}, {words}",
+                ref=fueling.ref,
             )
         )
     measures = []
@@ -124,6 +120,46 @@ def tank_loadings(
         loadings, state.concentration_per_ml, state.reference_assumed, sentence,
         state.loading_since,
     )  # fmt: skip
+
+
+def unit_capacity(*, unit: Unit, paired: Sequence[fi.Paired]) -> tuple[float, str]:
+    """The unit's tank: its own, else its class's, else its largest fueling (services.tank)."""
+    return tank.tank_capacity(
+        unit_l=unit.tank_capacity_l,
+        class_l=unit.unit_class.typical_tank_l,
+        largest_fill_l=max((f.litres for f, _ in paired), default=None),
+    )
+
+
+def fuelings_burned(
+    *,
+    unit: Unit,
+    paired: Sequence[fi.Paired],
+    hours: Sequence[tuple[datetime, float]],
+    burn_l_per_h: float,
+    now: datetime,
+) -> dict[int, float]:
+    """Litres of each fueling (by its id) burned by ``now``: the unit's tank run as
+    :func:`tank_loadings` runs it (well mixed, drawn at the engine hours times the burn).
+    Volumes only: what a fueling's fuel carried does not change how much of it is burned."""
+    capacity, _ = unit_capacity(unit=unit, paired=paired)
+    fills = [
+        tank.Fill(at=f.at, litres=f.litres, concentration_per_ml=0.0, reference_assumed=True,
+                  label=f"fueling {f.ref}", ref=f.ref)
+        for f, _ in paired
+        if f.at <= now
+    ]  # fmt: skip
+    path = hour_path(hours, burn_l_per_h)
+    first_at = min([now, *(f.at for f in fills), *(t for t, _ in path[:1])])
+    initial = tank.Fill(
+        at=first_at, litres=capacity, concentration_per_ml=0.0, reference_assumed=True,
+        label="the fuel in the tank before the first fueling on record",
+    )  # fmt: skip
+    state = tank.tank_run(
+        capacity_l=capacity, initial=initial, fills=fills, measures=[], burned=path,
+        since=now, until=now,
+    )  # fmt: skip
+    return {int(p.fill.ref): p.burned_total for p in state.parcels if p.fill.ref}
 
 
 def source_fuel(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:
