@@ -182,6 +182,7 @@ def _decision_fields(
             names=batch.names,
         ),
         "stands": standing.stands,
+        "particles_over": verdict.particles_over,
         "computed_at": now,
     }
     return fields, reach, verdict.out_of_range
@@ -248,10 +249,13 @@ DIRT_ONLY = Q(
 
 def due_items_mark() -> None:
     """Point each due item the dirt estimate alone puts on the list at the newest open
-    decision that lists its unit (none: cleared); every other item points at none. One
-    update, whatever the number of items or decisions."""
+    decision on particles (a sample over on water only says nothing of filter dirt) that
+    lists its unit (none: cleared); every other item points at none. One update, whatever
+    the number of items or decisions."""
     newest_open = SourceDecisionUnit.objects.filter(
-        unit_id=OuterRef("unit_id"), decision__resolved_at__isnull=True
+        unit_id=OuterRef("unit_id"),
+        decision__resolved_at__isnull=True,
+        decision__particles_over=True,
     ).order_by("-decision__opened_at", "-decision_id")
     DueItem.objects.filter(DIRT_ONLY | Q(source_decision__isnull=False)).update(
         source_decision=Case(

@@ -38,6 +38,11 @@ class SourceDecision(models.Model):
     litres = models.FloatField(default=0.0, help_text="Litres fuelled from it since then.")
     explanation = models.JSONField(default=list)
     stands = models.BooleanField(default=True, help_text="The sample still stands for the tank.")
+    particles_over = models.BooleanField(
+        default=False,
+        help_text="The sample is out of range on particles (not only on water): the units' "
+        "filter items on the dirt estimate alone are shown under it.",
+    )
     computed_at = models.DateTimeField()
     resolved_at = models.DateTimeField(null=True, blank=True)
     resolved_by = models.ForeignKey(

@@ -276,3 +276,12 @@ def test_an_item_of_a_unit_the_decision_does_not_list_is_not_marked(
     due_items_recompute(unit_ids=[u.pk for u in [*two_units, other]], now=NOW)
     assert not DueItem.objects.filter(unit=other, source_decision__isnull=False).exists()
     assert DueItem.objects.filter(unit__in=two_units, source_decision__isnull=False).exists()
+
+
+def test_a_decision_on_water_alone_marks_no_filter_item(tank: Any, two_units: list[Any]) -> None:
+    # 19/17/14 is within two scale numbers of 18/16/13; 780 mg/kg is over EN 590's 200.
+    sample_make(source=tank, at=NOW - timedelta(days=20), code="19/17/14", water=780, ref="S-WET")
+    due_items_recompute(unit_ids=[u.pk for u in two_units], now=NOW)
+    decision = SourceDecision.objects.get()
+    assert decision.is_open and not decision.particles_over
+    assert not DueItem.objects.filter(source_decision__isnull=False).exists()
