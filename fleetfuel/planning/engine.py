@@ -404,7 +404,9 @@ def drain_compute(
     since = last.at if last else now - timedelta(days=plan.drain_interval_days)
     reference_water = plan.reference_water_mg_kg
     coldest = b.unit.site.coldest_fuel_c  # the depot's coldest fuel, where it is set
-    latest = fi.latest_fuel_quality(pairs=fuel.paired)
+    current_water, current_density = fw.current_free_water(
+        pairs=fuel.paired, now=now, reference_mg_kg=reference_water, coldest_c=coldest
+    )
     intakes = [
         water.WaterIntake(
             at=fueling.at,
@@ -434,10 +436,8 @@ def drain_compute(
         burn_l_per_h=fuel.burn
         or plan.reference_burn_l_per_h
         or b.unit.unit_class.typical_burn_l_per_h,
-        current_free_water_mg_kg=fw.free_water_or_reference(
-            quality=latest, reference_mg_kg=reference_water, coldest_c=coldest
-        ),
-        density_kg_l=(latest.density_kg_l if latest else None) or fq.DEFAULT_DENSITY_KG_L,
+        current_free_water_mg_kg=current_water,
+        density_kg_l=current_density,
         forecast=forecast,
         water_in_fuel_since_drain=fl.water_event_since(events=fuel.events, since=since),
         now=now,

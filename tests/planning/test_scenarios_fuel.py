@@ -224,3 +224,30 @@ def test_a_bulk_tank_carries_its_deliveries_and_samples(site: Any, unit_class: A
     assert fine.inputs["current_concentration_per_ml"] == pytest.approx(8.5 * ref)
     labels = fine.inputs["sample_labels"]
     assert any("5,000 L delivery on" in x and "T-2" in x and "S-BULK" in x for x in labels)
+
+
+def test_the_separator_takes_the_water_of_all_the_fuel_now_in_use(
+    site: Any, unit_class: Any
+) -> None:
+    # The fuel now in use is the same for the separator as for the filters: what went in over
+    # the last 14 days (services.fuel_intake.current_fuel), not only the last fueling.
+    wet, dry = f.source_make(name="Wet bowser"), f.source_make(name="Dry tank")
+    sample_make(source=wet, at=NOW - timedelta(days=60), code="18/16/13", water=780, ref="S-W")
+    sample_make(source=dry, at=NOW - timedelta(days=60), code="18/16/13", water=80, ref="S-D")
+    units = {}
+    for name in ("ALL-DRY", "ALL-WET", "HALF"):
+        units[name] = f.unit_make(site=site, unit_class=unit_class, fleet_number=name)
+        history_make(unit=units[name], source=dry, days=30, hours_per_day=10.0)
+    recent = Fueling.objects.filter(fueled_at__gte=NOW - timedelta(days=14)).order_by("pk")
+    recent.filter(unit=units["ALL-WET"]).update(source=wet)
+    half = list(recent.filter(unit=units["HALF"]).values_list("pk", flat=True))
+    assert len(half) == 14  # daily, an hour before each reading: days 17 to 30 of 30
+    Fueling.objects.filter(pk__in=half[::2]).update(source=wet)  # the last one is dry
+    due_items_recompute(unit_ids=[u.pk for u in units.values()], now=NOW)
+    rate = {
+        name: items(u)["separator_drain"].inputs["sample_rate_ml_h"] for name, u in units.items()
+    }
+    # Mass balance (mg/kg is per kilogram of fuel): equal litres of fuel of one density, so
+    # half of each fuel's water per hour. Hand-worked, not by the code under test.
+    assert rate["ALL-WET"] > rate["ALL-DRY"]
+    assert rate["HALF"] == pytest.approx((rate["ALL-WET"] + rate["ALL-DRY"]) / 2, rel=1e-9)
