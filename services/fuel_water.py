@@ -27,12 +27,9 @@ Sources:
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
-from datetime import datetime
 from typing import Final
 
-from services.fuel_intake import Paired, current_fuel
-from services.fuel_quality import DEFAULT_DENSITY_KG_L, FUEL_TEMPERATURE_RANGE_C, FuelQuality
+from services.fuel_quality import FUEL_TEMPERATURE_RANGE_C, FuelQuality
 
 WATER_DENSITY_KG_L: Final = 1.0  # common practice for the mg/kg <-> % vol conversion
 WATER_MOLAR_MASS_G_MOL: Final = 18.015
@@ -144,30 +141,6 @@ def free_water_or_reference(
         temperature_c=temperature,
         fame_pct_v=quality.fame_pct_v if quality is not None else None,
     )
-
-
-def current_free_water(
-    *, pairs: Sequence[Paired], now: datetime, reference_mg_kg: float, coldest_c: float | None
-) -> tuple[float, float]:
-    """(free water mg/kg, density kg/L) of the fuel now in use: the fuelings
-    :func:`services.fuel_intake.current_fuel` takes (the same fuel the filters' current
-    concentration is taken from), each at :func:`free_water_or_reference`, mixed by mass
-    (mg/kg is per kilogram: litres x density), the density by volume. No fuel at all: the
-    reference water in fuel of the default density."""
-    mass = water = litres = 0.0
-    for fueling, quality in current_fuel(pairs=pairs, now=now):
-        density = (quality.density_kg_l if quality else None) or DEFAULT_DENSITY_KG_L
-        kg = fueling.litres * density
-        free = free_water_or_reference(
-            quality=quality, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c
-        )
-        mass, water, litres = mass + kg, water + kg * free, litres + fueling.litres
-    if mass <= 0:
-        free = free_water_or_reference(
-            quality=None, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c
-        )
-        return free, DEFAULT_DENSITY_KG_L
-    return water / mass, mass / litres
 
 
 def mg_kg_to_pct_vol(*, mg_kg: float, density_kg_l: float) -> float:

@@ -96,13 +96,22 @@ def unit_burned(
     records are refused (the filters' tasks say why)."""
     try:
         return engine_tank.fuelings_burned(
-            unit=b.unit, paired=fuel.paired,
-            hours=[*((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
-                   (min(now, forecast.as_of), forecast.current_hours)],
+            unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now),
             burn_l_per_h=fuel.burn or b.unit.unit_class.typical_burn_l_per_h or 0.0, now=now,
         )  # fmt: skip
     except ValueError:
         return {}
+
+
+def tank_hours(
+    b: UnitInputs, forecast: UsageForecast, now: datetime
+) -> list[tuple[datetime, float]]:
+    """(moment, engine hours) the unit's tank is drawn on: its readings up to ``now``, then
+    the forecast's hours now."""
+    return [
+        *((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
+        (min(now, forecast.as_of), forecast.current_hours),
+    ]
 
 
 def unit_tasks(
@@ -334,11 +343,7 @@ def filter_compute(
         tank_samples=fuel.tank_samples,
         sources=fuel.sources,
         channel=channel,
-        hours=[
-            *((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
-            (last_at, last_hours),
-            (min(now, forecast.as_of), forecast.current_hours),
-        ],
+        hours=[*tank_hours(b, forecast, now), (last_at, last_hours)],
         burn_l_per_h=fuel.burn or fplan.reference_burn_l_per_h,
         since=last_at,
     )
@@ -404,9 +409,11 @@ def drain_compute(
     since = last.at if last else now - timedelta(days=plan.drain_interval_days)
     reference_water = plan.reference_water_mg_kg
     coldest = b.unit.site.coldest_fuel_c  # the depot's coldest fuel, where it is set
-    current_water, current_density = fw.current_free_water(
-        pairs=fuel.paired, now=now, reference_mg_kg=reference_water, coldest_c=coldest
-    )
+    burn = fuel.burn or plan.reference_burn_l_per_h or b.unit.unit_class.typical_burn_l_per_h
+    current_water, current_density = engine_tank.tank_water(
+        unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now), burn_l_per_h=burn,
+        now=now, reference_mg_kg=reference_water, coldest_c=coldest,
+    )  # fmt: skip
     intakes = [
         water.WaterIntake(
             at=fueling.at,
@@ -433,9 +440,7 @@ def drain_compute(
         last_drain=last,
         history=records,
         intakes=intakes,
-        burn_l_per_h=fuel.burn
-        or plan.reference_burn_l_per_h
-        or b.unit.unit_class.typical_burn_l_per_h,
+        burn_l_per_h=burn,
         current_free_water_mg_kg=current_water,
         density_kg_l=current_density,
         forecast=forecast,

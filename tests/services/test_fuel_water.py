@@ -7,17 +7,14 @@ below 10 °C was found: there the figures are an extrapolation, checked only for
 from __future__ import annotations
 
 import math
-from datetime import UTC, datetime, timedelta
 
 import pint
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from services import fuel_intake as fi
 from services import fuel_quality as fq
 from services import fuel_water as fw
-from services import water
 from tests.services.test_fuel_quality import quality_make
 
 UREG = pint.UnitRegistry()
@@ -181,45 +178,3 @@ def test_free_water_or_reference_uses_the_sample_where_it_has_water():
     assert fw.free_water_or_reference(
         quality=None, reference_mg_kg=500.0, coldest_c=None
     ) == pytest.approx(500.0 - at(temperature_c=15.0, fame_pct_v=0.0))
-
-
-# --- the fuel now in use ----------------------------------------------------------------
-
-
-def test_current_free_water_mixes_the_current_fuel_by_mass() -> None:
-    # Mass balance of a mix (mg/kg is per kilogram of fuel): water = sum of litres x density
-    # x mg/kg; the density of the mix by volume. Only the last 14 days' fuel is current
-    # (services.fuel_intake.current_fuel), so the 30-day-old wet fuel is left out.
-    now = datetime(2026, 6, 15, 12, tzinfo=UTC)
-
-    def fueled(days_ago: float, litres: float) -> fi.Fueling:
-        return fi.Fueling(at=now - timedelta(days=days_ago), litres=litres, source_id=1, ref="F")
-
-    def wet(mg_kg: float, density: float) -> fq.FuelQuality:
-        return quality_make(water_mg_kg=mg_kg, temperature_c=15.0, density_kg_l=density)
-
-    pairs = [
-        (fueled(30, 500.0), wet(2_000.0, 0.835)),
-        (fueled(5, 300.0), wet(700.0, 0.820)),
-        (fueled(1, 100.0), wet(300.0, 0.845)),
-    ]
-    free, density = fw.current_free_water(
-        pairs=pairs, now=now, reference_mg_kg=80.0, coldest_c=None
-    )
-    each = [
-        fw.free_water_or_reference(quality=q, reference_mg_kg=80.0, coldest_c=None)
-        for _, q in pairs[1:]
-    ]
-    kg = [300.0 * 0.820, 100.0 * 0.845]  # 246 kg and 84.5 kg
-    assert density == pytest.approx((246.0 + 84.5) / 400.0)  # 0.82625 kg/L
-    assert free == pytest.approx((kg[0] * each[0] + kg[1] * each[1]) / (246.0 + 84.5))
-    # What the separator sees over those 400 L: the mL of water the two fuelings carry
-    ml = water.water_ml_from_fuel(litres=400.0, free_water_mg_kg=free, density_kg_l=density)
-    assert ml == pytest.approx((kg[0] * each[0] + kg[1] * each[1]) / 1000.0)  # mg -> g = mL
-
-
-def test_current_free_water_with_no_fuel_is_the_reference_in_default_fuel() -> None:
-    now = datetime(2026, 6, 15, 12, tzinfo=UTC)
-    free, density = fw.current_free_water(pairs=[], now=now, reference_mg_kg=80.0, coldest_c=4.0)
-    assert density == fq.DEFAULT_DENSITY_KG_L
-    assert free == fw.free_water_or_reference(quality=None, reference_mg_kg=80.0, coldest_c=4.0)
