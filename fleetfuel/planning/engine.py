@@ -95,10 +95,10 @@ def unit_burned(
     """Litres of each fueling burned by ``now`` (for the source decisions); none when the
     records are refused (the filters' tasks say why)."""
     try:
-        return engine_tank.fuelings_burned(
+        return engine_tank.tank_now(
             unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now),
             burn_l_per_h=fuel.burn or b.unit.unit_class.typical_burn_l_per_h or 0.0, now=now,
-        )  # fmt: skip
+        )[0]  # fmt: skip
     except ValueError:
         return {}
 

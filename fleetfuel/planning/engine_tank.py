@@ -140,14 +140,16 @@ def tank_now(
     hours: Sequence[tuple[datetime, float]],
     burn_l_per_h: float,
     now: datetime,
-    values: Sequence[float],
-    initial: float,
+    values: Sequence[float] | None = None,
+    initial: float = 0.0,
 ) -> tuple[dict[int, float], float]:
     """The unit's tank run as :func:`tank_loadings` runs it (well mixed, drawn at the engine
     hours times the burn) to ``now``, each fueling carrying its figure in ``values`` (an
-    amount per litre, mixed by volume) and the tank's first contents ``initial``: (litres of
-    each fueling burned by ``now``, by its id; the tank's mix at ``now``)."""
+    amount per litre, mixed by volume; none: 0) and the tank's first contents ``initial``:
+    (litres of each fueling burned by ``now``, by its id; the tank's mix at ``now``). How
+    much of a fueling is burned depends on volumes only, never on what it carried."""
     capacity, _ = unit_capacity(unit=unit, paired=paired)
+    values = [0.0] * len(paired) if values is None else values
     fills = [
         tank.Fill(at=f.at, litres=f.litres, concentration_per_ml=value, reference_assumed=True,
                   label=f"fueling {f.ref}", ref=f.ref)
@@ -166,23 +168,6 @@ def tank_now(
     )  # fmt: skip
     burned = {int(p.fill.ref): p.burned_total for p in state.parcels if p.fill.ref}
     return burned, state.concentration_per_ml
-
-
-def fuelings_burned(
-    *,
-    unit: Unit,
-    paired: Sequence[fi.Paired],
-    hours: Sequence[tuple[datetime, float]],
-    burn_l_per_h: float,
-    now: datetime,
-) -> dict[int, float]:
-    """Litres of each fueling (by its id) burned by ``now``. Volumes only: what a fueling's
-    fuel carried does not change how much of it is burned."""
-    burned, _ = tank_now(
-        unit=unit, paired=paired, hours=hours, burn_l_per_h=burn_l_per_h, now=now,
-        values=[0.0] * len(paired), initial=0.0,
-    )  # fmt: skip
-    return burned
 
 
 def tank_water(
