@@ -197,7 +197,9 @@ def tank_water(
         tank_now, unit=unit, paired=paired, hours=hours, burn_l_per_h=burn_l_per_h, now=now
     )
     _, water = run(values=per_litre, initial=reference * fq.DEFAULT_DENSITY_KG_L)
-    _, density = run(values=densities, initial=fq.DEFAULT_DENSITY_KG_L)
+    density = fq.DEFAULT_DENSITY_KG_L
+    if any(d != density for d in densities):  # one density throughout: nothing to mix
+        _, density = run(values=densities, initial=fq.DEFAULT_DENSITY_KG_L)
     return water / density, density
 
 
