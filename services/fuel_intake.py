@@ -147,12 +147,6 @@ def current_concentration(
     return concentration, reference_litres >= sum(f.litres for f, _ in recent) - 1e-9
 
 
-def latest_fuel_quality(*, pairs: Sequence[Paired]) -> FuelQuality | None:
-    """The quality of the latest fueling's fuel (pairs oldest first): what the separator's
-    water estimate is based on. None with no fuelings or no sample for the latest."""
-    return pairs[-1][1] if pairs else None
-
-
 def measured_burn(
     *, start: tuple[datetime, float], end: tuple[datetime, float], fuelings: Sequence[Fueling]
 ) -> float | None:

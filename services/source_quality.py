@@ -21,7 +21,7 @@ Sources:
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import datetime, timedelta
 from enum import StrEnum
@@ -187,6 +187,7 @@ class Fuelled:
     unit_id: int
     at: datetime
     litres: float
+    ref: int = 0  # the fueling's id, to find how much of it was burned
 
 
 @dataclass(frozen=True, slots=True)
@@ -196,11 +197,23 @@ class UnitReach:
     fuelings: int
     first_at: datetime
     last_at: datetime
+    burned: float | None = None  # litres of it burned by ``end``; None: not worked out
 
 
-def reach_sum(*, fuelings: Sequence[Fuelled], start: datetime, end: datetime) -> list[UnitReach]:
+def reach_sum(
+    *,
+    fuelings: Sequence[Fuelled],
+    start: datetime,
+    end: datetime,
+    burned: Mapping[int, Mapping[int, float]] | None = None,
+) -> list[UnitReach]:
     """Litres each unit took from the source from ``start`` up to and including ``end``,
-    most litres first (ties by unit id)."""
+    most litres first (ties by unit id).
+
+    ``burned`` gives, by unit, the litres of each of its fuelings (by ref) burned by ``end``
+    (its tank model); a unit missing from it has its burned litres not worked out (None), a
+    fueling missing from a unit's map is not yet burned.
+    """
     by_unit: dict[int, list[Fuelled]] = {}
     for f in fuelings:
         if not (math.isfinite(f.litres) and f.litres > 0):
@@ -214,10 +227,22 @@ def reach_sum(*, fuelings: Sequence[Fuelled], start: datetime, end: datetime) ->
             fuelings=len(rows),
             first_at=min(f.at for f in rows),
             last_at=max(f.at for f in rows),
+            burned=sum(burned[unit_id].get(f.ref, 0.0) for f in rows)
+            if burned is not None and unit_id in burned
+            else None,
         )
         for unit_id, rows in by_unit.items()
     ]
     return sorted(reach, key=lambda r: (-r.litres, r.unit_id))
+
+
+def _units(n: int) -> str:
+    return f"{n} unit{'s' if n != 1 else ''}"
+
+
+# The explanation's line with each unit's litres starts with these words (a card that lists
+# the units itself leaves it out).
+UNIT_LINE_PREFIX = "Per unit:"
 
 
 def decision_explain(
@@ -227,17 +252,46 @@ def decision_explain(
     standing: SampleStanding,
     reach_start: datetime,
     reach: Sequence[UnitReach],
+    names: Mapping[int, str] | None = None,
 ) -> list[str]:
     """The decision's explanation: the sample, why it is out of range, the litres it reached
-    (fuel put into the units from the source, not a model of what their engines burned)."""
+    (fuel put into the units from the source) and how much of that the engines have burned
+    (each unit's tank model), then the same per unit (named by ``names``)."""
     lines = [f"{sample_label}: out of range."]
     lines += [f"{reason[0].upper()}{reason[1:]}." for reason in verdict.reasons]
     total = sum(r.litres for r in reach)
-    lines.append(
-        f"Since {reach_start:%Y-%m-%d %H:%M} UTC, {total:,.0f} L were fuelled from this source "
-        f"into {len(reach)} unit{'s' if len(reach) != 1 else ''} (litres put into each unit's "
-        "tank, not litres burned)."
+    known = [r for r in reach if r.burned is not None]
+    burned = sum(r.burned or 0.0 for r in known)
+    units = _units(len(reach))
+    line = (
+        f"Since {reach_start:%Y-%m-%d %H:%M} UTC, {total:,.0f} L were fuelled from this "
+        f"source into {units}"
     )
+    if not reach:
+        lines.append(line + ".")
+    elif len(known) == len(reach):
+        lines.append(
+            f"{line}; {burned:,.0f} L of it has been burned by now, the rest is still in their "
+            "tanks (each tank taken as well mixed, drawn at the unit's engine hours)."
+        )
+    elif known:
+        lines.append(
+            f"{line}; of the {sum(r.litres for r in known):,.0f} L that went into the "
+            f"{_units(len(known))} worked out so far, {burned:,.0f} L has been burned by now."
+        )
+    else:
+        lines.append(f"{line} (litres put in; litres burned not yet worked out).")
+    if reach:
+        name = names or {}
+        lines.append(
+            f"{UNIT_LINE_PREFIX} "
+            + "; ".join(
+                f"{name.get(r.unit_id, f'unit {r.unit_id}')} fuelled {r.litres:,.0f} L"
+                + (f", burned {r.burned:,.0f} L" if r.burned is not None else "")
+                for r in reach
+            )
+            + "."
+        )
     if not standing.stands:
         lines.append(f"The sample no longer stands for the tank: {standing.reason}. Resample.")
     return lines

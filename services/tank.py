@@ -44,6 +44,7 @@ class Fill:
     concentration_per_ml: float
     reference_assumed: bool  # no sample said what it carried: the plan's reference fuel
     label: str  # names the fueling or delivery and the sample that describes it
+    ref: str = ""  # the fueling's id, where it is one: to say how much of it was burned
 
     def __post_init__(self) -> None:
         number_check(f"{self.label}: litres", self.litres)

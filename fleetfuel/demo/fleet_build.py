@@ -103,6 +103,7 @@ class FleetBuilder:
                 name=spec.name,
                 typical_hours_per_day=spec.hours_per_day,
                 typical_burn_l_per_h=spec.burn_l_per_h,
+                typical_tank_l=spec.tank_l,
             )
             self.classes[key] = uc
             ServicePlan.objects.create(

@@ -23,14 +23,18 @@ class ClassSpec:
     make: str
     model: str
     works_weekends: bool
+    tank_l: float  # the class's typical fuel tank: above its largest demo fueling
 
 
+# Invented tanks: each holds the most the demo ever puts in at once (fuelled every one to three
+# days: a hauler's largest is about 1,050 L, a loader's 650 L, an excavator's 450 L, a
+# generator set's 2,400 L, a workboat's 880 L).
 CLASSES = {
-    "hauler": ClassSpec("Articulated hauler", 9.0, 24.0, 6, "Brackwater", "AH-30", False),
-    "loader": ClassSpec("Wheel loader", 7.5, 17.0, 6, "Brackwater", "WL-220", False),
-    "excavator": ClassSpec("Tracked excavator", 6.5, 15.0, 6, "Orrin", "TX-35", False),
-    "genset": ClassSpec("Generator set", 15.0, 38.0, 12, "Selby Power", "G-500", True),
-    "workboat": ClassSpec("Workboat", 5.0, 42.0, 8, "Tidewright", "WB-16", True),
+    "hauler": ClassSpec("Articulated hauler", 9.0, 24.0, 6, "Brackwater", "AH-30", False, 1100),
+    "loader": ClassSpec("Wheel loader", 7.5, 17.0, 6, "Brackwater", "WL-220", False, 700),
+    "excavator": ClassSpec("Tracked excavator", 6.5, 15.0, 6, "Orrin", "TX-35", False, 600),
+    "genset": ClassSpec("Generator set", 15.0, 38.0, 12, "Selby Power", "G-500", True, 2500),
+    "workboat": ClassSpec("Workboat", 5.0, 42.0, 8, "Tidewright", "WB-16", True, 1500),
 }
 
 SITES = [

@@ -87,8 +87,11 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
     batch = batch_inputs_load(unit_ids=unit_ids, now=now)
     items: list[DueItem] = []
     flags: list[UnitFlag] = []
+    burned: dict[int, dict[int, float]] = {}  # litres of each fueling burned, by unit
     for bundle in batch.units:
         result = unit_compute(bundle, batch, now)
+        if result.burned:
+            burned[result.unit_id] = result.burned
         for cp in result.projections:
             p = cp.projection
             items.append(
@@ -149,7 +152,7 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             for unit_id, marked_at in marks:
                 seen |= Q(unit_id=unit_id, marked_at=marked_at)
             StaleProjection.objects.filter(seen).delete()
-    source_decisions_recompute(now=now)  # the sources' decisions, after their units
+    source_decisions_recompute(now=now, burned=burned)  # the sources' decisions, after units
     return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))
 
 

@@ -46,6 +46,7 @@ class UnitResult:
     skipped: list[str]  # why a task could not be projected (no plan, no filter fitted)
     current_hours: float  # engine hours now, from the usage forecast
     rate: float  # engine hours per day, from the usage forecast
+    burned: dict[int, float] = field(default_factory=dict)  # litres of each fueling burned
 
 
 @dataclass(frozen=True)
@@ -84,8 +85,33 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
     unit_flags = unit_flags_compute(b, fuel, forecast, now, refused)
     return UnitResult(
         unit.pk, unit.site_id, results, unit_flags, skipped + refused, forecast.current_hours,
-        forecast.rate,
+        forecast.rate, unit_burned(b, fuel, forecast, now),
     )  # fmt: skip
+
+
+def unit_burned(
+    b: UnitInputs, fuel: UnitFuel, forecast: UsageForecast, now: datetime
+) -> dict[int, float]:
+    """Litres of each fueling burned by ``now`` (for the source decisions); none when the
+    records are refused (the filters' tasks say why)."""
+    try:
+        return engine_tank.tank_now(
+            unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now),
+            burn_l_per_h=fuel.burn or b.unit.unit_class.typical_burn_l_per_h or 0.0, now=now,
+        )[0]  # fmt: skip
+    except ValueError:
+        return {}
+
+
+def tank_hours(
+    b: UnitInputs, forecast: UsageForecast, now: datetime
+) -> list[tuple[datetime, float]]:
+    """(moment, engine hours) the unit's tank is drawn on: its readings up to ``now``, then
+    the forecast's hours now."""
+    return [
+        *((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
+        (min(now, forecast.as_of), forecast.current_hours),
+    ]
 
 
 def unit_tasks(
@@ -317,11 +343,7 @@ def filter_compute(
         tank_samples=fuel.tank_samples,
         sources=fuel.sources,
         channel=channel,
-        hours=[
-            *((r.at, engine_hours_at(b, r.at, r.hours)) for r in b.readings if r.at <= now),
-            (last_at, last_hours),
-            (min(now, forecast.as_of), forecast.current_hours),
-        ],
+        hours=[*tank_hours(b, forecast, now), (last_at, last_hours)],
         burn_l_per_h=fuel.burn or fplan.reference_burn_l_per_h,
         since=last_at,
     )
@@ -387,7 +409,11 @@ def drain_compute(
     since = last.at if last else now - timedelta(days=plan.drain_interval_days)
     reference_water = plan.reference_water_mg_kg
     coldest = b.unit.site.coldest_fuel_c  # the depot's coldest fuel, where it is set
-    latest = fi.latest_fuel_quality(pairs=fuel.paired)
+    burn = fuel.burn or plan.reference_burn_l_per_h or b.unit.unit_class.typical_burn_l_per_h
+    current_water, current_density = engine_tank.tank_water(
+        unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now), burn_l_per_h=burn,
+        now=now, reference_mg_kg=reference_water, coldest_c=coldest,
+    )  # fmt: skip
     intakes = [
         water.WaterIntake(
             at=fueling.at,
@@ -414,13 +440,9 @@ def drain_compute(
         last_drain=last,
         history=records,
         intakes=intakes,
-        burn_l_per_h=fuel.burn
-        or plan.reference_burn_l_per_h
-        or b.unit.unit_class.typical_burn_l_per_h,
-        current_free_water_mg_kg=fw.free_water_or_reference(
-            quality=latest, reference_mg_kg=reference_water, coldest_c=coldest
-        ),
-        density_kg_l=(latest.density_kg_l if latest else None) or fq.DEFAULT_DENSITY_KG_L,
+        burn_l_per_h=burn,
+        current_free_water_mg_kg=current_water,
+        density_kg_l=current_density,
         forecast=forecast,
         water_in_fuel_since_drain=fl.water_event_since(events=fuel.events, since=since),
         now=now,

@@ -11,11 +11,13 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
+from functools import partial
 
 from fleetfuel.fleet.models import Unit
 from services import filter_inputs, tank
 from services import fuel_intake as fi
 from services import fuel_quality as fq
+from services import fuel_water as fw
 
 
 @dataclass(frozen=True)
@@ -64,12 +66,7 @@ def tank_loadings(
     now: datetime,
 ) -> TankLoadings:
     """The fuel the filters burned since ``since``, one loading per fueling it came from."""
-    largest = max((f.litres for f, _ in paired), default=None)
-    capacity, capacity_words = tank.tank_capacity(
-        unit_l=unit.tank_capacity_l,
-        class_l=unit.unit_class.typical_tank_l,
-        largest_fill_l=largest,
-    )
+    capacity, capacity_words = unit_capacity(unit=unit, paired=paired)
     fills = []
     measured = {id(s.quality) for s in tank_samples}
     for fueling, quality in paired:
@@ -86,6 +83,7 @@ def tank_loadings(
                 reference_assumed=assumed,
                 label=f"the {fueling.litres:,.0f} L fuelled on {fueling.at:%Y-%m-%d} from "
                 f"{source_names[int(fueling.ref)]}, {words}",
+                ref=fueling.ref,
             )
         )
     measures = []
@@ -124,6 +122,85 @@ def tank_loadings(
         loadings, state.concentration_per_ml, state.reference_assumed, sentence,
         state.loading_since,
     )  # fmt: skip
+
+
+def unit_capacity(*, unit: Unit, paired: Sequence[fi.Paired]) -> tuple[float, str]:
+    """The unit's tank: its own, else its class's, else its largest fueling (services.tank)."""
+    return tank.tank_capacity(
+        unit_l=unit.tank_capacity_l,
+        class_l=unit.unit_class.typical_tank_l,
+        largest_fill_l=max((f.litres for f, _ in paired), default=None),
+    )
+
+
+def tank_now(
+    *,
+    unit: Unit,
+    paired: Sequence[fi.Paired],
+    hours: Sequence[tuple[datetime, float]],
+    burn_l_per_h: float,
+    now: datetime,
+    values: Sequence[float] | None = None,
+    initial: float = 0.0,
+) -> tuple[dict[int, float], float]:
+    """The unit's tank run as :func:`tank_loadings` runs it (well mixed, drawn at the engine
+    hours times the burn) to ``now``, each fueling carrying its figure in ``values`` (an
+    amount per litre, mixed by volume; none: 0) and the tank's first contents ``initial``:
+    (litres of each fueling burned by ``now``, by its id; the tank's mix at ``now``). How
+    much of a fueling is burned depends on volumes only, never on what it carried."""
+    capacity, _ = unit_capacity(unit=unit, paired=paired)
+    values = [0.0] * len(paired) if values is None else values
+    fills = [
+        tank.Fill(at=f.at, litres=f.litres, concentration_per_ml=value, reference_assumed=True,
+                  label=f"fueling {f.ref}", ref=f.ref)
+        for (f, _), value in zip(paired, values, strict=True)
+        if f.at <= now
+    ]  # fmt: skip
+    path = hour_path(hours, burn_l_per_h)
+    first_at = min([now, *(f.at for f in fills), *(t for t, _ in path[:1])])
+    first = tank.Fill(
+        at=first_at, litres=capacity, concentration_per_ml=initial, reference_assumed=True,
+        label="the fuel in the tank before the first fueling on record",
+    )  # fmt: skip
+    state = tank.tank_run(
+        capacity_l=capacity, initial=first, fills=fills, measures=[], burned=path,
+        since=now, until=now,
+    )  # fmt: skip
+    burned = {int(p.fill.ref): p.burned_total for p in state.parcels if p.fill.ref}
+    return burned, state.concentration_per_ml
+
+
+def tank_water(
+    *,
+    unit: Unit,
+    paired: Sequence[fi.Paired],
+    hours: Sequence[tuple[datetime, float]],
+    burn_l_per_h: float,
+    now: datetime,
+    reference_mg_kg: float,
+    coldest_c: float | None,
+) -> tuple[float, float]:
+    """(free water mg/kg, density kg/L) of the fuel in the unit's tank now: the fuel the
+    filters' current concentration comes from, mixed the same way. Each fueling's free water
+    is ``services.fuel_water.free_water_or_reference``'s; mg/kg is per kilogram, so the tank
+    mixes the water per litre (mg/kg x kg/L) and the density, and divides."""
+    densities = [(q.density_kg_l if q else None) or fq.DEFAULT_DENSITY_KG_L for _, q in paired]
+    per_litre = [
+        fw.free_water_or_reference(quality=q, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c)
+        * density
+        for (_, q), density in zip(paired, densities, strict=True)
+    ]
+    reference = fw.free_water_or_reference(
+        quality=None, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c
+    )
+    run = partial(
+        tank_now, unit=unit, paired=paired, hours=hours, burn_l_per_h=burn_l_per_h, now=now
+    )
+    _, water = run(values=per_litre, initial=reference * fq.DEFAULT_DENSITY_KG_L)
+    density = fq.DEFAULT_DENSITY_KG_L
+    if any(d != density for d in densities):  # one density throughout: nothing to mix
+        _, density = run(values=densities, initial=fq.DEFAULT_DENSITY_KG_L)
+    return water / density, density
 
 
 def source_fuel(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:

@@ -56,6 +56,12 @@ class DueItem(models.Model):
     projection_stale = models.BooleanField(
         default=False, help_text="A recompute of this unit is owed (its inputs changed since)."
     )
+    # Set by the source decisions' recompute: the open decision on the fuel source whose
+    # out-of-range fuel reached the unit, when the dirt estimate is all that puts this item on
+    # the list (the due list shows it under that decision rather than as a row of its own).
+    source_decision = models.ForeignKey(
+        SourceDecision, on_delete=models.SET_NULL, related_name="items", null=True, blank=True
+    )
 
     class Meta:
         ordering = ["due_on", "unit_id", "task"]

@@ -4,13 +4,14 @@ and record a manager's resolution. The rules are ``services.source_quality``'s."
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass, field
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
 from datetime import datetime
 from typing import Any
 
 from django.conf import settings
 from django.db import IntegrityError, transaction
-from django.db.models import OuterRef, Subquery
+from django.db.models import Case, OuterRef, Q, Subquery, When
 
 from fleetfuel.fleet.models import (
     FILTER_KINDS,
@@ -21,8 +22,10 @@ from fleetfuel.fleet.models import (
     ServicePlan,
 )
 from services import source_quality as sq
+from services.common import Basis, DueStatus, TaskKind
 from services.fuel_quality import Codes, parse_iso4406
 
+from .models import DueItem
 from .source_models import SourceDecision, SourceDecisionUnit
 
 logger = logging.getLogger(__name__)
@@ -71,10 +74,15 @@ class _Batch:
     starts: dict[int, datetime] = field(default_factory=dict)  # reach start, by sample
     fuelled: dict[int, list[sq.Fuelled]] = field(default_factory=dict)  # by source
     unit_class: dict[int, int] = field(default_factory=dict)
+    names: dict[int, str] = field(default_factory=dict)  # fleet numbers, by unit
     refs: dict[int, list[Codes]] = field(default_factory=dict)  # by unit class
+    # Litres of each fueling burned, by unit (the units the projection run just computed),
+    # and, for the others, what the open decisions last said: by (decision, unit).
+    burned: Mapping[int, Mapping[int, float]] = field(default_factory=dict)
+    burned_before: dict[tuple[int, int], float | None] = field(default_factory=dict)
 
 
-def _batch_load(*, now: datetime) -> _Batch | None:
+def _batch_load(*, now: datetime, burned: Mapping[int, Mapping[int, float]]) -> _Batch | None:
     latest = FuelSample.objects.filter(source_id=OuterRef("pk"), sampled_at__lte=now).order_by(
         "-sampled_at", "-pk"
     )
@@ -93,7 +101,7 @@ def _batch_load(*, now: datetime) -> _Batch | None:
             "sample_id", flat=True
         )
     )  # 4
-    batch = _Batch(sources, samples, open_by_sample, decided)
+    batch = _Batch(sources, samples, open_by_sample, decided, burned=burned)
     source_ids = {s.source_id for s in samples.values()}
     delivered: dict[int, datetime] = {}
     for pk, source_id, at in Delivery.objects.filter(source_id__in=source_ids).values_list(
@@ -107,24 +115,48 @@ def _batch_load(*, now: datetime) -> _Batch | None:
             delivery_at=delivered.get(s.delivery_id) if s.delivery_id else None,
             deliveries_at=batch.deliveries.get(s.source_id, []),
         )
-    for unit_id, source_id, at, litres, class_id in Fueling.objects.filter(
+    for pk, unit_id, source_id, at, litres, class_id, name in Fueling.objects.filter(
         source_id__in=source_ids, fueled_at__gte=min(batch.starts.values()), fueled_at__lte=now
-    ).values_list("unit_id", "source_id", "fueled_at", "litres", "unit__unit_class_id"):  # 6
-        fuelling = sq.Fuelled(unit_id=unit_id, at=at, litres=litres)
+    ).values_list(
+        "pk", "unit_id", "source_id", "fueled_at", "litres", "unit__unit_class_id",
+        "unit__fleet_number",
+    ):  # 6  # fmt: skip
+        fuelling = sq.Fuelled(unit_id=unit_id, at=at, litres=litres, ref=pk)
         batch.fuelled.setdefault(source_id, []).append(fuelling)
         batch.unit_class[unit_id] = class_id
+        batch.names[unit_id] = name
     batch.refs = _references_by_class()  # 7
+    if open_by_sample:
+        batch.burned_before = {
+            (d, u): b
+            for d, u, b in SourceDecisionUnit.objects.filter(
+                decision__resolved_at__isnull=True
+            ).values_list("decision_id", "unit_id", "litres_burned")
+        }  # 8, only with decisions open
     return batch
 
 
 def _decision_fields(
-    *, batch: _Batch, sample: FuelSample, standing: sq.SampleStanding, now: datetime
+    *,
+    batch: _Batch,
+    sample: FuelSample,
+    standing: sq.SampleStanding,
+    now: datetime,
+    decision_id: int | None,
 ) -> tuple[dict[str, Any], list[sq.UnitReach], bool]:
     """The decision's derived fields, the units reached, and whether the sample is out of
-    range against the cleanest filter-plan reference of the units it reached."""
+    range against the cleanest filter-plan reference of the units it reached. A unit the
+    projection run did not just compute keeps the litres burned the decision last gave it."""
     source = batch.sources[sample.source_id]
     start = batch.starts[sample.pk]
-    reach = sq.reach_sum(fuelings=batch.fuelled.get(source.pk, []), start=start, end=now)
+    reach = [
+        r
+        if r.burned is not None
+        else replace(r, burned=batch.burned_before.get((decision_id or 0, r.unit_id)))
+        for r in sq.reach_sum(
+            fuelings=batch.fuelled.get(source.pk, []), start=start, end=now, burned=batch.burned
+        )
+    ]
     reference = sq.reference_strictest(
         references=[c for r in reach for c in batch.refs.get(batch.unit_class[r.unit_id], [])]
     )
@@ -147,8 +179,10 @@ def _decision_fields(
             standing=standing,
             reach_start=start,
             reach=reach,
+            names=batch.names,
         ),
         "stands": standing.stands,
+        "particles_over": verdict.particles_over,
         "computed_at": now,
     }
     return fields, reach, verdict.out_of_range
@@ -161,6 +195,7 @@ def _reached_replace(*, decision: SourceDecision, reach: list[sq.UnitReach]) -> 
             decision=decision,
             unit_id=r.unit_id,
             litres=round(r.litres, 1),
+            litres_burned=round(r.burned, 1) if r.burned is not None else None,
             fuelings=r.fuelings,
             first_at=r.first_at,
             last_at=r.last_at,
@@ -169,17 +204,24 @@ def _reached_replace(*, decision: SourceDecision, reach: list[sq.UnitReach]) -> 
     )
 
 
-def source_decisions_recompute(*, now: datetime) -> SourceRecompute:
+def source_decisions_recompute(
+    *, now: datetime, burned: Mapping[int, Mapping[int, float]] | None = None
+) -> SourceRecompute:
     """Open a decision for each source whose latest sample stands and is out of range, and
-    refresh the open ones (units reached, litres, whether the sample still stands); an open
-    decision whose sample a later one replaced closes as superseded.
+    refresh the open ones (units reached, litres fuelled and burned, whether the sample still
+    stands); an open decision whose sample a later one replaced closes as superseded. Then
+    mark the due items an open decision stands for (:func:`due_items_mark`).
+
+    ``burned``: by unit, the litres of each fueling burned by ``now`` (the engine's tank
+    model, for the units just projected); the other units keep what their decision last said.
 
     Idempotent: one decision per source and sample, ever (a resolved one is never reopened).
-    Seven queries and the writes, whatever the number of sources.
+    Eight queries (seven with no decision open) and the writes, whatever the number of
+    sources.
     """
     counts = {"opened": 0, "refreshed": 0, "superseded": 0}
-    batch = _batch_load(now=now)
-    if batch is None:
+    batch = _batch_load(now=now, burned=burned or {})
+    if batch is None:  # no sample at all, so no decision (a sample's go with it)
         return SourceRecompute(**counts)
     with transaction.atomic():
         for sample in batch.samples.values():
@@ -192,7 +234,34 @@ def source_decisions_recompute(*, now: datetime) -> SourceRecompute:
                 continue
             if done:
                 counts[done] += 1
+        due_items_mark()
     return SourceRecompute(**counts)
+
+
+# What the dirt estimate alone puts on the due list: a filter whose estimate governs its due
+# point (or has run out: "check"); never overdue (services.filter_status).
+DIRT_ONLY = Q(
+    task__in=[TaskKind.PRIMARY_FILTER.value, TaskKind.FINE_FILTER.value],
+    basis=Basis.CONTAMINANT_BUDGET.value,
+    status__in=[DueStatus.CHECK.value, DueStatus.DUE.value, DueStatus.SOON.value],
+)
+
+
+def due_items_mark() -> None:
+    """Point each due item the dirt estimate alone puts on the list at the newest open
+    decision on particles (a sample over on water only says nothing of filter dirt) that
+    lists its unit (none: cleared); every other item points at none. One update, whatever
+    the number of items or decisions."""
+    newest_open = SourceDecisionUnit.objects.filter(
+        unit_id=OuterRef("unit_id"),
+        decision__resolved_at__isnull=True,
+        decision__particles_over=True,
+    ).order_by("-decision__opened_at", "-decision_id")
+    DueItem.objects.filter(DIRT_ONLY | Q(source_decision__isnull=False)).update(
+        source_decision=Case(
+            When(DIRT_ONLY, then=Subquery(newest_open.values("decision_id")[:1])), default=None
+        )
+    )
 
 
 def _sample_decide(*, batch: _Batch, sample: FuelSample, now: datetime) -> str | None:
@@ -218,7 +287,10 @@ def _sample_decide(*, batch: _Batch, sample: FuelSample, now: datetime) -> str |
         return "superseded"
     if decision is None and not standing.stands:
         return None
-    fields, reach, out = _decision_fields(batch=batch, sample=sample, standing=standing, now=now)
+    fields, reach, out = _decision_fields(
+        batch=batch, sample=sample, standing=standing, now=now,
+        decision_id=decision.pk if decision else None,
+    )  # fmt: skip
     if decision is None and not out:
         return None
     if decision is not None:

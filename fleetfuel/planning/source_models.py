@@ -11,6 +11,8 @@ from django.conf import settings
 from django.db import models
 from django.db.models import Q
 
+from services.source_quality import UNIT_LINE_PREFIX
+
 
 class SourceDecision(models.Model):
     class Outcome(models.TextChoices):
@@ -36,6 +38,11 @@ class SourceDecision(models.Model):
     litres = models.FloatField(default=0.0, help_text="Litres fuelled from it since then.")
     explanation = models.JSONField(default=list)
     stands = models.BooleanField(default=True, help_text="The sample still stands for the tank.")
+    particles_over = models.BooleanField(
+        default=False,
+        help_text="The sample is out of range on particles (not only on water): the units' "
+        "filter items on the dirt estimate alone are shown under it.",
+    )
     computed_at = models.DateTimeField()
     resolved_at = models.DateTimeField(null=True, blank=True)
     resolved_by = models.ForeignKey(
@@ -73,6 +80,11 @@ class SourceDecision(models.Model):
     def is_open(self) -> bool:
         return self.resolved_at is None
 
+    @property
+    def headline(self) -> list[str]:
+        """The explanation without its line per unit (for a card that lists the units)."""
+        return [line for line in self.explanation if not line.startswith(UNIT_LINE_PREFIX)]
+
 
 class SourceDecisionUnit(models.Model):
     """A unit the out-of-range fuel reached: the litres it took from the source since."""
@@ -80,6 +92,12 @@ class SourceDecisionUnit(models.Model):
     decision = models.ForeignKey(SourceDecision, on_delete=models.CASCADE, related_name="reached")
     unit = models.ForeignKey("fleet.Unit", on_delete=models.CASCADE, related_name="+")
     litres = models.FloatField()
+    litres_burned = models.FloatField(
+        null=True,
+        blank=True,
+        help_text="Litres of that fuel burned by the unit's last projection (its tank model); "
+        "empty: not worked out.",
+    )
     fuelings = models.PositiveIntegerField()
     first_at = models.DateTimeField()
     last_at = models.DateTimeField()

@@ -11,6 +11,7 @@ same ``now`` as the build.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterator
 from dataclasses import dataclass, replace
 from datetime import datetime, timedelta
@@ -30,6 +31,7 @@ from django.urls import reverse
 from fleetfuel.fleet.models import EngineEvent, Fueling, FuelSample, MeterReading, Site, Unit
 from fleetfuel.ledger.models import ChainCheckpoint, ServiceEvent
 from fleetfuel.planning.models import DueItem, UnitFlag
+from fleetfuel.planning.source_models import SourceDecision
 from fleetfuel.workorders.models import WorkOrder
 
 DECOY_CLOCK = datetime.fromisoformat("2031-07-15T12:00:00Z")  # the wall clock of --now builds
@@ -134,6 +136,36 @@ def test_demo_no_item_is_overdue_on_the_dirt_estimate_alone(at_demo_now: Instant
     for item in kestrel:
         assert item.explanation[0].startswith("Check before changing")
         assert any("FS-D001" in x and "burned so far" in x for x in item.explanation)
+
+
+def test_demo_dirty_delivery_is_one_decision_with_the_litres_each_unit_burned(
+    at_demo_now: Instant,
+) -> None:
+    decisions = SourceDecision.objects.filter(resolved_at__isnull=True, particles_over=True)
+    decision = decisions.select_related("sample").get()  # one, for the dirty delivery
+    assert decision.sample.reference == "FS-D001"
+    reached = list(decision.reached.select_related("unit"))
+    assert len(reached) >= 10 and all(r.unit.fleet_number.startswith("KQ-") for r in reached)
+    # Each unit's tank is its class's (the demo's invented sizes), never its largest fueling;
+    # well mixed, some but not all of the dirty fuel has been burned (common practice).
+    assert all(r.litres_burned is not None and 0 < r.litres_burned < r.litres for r in reached)
+    text = " ".join(decision.explanation)
+    assert "FS-D001" in text and "has been burned by now" in text
+    said = re.search(r"([\d,]+) L of it has been burned by now", text)
+    assert said is not None  # the total is the units' own, each stored to 0.1 L
+    burned = sum(r.litres_burned or 0.0 for r in reached)
+    assert float(said.group(1).replace(",", "")) == pytest.approx(burned, abs=1.0)
+    # The Kestrel filters waiting on a dP check for the dirt estimate alone stand under it.
+    checks = DueItem.objects.filter(site__code="kestrel", status="check")
+    assert checks.exists()
+    assert set(checks.values_list("source_decision", flat=True)) == {decision.pk}
+    assert (
+        not DueItem.objects.exclude(site__code="kestrel")
+        .filter(source_decision__isnull=False)
+        .exists()
+    )
+    for item in DueItem.objects.filter(task="fine_filter", site__code="kestrel"):
+        assert any("the class's typical" in line for line in item.explanation)
 
 
 def test_demo_ledger_verifies_against_its_checkpoints(at_demo_now: Instant) -> None:

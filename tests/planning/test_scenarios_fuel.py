@@ -27,8 +27,10 @@ from fleetfuel.fleet.models import (
 )
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem
+from services import fuel_water as fw
 from tests import factories as f
 from tests.planning.builders import history_make, sample_make
+from tests.services.test_fuel_quality import quality_make
 
 NOW = f.NOW  # 2026-06-15 12:00 UTC
 FILTERS = [ComponentKind.PRIMARY_FILTER, ComponentKind.FINE_FILTER]
@@ -224,3 +226,40 @@ def test_a_bulk_tank_carries_its_deliveries_and_samples(site: Any, unit_class: A
     assert fine.inputs["current_concentration_per_ml"] == pytest.approx(8.5 * ref)
     labels = fine.inputs["sample_labels"]
     assert any("5,000 L delivery on" in x and "T-2" in x and "S-BULK" in x for x in labels)
+
+
+def test_the_separator_takes_the_water_of_the_fuel_in_the_tank_mixed_as_the_filters_fuel(
+    site: Any, unit_class: Any
+) -> None:
+    # One rule for the fuel now in use, for the filters and the separator: the unit's tank,
+    # well mixed. Two units of 2,000 L tanks fuelled daily with a day's 200 L from a tank at
+    # the plan's reference water (200 mg/kg: EN 590's limit); the second's last fueling, an
+    # hour ago, came from a wet bowser (780 mg/kg). Its tank, full after each fueling, now
+    # holds 200 L of wet fuel in 2,000 L: a tenth by volume, whatever the hour since burned.
+    wet, dry = f.source_make(name="Wet bowser"), f.source_make(name="Dry tank")
+    sample_make(source=wet, at=NOW - timedelta(days=60), code="18/16/13", water=780, ref="S-W")
+    sample_make(source=dry, at=NOW - timedelta(days=60), code="18/16/13", water=200, ref="S-D")
+    units = {}
+    for name in ("DRY", "LAST-WET"):
+        units[name] = f.unit_make(site=site, unit_class=unit_class, fleet_number=name)
+        units[name].tank_capacity_l = 2000.0
+        units[name].save(update_fields=["tank_capacity_l"])
+        history_make(unit=units[name], source=dry, days=30, hours_per_day=10.0)
+    last = Fueling.objects.filter(unit=units["LAST-WET"]).order_by("-fueled_at").first()
+    assert last is not None and last.litres == 200.0
+    Fueling.objects.filter(pk=last.pk).update(source=wet)
+    due_items_recompute(unit_ids=[u.pk for u in units.values()], now=NOW)
+    rate = {n: items(u)["separator_drain"].inputs["sample_rate_ml_h"] for n, u in units.items()}
+    # Each fuel's free water at the samples' 15 °C, petroleum diesel (the fuel_water tests
+    # check it against Hibbard and Schalla); the water per hour scales with the free water of
+    # the mix, a tenth wet and nine tenths dry (one density: mg/kg mixes as litres do).
+    free = {
+        w: fw.free_water_or_reference(
+            quality=quality_make(water_mg_kg=w, temperature_c=15.0, fame_pct_v=0.0),
+            reference_mg_kg=200.0,
+            coldest_c=None,
+        )
+        for w in (200.0, 780.0)
+    }
+    mix = 0.9 * free[200.0] + 0.1 * free[780.0]
+    assert rate["LAST-WET"] == pytest.approx(rate["DRY"] * mix / free[200.0], rel=1e-6)

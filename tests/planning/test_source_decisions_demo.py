@@ -64,7 +64,12 @@ def test_the_dirty_delivery_lists_the_kestrel_units_fuelled_since(demo: None, db
     assert len(reached) >= 10 and all(n.startswith("KQ-") for n in reached)
     text = " ".join(decision.explanation)
     assert "FS-D001" in text and "22/20/17" in text
-    assert f"{sum(expected.values()):,.0f} L" in text and "not litres burned" in text
+    assert f"{sum(expected.values()):,.0f} L" in text and "has been burned by now" in text
+    # The demo projects every unit: each one's burned litres are worked out, and a
+    # well-mixed tank has burned some but never all of what went in since (common practice).
+    for r in decision.reached.select_related("unit"):
+        assert r.litres_burned is not None and 0 < r.litres_burned < r.litres
+        assert f"{r.unit.fleet_number} fuelled {r.litres:,.0f} L, burned " in text
 
 
 def test_the_wet_delivery_is_a_decision_for_water(demo: None, db: Any) -> None:

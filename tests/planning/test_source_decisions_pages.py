@@ -10,7 +10,7 @@ from typing import Any
 import pytest
 from django.urls import reverse
 
-from fleetfuel.planning.source_decisions import source_decisions_recompute
+from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.source_models import SourceDecision
 from tests import factories as f
 from tests.planning.builders import history_make, sample_make
@@ -25,7 +25,7 @@ def decision(clock_at_now: Any, site: Any, unit_class: Any) -> SourceDecision:
     history_make(unit=unit, source=tank, days=10, hours_per_day=6.0, burn_l_per_h=20.0)
     # 22/20/17: four ISO 4406 scale numbers over the WWFC 6th ed. 18/16/13 at >=4 um(c).
     sample_make(source=tank, at=NOW - timedelta(days=4, hours=2), code="22/20/17", ref="S-77")
-    source_decisions_recompute(now=NOW)
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)  # the projection run, then the sources
     return SourceDecision.objects.get()
 
 
@@ -37,8 +37,24 @@ def test_the_due_list_shows_one_card_with_the_units_and_litres(
     assert "North bulk tank: polish, quarantine or resample this tank" in html
     # Fuelled daily an hour before each reading: 5 fuelings of 6 h x 20 L/h fall after the
     # sample (taken 4 days 2 hours ago; hand-worked), shown in the metric site's litres.
-    assert "N-7</a> 600 L" in html and "S-77" in html and "600 L were fuelled" in html
+    assert "N-7</a> fuelled 600 L, burned " in html and "S-77" in html
+    assert "600 L were fuelled" in html and "has been burned by now" in html
+    assert "Per unit:" not in html  # the card lists the units itself
     assert reverse("planning:source_decision", args=[decision.pk]) in html
+
+
+def test_the_decision_page_gives_each_unit_its_litres_fuelled_and_burned(
+    decision: SourceDecision, as_manager: Any
+) -> None:
+    row = decision.reached.get()
+    assert row.litres_burned is not None and 0 < row.litres_burned < row.litres
+    html = as_manager.get(reverse("planning:source_decision", args=[decision.pk])).content
+    page = html.decode()
+    assert "Burned so far" in page and f"{row.litres_burned:,.0f} L" in page
+    assert "Per unit:" not in page  # the table lists them; the stored explanation has it
+    assert f"Per unit: N-7 fuelled 600 L, burned {row.litres_burned:,.0f} L." in (
+        decision.explanation
+    )
 
 
 def test_a_manager_records_what_was_done_and_the_card_goes(

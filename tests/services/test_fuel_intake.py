@@ -133,14 +133,6 @@ def test_current_concentration_without_samples_or_fuel_is_the_reference() -> Non
     assert (concentration, assumed) == (pytest.approx((1_300 + 640) / 2), False)
 
 
-def test_latest_fuel_quality_is_the_last_fuelings() -> None:
-    last = quality_make(water_mg_kg=150.0, label="last")
-    pairs = [(_fueled(3), quality_make(water_mg_kg=60.0)), (_fueled(1), last)]
-    assert fi.latest_fuel_quality(pairs=pairs) is last
-    assert fi.latest_fuel_quality(pairs=[(_fueled(1), None)]) is None
-    assert fi.latest_fuel_quality(pairs=[]) is None
-
-
 # --- the burn rate ----------------------------------------------------------------------
 
 

@@ -128,4 +128,37 @@ def test_explanation_names_the_sample_and_the_litres() -> None:
     assert lines[0] == "Sample FS-D001: out of range."
     assert lines[1].startswith("ISO 4406 22/20/17")
     assert any("1,234 L" in line and "1 unit " in line for line in lines)
+    assert "litres burned not yet worked out" in lines[-3]
+    assert lines[-2] == "Per unit: unit 1 fuelled 1,234 L."
     assert lines[-1].endswith("Resample.")
+
+
+def test_explanation_gives_the_litres_burned_in_total_and_per_unit() -> None:
+    verdict = sq.sample_range_check(codes=(22, 20, 17), water_mg_kg=140, reference=WWFC, margin=2)
+    standing = sq.SampleStanding(sq.Standing.STANDS, "it is the latest word on the tank")
+    fuelings = [
+        sq.Fuelled(unit_id=1, at=NOW - timedelta(days=2), litres=300, ref=11),
+        sq.Fuelled(unit_id=1, at=NOW - timedelta(days=1), litres=200, ref=12),
+        sq.Fuelled(unit_id=2, at=NOW - timedelta(days=1), litres=400, ref=21),
+    ]
+    # Summed by hand: unit 1 burned 120 + 30 L of its two fuelings, unit 2 is not worked out.
+    burned = {1: {11: 120.0, 12: 30.0, 99: 500.0}}
+    reach = sq.reach_sum(fuelings=fuelings, start=NOW - timedelta(days=3), end=NOW, burned=burned)
+    assert [(r.unit_id, r.burned) for r in reach] == [(1, 150.0), (2, None)]
+    lines = sq.decision_explain(
+        sample_label="Sample FS-D001", verdict=verdict, standing=standing,
+        reach_start=NOW - timedelta(days=3), reach=reach, names={1: "KQ-H01", 2: "KQ-H02"},
+    )  # fmt: skip
+    assert "of the 500 L that went into the 1 unit worked out so far, 150 L" in lines[-2]
+    assert lines[-1] == "Per unit: KQ-H01 fuelled 500 L, burned 150 L; KQ-H02 fuelled 400 L."
+    full = sq.reach_sum(
+        fuelings=fuelings[:2], start=NOW - timedelta(days=3), end=NOW, burned=burned
+    )
+    lines = sq.decision_explain(
+        sample_label="Sample FS-D001", verdict=verdict, standing=standing,
+        reach_start=NOW - timedelta(days=3), reach=full, names={1: "KQ-H01"},
+    )  # fmt: skip
+    assert (
+        "500 L were fuelled from this source into 1 unit; 150 L of it has been burned"
+        in (lines[-2])
+    )

@@ -37,7 +37,8 @@ class Command(BaseCommand):
             for line in decision.explanation:
                 self.stdout.write(f"  {line}")
             for r in decision.reached.all():
-                self.stdout.write(f"  {r.unit.fleet_number:8} {r.litres:10,.1f} L")
+                burned = f"{r.litres_burned:10,.1f} L burned" if r.litres_burned is not None else ""
+                self.stdout.write(f"  {r.unit.fleet_number:8} {r.litres:10,.1f} L fuelled {burned}")
 
 
 def decision_json(decision: SourceDecision) -> dict[str, Any]:
@@ -51,7 +52,12 @@ def decision_json(decision: SourceDecision) -> dict[str, Any]:
         "litres_fuelled": decision.litres,
         "explanation": decision.explanation,
         "units": [
-            {"unit": r.unit.fleet_number, "litres_fuelled": r.litres, "fuelings": r.fuelings}
+            {
+                "unit": r.unit.fleet_number,
+                "litres_fuelled": r.litres,
+                "litres_burned": r.litres_burned,
+                "fuelings": r.fuelings,
+            }
             for r in decision.reached.all()
         ],
     }
