@@ -11,12 +11,17 @@ from dataclasses import dataclass, field
 from datetime import date, timedelta
 from typing import Any
 
-from django.db.models import Count, Exists, OuterRef, QuerySet
+from django.db.models import Case, Count, Exists, OuterRef, QuerySet, Subquery, When
+
+from services.common import Basis
 
 from .models import DueItem, UnitFlag
+from .source_models import SourceDecisionUnit
 
 PAGE_SIZE = 50
 SORTS = {
+    # What to do first (services.urgency), on the (urgency, late_from, -late_hours, id) index.
+    "urgency": ["urgency", "late_from", "-late_hours", "id"],
     "due": ["due_on", "id"],  # walks the (site, [status,] due_on, id) index
     "unit": ["unit__fleet_number", "due_on", "task", "id"],
     "task": ["task", "due_on", "unit__fleet_number", "id"],
@@ -56,6 +61,21 @@ def due_items_filtered(
     return qs
 
 
+def open_decision_of_item() -> Case:
+    """The open source decision whose out-of-range fuel an item's dirt estimate counts (the
+    newest, when two reached the unit); None for items on another basis. A subquery of the
+    page's own query."""
+    decision = SourceDecisionUnit.objects.filter(
+        unit_id=OuterRef("unit_id"), decision__resolved_at__isnull=True
+    ).order_by("-decision__opened_at", "-decision_id")
+    return Case(
+        When(
+            basis=Basis.CONTAMINANT_BUDGET.value, then=Subquery(decision.values("decision_id")[:1])
+        ),
+        default=None,
+    )
+
+
 def due_page(
     *,
     site_ids: list[int],
@@ -75,18 +95,19 @@ def due_page(
         counts[row["status"]] = row["n"]
     qs = base.filter(status=data["status"]) if data.get("status") else base
     page = data.get("page") or 1
-    # Query 2: one page of rows (+1 to know if there is a next page), with unit, site,
-    # class and component joined, and the caller's annotations.
+    # Query 2: one page of rows (+1 to know if there is a next page), with unit, site and
+    # class joined, the open source decision of each, and the caller's annotations.
     rows = list(
-        qs.select_related("unit", "unit__site", "unit__unit_class", "component")
-        .annotate(**(annotations or {}))
-        .order_by(*SORTS.get(data.get("sort") or "due", SORTS["due"]))
-        .defer("inputs")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
+        qs.select_related("unit", "unit__site", "unit__unit_class")
+        .annotate(source_decision_id=open_decision_of_item(), **(annotations or {}))
+        .order_by(*SORTS.get(data.get("sort") or "urgency", SORTS["urgency"]))
+        .defer("inputs", "explanation")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
     )
     has_next = len(rows) > PAGE_SIZE
     rows = rows[:PAGE_SIZE]
     # Query 3: the flags of the units on this page.
     flags: dict[int, list[UnitFlag]] = {}
-    for flag in UnitFlag.objects.filter(unit_id__in={r.unit_id for r in rows}).order_by("code"):
+    on_page = UnitFlag.objects.filter(unit_id__in={r.unit_id for r in rows})
+    for flag in on_page.only("unit_id", "code", "title", "reason").order_by("code"):
         flags.setdefault(flag.unit_id, []).append(flag)
     return DuePage(items=rows, counts=counts, page=page, has_next=has_next, flags_by_unit=flags)

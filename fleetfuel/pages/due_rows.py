@@ -1,0 +1,172 @@
+"""The due list's rows as display strings, made once per page so the template only prints them.
+
+Rendering a row costs a handful of variable lookups: every date, number, label, link and hover
+text is a string here. Rows are grouped under the open fuel-source decision their dirt estimate
+counts (in the order of the decision's most urgent row on the page); other rows stay in their
+place in the page's order.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from datetime import date
+from typing import Any
+
+from django.urls import reverse
+
+from fleetfuel.planning.models import DueItem, UnitFlag
+from fleetfuel.planning.source_models import SourceDecision
+from fleetfuel.planning.templatetags.fleetfuel_tags import BASIS_LABELS
+from services.common import Basis
+from services.urgency import timing_words
+
+TASK_SHORT = {
+    DueItem.Task.PRIMARY_FILTER: "Primary filter",
+    DueItem.Task.FINE_FILTER: "Fine filter",
+    DueItem.Task.SEPARATOR_DRAIN: "Drain separator",
+}
+BASIS_SHORT = {
+    Basis.CONTAMINANT_BUDGET: "Dirt estimate",
+    Basis.PLAN_HOURS: "Plan hours",
+    Basis.PLAN_DAYS: "Plan days",
+    Basis.FUEL_VOLUME: "Plan fuel volume",
+    Basis.DIFFERENTIAL_PRESSURE: "dP trend",
+    Basis.WATER_LEVEL: "Water level",
+    Basis.WATER_EVENT: "Water alarm",
+}
+STATUS_TITLES = {
+    DueItem.Status.CHECK: "Only the dirt estimate has run out: read the filter's dP or "
+    "restriction indicator before changing it",
+}
+_PK = 987654321  # a placeholder id: links are made by replacing it, not by reverse() per row
+
+
+@dataclass(slots=True)
+class DueRow:
+    pk: int
+    unit_url: str
+    fleet_number: str
+    class_name: str
+    site_name: str
+    task_short: str
+    task_long: str
+    status: str
+    status_label: str
+    status_title: str
+    timing: str
+    timing_title: str
+    basis_short: str
+    basis_long: str
+    detail_url: str
+    flag_text: str = ""
+    flag_title: str = ""
+    order_number: str = ""
+    order_url: str = ""
+    stale: bool = False
+
+
+@dataclass(slots=True)
+class DueGroup:
+    """Rows in page order; under a decision when ``decision`` is set."""
+
+    decision: SourceDecision | None
+    rows: list[DueRow] = field(default_factory=list)
+
+
+class _Links:
+    def __init__(self) -> None:
+        self.unit = reverse("pages:unit_detail", args=[_PK])
+        self.detail = reverse("pages:due_item_detail", args=[_PK])
+        self.order = reverse("workorders:detail", args=[_PK])
+
+    @staticmethod
+    def of(pattern: str, pk: int) -> str:
+        return pattern.replace(str(_PK), str(pk))
+
+
+def _d(day: date) -> str:
+    return f"{day.day} {day:%b %Y}"
+
+
+def _timing(item: DueItem, today: date) -> tuple[str, str]:
+    """The row's 'overdue by' / 'due in' words and their hover text (the dates and hours)."""
+    since = item.late_from or item.due_on
+    estimate = item.basis == Basis.CONTAMINANT_BUDGET and item.late_hours > 0
+    words = timing_words(
+        days_late=(today - since).days, hours_late=item.late_hours, estimate=estimate
+    )
+    title = f"Due {_d(item.due_on)}"
+    if item.earliest_on != item.latest_on:
+        title += f" (between {_d(item.earliest_on)} and {_d(item.latest_on)})"
+    if item.due_hours is not None:
+        title += f" at {item.due_hours:,.0f} engine h"
+    if estimate:
+        title += (
+            f"; the dirt estimate ran out about {item.late_hours:,.0f} engine h ago "
+            f"(around {_d(since)}) at today's fuel: read the filter's dP"
+        )
+    return words, title + "."
+
+
+def _row(
+    item: Any, today: date, links: _Links, flags: list[UnitFlag], status_labels: dict[str, str]
+) -> DueRow:
+    unit = item.unit
+    timing, timing_title = _timing(item, today)
+    basis = Basis(item.basis)
+    row = DueRow(
+        pk=item.pk,
+        unit_url=links.of(links.unit, item.unit_id),
+        fleet_number=unit.fleet_number,
+        class_name=unit.unit_class.name,
+        site_name=unit.site.name,
+        task_short=TASK_SHORT.get(item.task, item.task),
+        task_long=str(DueItem.Task(item.task).label),
+        status=item.status,
+        status_label=status_labels.get(item.status, item.status),
+        status_title=STATUS_TITLES.get(item.status, ""),
+        timing=timing,
+        timing_title=timing_title,
+        basis_short=BASIS_SHORT[basis],
+        basis_long=BASIS_LABELS[basis],
+        detail_url=links.of(links.detail, item.pk),
+        stale=item.projection_stale,
+    )
+    if flags:
+        row.flag_text = "Flag: " + "; ".join(f.title for f in flags)
+        row.flag_title = " ".join(f"{f.title}: {f.reason}" for f in flags)
+    order_id = getattr(item, "order_id", None)
+    if order_id:
+        row.order_number = item.order_number
+        row.order_url = links.of(links.order, order_id)
+    return row
+
+
+def due_groups(
+    *,
+    items: Iterable[Any],
+    flags_by_unit: dict[int, list[UnitFlag]],
+    decisions: Iterable[SourceDecision],
+    today: date,
+) -> tuple[list[DueGroup], list[SourceDecision]]:
+    """The page's rows in groups, and the open decisions with no row on this page."""
+    links = _Links()
+    by_pk = {d.pk: d for d in decisions}
+    labels = {str(v): str(lbl) for v, lbl in DueItem.Status.choices}
+    groups: list[DueGroup] = []
+    under: dict[int, DueGroup] = {}
+    for item in items:
+        row = _row(item, today, links, flags_by_unit.get(item.unit_id, []), labels)
+        decision = by_pk.get(getattr(item, "source_decision_id", None) or 0)
+        if decision is None:
+            if not groups or groups[-1].decision is not None:
+                groups.append(DueGroup(decision=None))
+            groups[-1].rows.append(row)
+        elif decision.pk in under:
+            under[decision.pk].rows.append(row)
+        else:
+            under[decision.pk] = DueGroup(decision=decision, rows=[row])
+            groups.append(under[decision.pk])
+    elsewhere = [d for pk, d in by_pk.items() if pk not in under]
+    return groups, elsewhere
