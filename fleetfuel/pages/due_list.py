@@ -24,7 +24,7 @@ from fleetfuel.planning.worklists import recent_dispatches
 from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_due_items
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 
-from .due_rows import due_groups
+from .due_rows import count_chips, due_groups
 
 
 def _open_order(field: str) -> Subquery:
@@ -69,6 +69,7 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
         "form": form,
         "page": page,
         "groups": groups,
+        "counts": count_chips(page.counts),
         "source_decisions": decisions_elsewhere,
         "query": query.urlencode(),
     }

@@ -8,6 +8,7 @@ place in the page's order.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from datetime import date
@@ -15,6 +16,7 @@ from typing import Any
 
 from django.urls import reverse
 
+from fleetfuel.planning.due_selectors import COUNT_CAP
 from fleetfuel.planning.models import DueItem, UnitFlag
 from fleetfuel.planning.source_models import SourceDecision
 from fleetfuel.planning.templatetags.fleetfuel_tags import BASIS_LABELS
@@ -39,6 +41,7 @@ STATUS_TITLES = {
     DueItem.Status.CHECK: "Only the dirt estimate has run out: read the filter's dP or "
     "restriction indicator before changing it",
 }
+COUNT_LABELS = {DueItem.Status.CHECK: "Check dP first", DueItem.Status.OK: "OK"}
 _PK = 987654321  # a placeholder id: links are made by replacing it, not by reverse() per row
 
 
@@ -85,6 +88,7 @@ class _Links:
         return pattern.replace(str(_PK), str(pk))
 
 
+@functools.lru_cache(maxsize=512)
 def _d(day: date) -> str:
     return f"{day.day} {day:%b %Y}"
 
@@ -170,3 +174,15 @@ def due_groups(
             groups.append(under[decision.pk])
     elsewhere = [d for pk, d in by_pk.items() if pk not in under]
     return groups, elsewhere
+
+
+def count_chips(counts: dict[str, int]) -> list[tuple[str, str, str]]:
+    """(status, label, number) for each status; a count past the cap reads "1,000+"."""
+    return [
+        (
+            status,
+            COUNT_LABELS.get(status, str(DueItem.Status(status).label)),
+            f"{COUNT_CAP:,}+" if n > COUNT_CAP else f"{n:,}",
+        )
+        for status, n in counts.items()
+    ]

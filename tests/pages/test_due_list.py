@@ -304,3 +304,21 @@ def test_the_fragment_query_count_does_not_grow_with_the_fleet(
     with django_assert_num_queries(9):
         response = as_manager.get(reverse("pages:due_list"), headers={"HX-Request": "true"})
     assert response.status_code == 200 and len(rows(response)) == min(50, size * 3)
+
+
+def test_counts_stop_at_the_cap_and_say_so(
+    as_manager: Any, small_fleet: list[Unit], monkeypatch: Any
+) -> None:
+    # 4 units x 3 items: 3 overdue, 3 due, 3 soon, 3 ok; with a cap of 2 each reads "2+".
+    monkeypatch.setattr("fleetfuel.planning.due_selectors.COUNT_CAP", 2)
+    monkeypatch.setattr("fleetfuel.pages.due_rows.COUNT_CAP", 2)
+    response = as_manager.get(reverse("pages:due_list"))
+    assert response.context["page"].counts == {
+        "overdue": 3,
+        "check": 0,
+        "due": 3,
+        "soon": 3,
+        "ok": 3,
+    }
+    assert ("overdue", "Overdue", "2+") in response.context["counts"]
+    assert ("check", "Check dP first", "0") in response.context["counts"]
