@@ -22,6 +22,7 @@ from dataclasses import dataclass
 from datetime import date, timedelta
 
 from services.common import Basis, DueStatus
+from services.display import NBSP, hours_text, number_text
 
 
 class Tier(enum.IntEnum):
@@ -95,10 +96,15 @@ def lateness(
     return Lateness(hours=round(-hours_left, 1), since=due_on)
 
 
-def timing_words(*, days_late: int, hours_late: float, estimate: bool = False) -> str:
-    """'overdue by 3 d · 38 h' or 'due in 5 d · 40 h': days and engine hours, whole numbers
-    (a part not past shows 0). ``estimate``: the overrun of an estimate, said as one."""
+def timing_words(
+    *, days_late: int, hours_late: float, estimate: bool = False, style: str | None = None
+) -> str:
+    """'overdue by 3 d · 38 h' or 'due in 5 d · 40 h': days and engine hours, whole numbers in
+    the depot's display style, a no-break space before each unit (a part not past shows 0).
+    ``estimate``: the overrun of an estimate, said as one."""
     if days_late > 0 or hours_late >= 0.5:
-        words = f"overdue by {max(0, days_late)} d · {max(0.0, hours_late):,.0f} h"
-        return "est. " + words if estimate else words
-    return f"due in {-days_late} d · {max(0.0, -hours_late):,.0f} h"
+        days, hours = max(0, days_late), max(0.0, hours_late)
+        lead = "est. overdue by" if estimate else "overdue by"
+    else:
+        days, hours, lead = -days_late, max(0.0, -hours_late), "due in"
+    return f"{lead} {number_text(days, style)}{NBSP}d · {hours_text(hours, style)}"

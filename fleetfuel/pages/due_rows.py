@@ -20,6 +20,7 @@ from fleetfuel.planning.due_selectors import COUNT_CAP
 from fleetfuel.planning.models import DueItem, UnitFlag
 from fleetfuel.planning.source_models import SourceDecision
 from fleetfuel.planning.templatetags.fleetfuel_tags import BASIS_LABELS
+from services import display
 from services.common import Basis
 from services.urgency import timing_words
 
@@ -88,27 +89,30 @@ class _Links:
         return pattern.replace(str(_PK), str(pk))
 
 
-@functools.lru_cache(maxsize=512)
-def _d(day: date) -> str:
-    return f"{day.day} {day:%b %Y}"
+@functools.lru_cache(maxsize=1024)
+def _d(day: date, style: str) -> str:
+    return display.day_text(day, style)
 
 
-def _timing(item: DueItem, today: date) -> tuple[str, str]:
+def _timing(item: DueItem, today: date, style: str) -> tuple[str, str]:
     """The row's 'overdue by' / 'due in' words and their hover text (the dates and hours)."""
     since = item.late_from or item.due_on
     estimate = item.basis == Basis.CONTAMINANT_BUDGET and item.late_hours > 0
     words = timing_words(
-        days_late=(today - since).days, hours_late=item.late_hours, estimate=estimate
+        days_late=(today - since).days,
+        hours_late=item.late_hours,
+        estimate=estimate,
+        style=style,
     )
-    title = f"Due {_d(item.due_on)}"
+    title = f"Due {_d(item.due_on, style)}"
     if item.earliest_on != item.latest_on:
-        title += f" (between {_d(item.earliest_on)} and {_d(item.latest_on)})"
+        title += f" (between {_d(item.earliest_on, style)} and {_d(item.latest_on, style)})"
     if item.due_hours is not None:
-        title += f" at {item.due_hours:,.0f} engine h"
+        title += f" at {display.hours_text(item.due_hours, style)}"
     if estimate:
         title += (
-            f"; the dirt estimate ran out about {item.late_hours:,.0f} engine h ago "
-            f"(around {_d(since)}) at today's fuel: read the filter's dP"
+            f"; the dirt estimate ran out about {display.hours_text(item.late_hours, style)} "
+            f"ago (around {_d(since, style)}) at today's fuel: read the filter's dP"
         )
     return words, title + "."
 
@@ -117,7 +121,8 @@ def _row(
     item: Any, today: date, links: _Links, flags: list[UnitFlag], status_labels: dict[str, str]
 ) -> DueRow:
     unit = item.unit
-    timing, timing_title = _timing(item, today)
+    style = unit.site.display_style or display.DEFAULT_STYLE
+    timing, timing_title = _timing(item, today, style)
     basis = Basis(item.basis)
     row = DueRow(
         pk=item.pk,

@@ -9,6 +9,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from services.common import Basis, DueStatus
+from services.display import NBSP
 from services.urgency import (
     Tier,
     estimate_overrun_hours,
@@ -145,4 +146,12 @@ def test_lateness_of_a_due_point_is_its_date_and_hours_left() -> None:
     ],
 )
 def test_timing_words(days: int, hours: float, estimate: bool, words: str) -> None:
-    assert timing_words(days_late=days, hours_late=hours, estimate=estimate) == words
+    # A no-break space keeps each number with its unit (services.display's convention).
+    said = timing_words(days_late=days, hours_late=hours, estimate=estimate)
+    assert said.replace(NBSP, " ") == words
+
+
+def test_timing_words_in_a_depots_style() -> None:
+    # de-DE groups thousands with a dot (services.display.STYLES).
+    said = timing_words(days_late=-400, hours_late=-4_000.0, style="de-DE")
+    assert said.replace(NBSP, " ") == "due in 400 d · 4.000 h"
