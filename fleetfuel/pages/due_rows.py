@@ -15,6 +15,8 @@ from datetime import date
 from typing import Any
 
 from django.urls import reverse
+from django.utils.html import format_html
+from django.utils.safestring import SafeString
 
 from fleetfuel.planning.due_selectors import COUNT_CAP
 from fleetfuel.planning.models import DueItem, UnitFlag
@@ -42,32 +44,32 @@ STATUS_TITLES = {
     DueItem.Status.CHECK: "Only the dirt estimate has run out: read the filter's dP or "
     "restriction indicator before changing it",
 }
+STALE = SafeString(
+    ' <span class="badge st-due" title="Its inputs changed and the recompute is still owed; it '
+    'runs within minutes.">Out of date: recompute pending</span>'
+)
 COUNT_LABELS = {DueItem.Status.CHECK: "Check dP first", DueItem.Status.OK: "OK"}
 _PK = 987654321  # a placeholder id: links are made by replacing it, not by reverse() per row
 
 
 @dataclass(slots=True)
 class DueRow:
+    """One row: plain strings (escaped by the template) and, where a cell's markup depends on
+    the item, that cell's HTML made here with its parts escaped (format_html)."""
+
     pk: int
-    unit_url: str
-    fleet_number: str
-    class_name: str
+    detail_url: str
+    select: SafeString  # the checkbox, or a dash when a work order holds the item
+    unit: SafeString  # fleet number linked, flags, class
     site_name: str
     task_short: str
     task_long: str
-    status: str
-    status_label: str
-    status_title: str
+    status: SafeString  # the badge, and the out-of-date mark
     timing: str
     timing_title: str
     basis_short: str
     basis_long: str
-    detail_url: str
-    flag_text: str = ""
-    flag_title: str = ""
-    order_number: str = ""
-    order_url: str = ""
-    stale: bool = False
+    order: SafeString  # the work order holding it, linked (empty when none)
 
 
 @dataclass(slots=True)
@@ -117,6 +119,16 @@ def _timing(item: DueItem, today: date, style: str) -> tuple[str, str]:
     return words, title + "."
 
 
+def _flags(flags: list[UnitFlag]) -> SafeString:
+    if not flags:
+        return SafeString("")
+    return format_html(
+        ' <span class="badge flag" title="{}">Flag: {}</span>',
+        " ".join(f"{f.title}: {f.reason}" for f in flags),
+        "; ".join(f.title for f in flags),
+    )
+
+
 def _row(
     item: Any, today: date, links: _Links, flags: list[UnitFlag], status_labels: dict[str, str]
 ) -> DueRow:
@@ -124,32 +136,54 @@ def _row(
     style = unit.site.display_style or display.DEFAULT_STYLE
     timing, timing_title = _timing(item, today, style)
     basis = Basis(item.basis)
-    row = DueRow(
+    task_long = str(DueItem.Task(item.task).label)
+    order_id = getattr(item, "order_id", None)
+    if order_id:
+        select = SafeString(
+            '<span class="muted" title="Already in an open work order">\u2014</span>'
+        )
+        order = format_html(
+            '<a class="badge st-ok" href="{}" title="In open work order {}">{}</a>',
+            links.of(links.order, order_id),
+            item.order_number,
+            item.order_number,
+        )
+    else:
+        select = format_html(
+            '<input type="checkbox" name="item" value="{}" aria-label="Select {} {}">',
+            item.pk,
+            unit.fleet_number,
+            task_long,
+        )
+        order = SafeString("")
+    status = format_html(
+        '<span class="badge st-{}" title="{}">{}</span>{}',
+        item.status,
+        STATUS_TITLES.get(item.status, ""),
+        status_labels.get(item.status, item.status),
+        STALE if item.projection_stale else "",
+    )
+    return DueRow(
         pk=item.pk,
-        unit_url=links.of(links.unit, item.unit_id),
-        fleet_number=unit.fleet_number,
-        class_name=unit.unit_class.name,
+        detail_url=links.of(links.detail, item.pk),
+        select=select,
+        unit=format_html(
+            '<a href="{}">{}</a>{} <span class="muted small">{}</span>',
+            links.of(links.unit, item.unit_id),
+            unit.fleet_number,
+            _flags(flags),
+            unit.unit_class.name,
+        ),
         site_name=unit.site.name,
         task_short=TASK_SHORT.get(item.task, item.task),
-        task_long=str(DueItem.Task(item.task).label),
-        status=item.status,
-        status_label=status_labels.get(item.status, item.status),
-        status_title=STATUS_TITLES.get(item.status, ""),
+        task_long=task_long,
+        status=status,
         timing=timing,
         timing_title=timing_title,
         basis_short=BASIS_SHORT[basis],
         basis_long=BASIS_LABELS[basis],
-        detail_url=links.of(links.detail, item.pk),
-        stale=item.projection_stale,
+        order=order,
     )
-    if flags:
-        row.flag_text = "Flag: " + "; ".join(f.title for f in flags)
-        row.flag_title = " ".join(f"{f.title}: {f.reason}" for f in flags)
-    order_id = getattr(item, "order_id", None)
-    if order_id:
-        row.order_number = item.order_number
-        row.order_url = links.of(links.order, order_id)
-    return row
 
 
 def due_groups(
