@@ -12,6 +12,7 @@ import functools
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from datetime import date
+from html import escape as esc
 from typing import Any
 
 from django.urls import reverse
@@ -119,70 +120,68 @@ def _timing(item: DueItem, today: date, style: str) -> tuple[str, str]:
     return words, title + "."
 
 
-def _flags(flags: list[UnitFlag]) -> SafeString:
+def _flags(flags: list[UnitFlag]) -> str:
     if not flags:
-        return SafeString("")
-    return format_html(
-        ' <span class="badge flag" title="{}">Flag: {}</span>',
-        " ".join(f"{f.title}: {f.reason}" for f in flags),
-        "; ".join(f.title for f in flags),
-    )
+        return ""
+    title = esc(" ".join(f"{f.title}: {f.reason}" for f in flags))
+    text = esc("; ".join(f.title for f in flags))
+    return f' <span class="badge flag" title="{title}">Flag: {text}</span>'
 
 
-def _row(
-    item: Any, today: date, links: _Links, flags: list[UnitFlag], status_labels: dict[str, str]
-) -> DueRow:
+def _status_badges() -> dict[str, SafeString]:
+    """Each status's badge, made once (its label and, for "check", what to do first)."""
+    return {
+        value: format_html(
+            '<span class="badge st-{}" title="{}">{}</span>',
+            value,
+            STATUS_TITLES.get(value, ""),
+            COUNT_LABELS.get(value, label),
+        )
+        for value, label in DueItem.Status.choices
+    }
+
+
+STATUS_BADGES = _status_badges()
+TASK_LONG = {value: str(label) for value, label in DueItem.Task.choices}
+
+
+def _row(item: Any, today: date, links: _Links, flags: list[UnitFlag]) -> DueRow:
+    """One row's strings; every text from the database is escaped here (html.escape)."""
     unit = item.unit
     style = unit.site.display_style or display.DEFAULT_STYLE
     timing, timing_title = _timing(item, today, style)
-    basis = Basis(item.basis)
-    task_long = str(DueItem.Task(item.task).label)
-    order_id = getattr(item, "order_id", None)
-    if order_id:
-        select = SafeString(
-            '<span class="muted" title="Already in an open work order">\u2014</span>'
-        )
-        order = format_html(
-            '<a class="badge st-ok" href="{}" title="In open work order {}">{}</a>',
-            links.of(links.order, order_id),
-            item.order_number,
-            item.order_number,
+    task_long = TASK_LONG.get(item.task, item.task)
+    fleet_number = esc(unit.fleet_number)
+    if getattr(item, "order_id", None):
+        select = '<span class="muted" title="Already in an open work order">\u2014</span>'
+        number = esc(item.order_number)
+        order = (
+            f'<a class="badge st-ok" href="{links.of(links.order, item.order_id)}" '
+            f'title="In open work order {number}">{number}</a>'
         )
     else:
-        select = format_html(
-            '<input type="checkbox" name="item" value="{}" aria-label="Select {} {}">',
-            item.pk,
-            unit.fleet_number,
-            task_long,
+        select = (
+            f'<input type="checkbox" name="item" value="{item.pk}" '
+            f'aria-label="Select {fleet_number} {esc(task_long)}">'
         )
-        order = SafeString("")
-    status = format_html(
-        '<span class="badge st-{}" title="{}">{}</span>{}',
-        item.status,
-        STATUS_TITLES.get(item.status, ""),
-        status_labels.get(item.status, item.status),
-        STALE if item.projection_stale else "",
-    )
+        order = ""
     return DueRow(
         pk=item.pk,
         detail_url=links.of(links.detail, item.pk),
-        select=select,
-        unit=format_html(
-            '<a href="{}">{}</a>{} <span class="muted small">{}</span>',
-            links.of(links.unit, item.unit_id),
-            unit.fleet_number,
-            _flags(flags),
-            unit.unit_class.name,
+        select=SafeString(select),
+        unit=SafeString(
+            f'<a href="{links.of(links.unit, item.unit_id)}">{fleet_number}</a>{_flags(flags)} '
+            f'<span class="muted small">{esc(unit.unit_class.name)}</span>'
         ),
         site_name=unit.site.name,
         task_short=TASK_SHORT.get(item.task, item.task),
         task_long=task_long,
-        status=status,
+        status=SafeString(STATUS_BADGES[item.status] + (STALE if item.projection_stale else "")),
         timing=timing,
         timing_title=timing_title,
-        basis_short=BASIS_SHORT[basis],
-        basis_long=BASIS_LABELS[basis],
-        order=order,
+        basis_short=BASIS_SHORT.get(item.basis, item.basis),
+        basis_long=BASIS_LABELS.get(item.basis, item.basis),
+        order=SafeString(order),
     )
 
 
@@ -196,11 +195,10 @@ def due_groups(
     """The page's rows in groups, and the open decisions with no row on this page."""
     links = _Links()
     by_pk = {d.pk: d for d in decisions}
-    labels = {str(v): str(lbl) for v, lbl in DueItem.Status.choices}
     groups: list[DueGroup] = []
     under: dict[int, DueGroup] = {}
     for item in items:
-        row = _row(item, today, links, flags_by_unit.get(item.unit_id, []), labels)
+        row = _row(item, today, links, flags_by_unit.get(item.unit_id, []))
         decision = by_pk.get(getattr(item, "source_decision_id", None) or 0)
         if decision is None:
             if not groups or groups[-1].decision is not None:

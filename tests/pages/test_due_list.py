@@ -324,3 +324,17 @@ def test_counts_stop_at_the_cap_and_say_so(
     }
     assert ("overdue", "Overdue", "2+") in response.context["counts"]
     assert ("check", "Check dP first", "0") in response.context["counts"]
+
+
+def test_row_text_from_the_database_is_escaped(as_manager: Any, small_fleet: list[Unit]) -> None:
+    # Cells are made in the presenter: a class name or flag with markup in it stays text.
+    unit = small_fleet[0]
+    unit.unit_class.name = "<b>Hauler</b>"
+    unit.unit_class.save()
+    UnitFlag.objects.create(
+        unit=unit, code="x", title='Valve "A" <i>', reason="r & s", checks=[],
+        since=timezone.now(), computed_at=timezone.now(),
+    )  # fmt: skip
+    html = as_manager.get(reverse("pages:due_list")).content.decode()
+    assert "<b>Hauler</b>" not in html and "&lt;b&gt;Hauler&lt;/b&gt;" in html
+    assert "Flag: Valve &quot;A&quot; &lt;i&gt;" in html and "r &amp; s" in html
