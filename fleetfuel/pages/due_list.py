@@ -4,6 +4,7 @@ with work orders made from the ones picked. Composed here because it reads both 
 from __future__ import annotations
 
 from django.contrib import messages
+from django.db.models import OuterRef, Subquery
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
@@ -20,8 +21,18 @@ from fleetfuel.planning.due_selectors import due_page
 from fleetfuel.planning.forms import DueFilterForm, WorkListSettingsForm
 from fleetfuel.planning.source_selectors import source_decisions_open
 from fleetfuel.planning.worklists import recent_dispatches
-from fleetfuel.workorders import selectors
 from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_due_items
+from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
+
+from .due_rows import count_chips, due_groups
+
+
+def _open_order(field: str) -> Subquery:
+    """The open work order holding a due item (the outer row), as one of its fields."""
+    tasks = WorkOrderTask.objects.filter(
+        due_item_id=OuterRef("pk"), work_order__status=WorkOrder.Status.OPEN
+    ).order_by("work_order_id")
+    return Subquery(tasks.values(field)[:1])
 
 
 @role_required(Role.MANAGER)
@@ -36,18 +47,34 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
         classes=UnitClass.objects.order_by("name"),
     )
     data = form.cleaned_data if form.is_valid() else {}
+    today = timezone.localdate()
     page = due_page(
         site_ids=site_ids,
         data=data,
-        today=timezone.localdate(),
-        annotations={"in_work_order": selectors.due_item_in_open_work_order()},
+        today=today,
+        annotations={
+            "order_id": _open_order("work_order_id"),
+            "order_number": _open_order("work_order__number"),
+        },
+    )
+    groups, decisions_elsewhere = due_groups(
+        items=page.items,
+        flags_by_unit=page.flags_by_unit,
+        decisions=source_decisions_open(site_ids=site_ids),
+        today=today,
     )
     query = request.GET.copy()
     query.pop("page", None)
-    context = {"form": form, "page": page, "query": query.urlencode()}
+    context = {
+        "form": form,
+        "page": page,
+        "groups": groups,
+        "counts": count_chips(page.counts),
+        "source_decisions": decisions_elsewhere,
+        "query": query.urlencode(),
+    }
     if not request.htmx:
         context["dispatches"] = recent_dispatches(user=request.user)
-        context["source_decisions"] = source_decisions_open(site_ids=site_ids)
         profile = getattr(request.user, "profile", None)
         context["settings_form"] = WorkListSettingsForm(instance=profile or Profile())
     if request.htmx and not request.htmx.boosted:

@@ -9,9 +9,10 @@ from typing import Any
 from django.db import transaction
 from django.db.models import Q
 
-from services.common import DueStatus
+from services.common import Basis, DueStatus, Projection
+from services.urgency import estimate_overrun_hours, lateness, urgency_tier
 
-from .engine import unit_compute
+from .engine import UnitResult, unit_compute
 from .models import DueItem, StaleProjection, UnitFlag
 from .selectors import batch_inputs_load
 from .source_decisions import source_decisions_recompute
@@ -22,6 +23,9 @@ DUE_FIELDS = [
     "site",
     "status",
     "rank",
+    "urgency",
+    "late_hours",
+    "late_from",
     "basis",
     "due_hours",
     "hours_left",
@@ -65,6 +69,67 @@ def rows_replace(
         )
 
 
+def _overrun_hours(p: Projection) -> float:
+    """Hours since an exhausted dirt estimate ran out (0 for anything else)."""
+    i = p.inputs
+    if p.basis is not Basis.CONTAMINANT_BUDGET or p.status not in (
+        DueStatus.CHECK,
+        DueStatus.OVERDUE,
+    ):
+        return 0.0
+    keys = ("loading", "budget", "burn_l_per_h", "current_concentration_per_ml")
+    numbers = [i.get(k) for k in (*keys, "hours_since_change")]
+    if not all(isinstance(n, int | float) for n in numbers):
+        return 0.0
+    loading, budget, burn, conc, since = (float(n) for n in numbers)  # type: ignore[arg-type]
+    return estimate_overrun_hours(
+        loading=loading,
+        budget=budget,
+        burn_l_per_h=burn,
+        concentration_per_ml=conc,
+        hours_since_change=since,
+    )
+
+
+def due_item_make(
+    result: UnitResult, component_id: int, p: Projection, stood_down: bool, now: datetime
+) -> DueItem:
+    """One projection as a due item, with its urgency and lateness (services.urgency)."""
+    hours_left = round(
+        p.due.hours - result.current_hours
+        if p.due.hours is not None
+        else (p.due.on - now.date()).days * result.rate,
+        1,
+    )
+    late = lateness(
+        due_on=p.due.on,
+        hours_left=hours_left,
+        overrun_hours=_overrun_hours(p),
+        rate=result.rate,
+        today=now.date(),
+    )
+    return DueItem(
+        unit_id=result.unit_id,
+        site_id=result.site_id,
+        component_id=component_id,
+        task=p.task.value,
+        status=p.status.value,
+        rank=STATUS_RANK[p.status],
+        urgency=int(urgency_tier(status=p.status, basis=p.basis, unit_stood_down=stood_down)),
+        late_hours=late.hours,
+        late_from=late.since,
+        basis=p.basis.value,
+        due_hours=round(p.due.hours, 1) if p.due.hours is not None else None,
+        hours_left=hours_left,
+        due_on=p.due.on,
+        earliest_on=p.due.earliest,
+        latest_on=p.due.latest,
+        explanation=list(p.explanation),
+        inputs=dict(p.inputs),
+        computed_at=now,
+    )
+
+
 @dataclass(frozen=True)
 class RecomputeResult:
     units: int
@@ -92,32 +157,9 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
         result = unit_compute(bundle, batch, now)
         if result.burned:
             burned[result.unit_id] = result.burned
+        stood_down = any(f.high_pressure for f in result.flags)
         for cp in result.projections:
-            p = cp.projection
-            items.append(
-                DueItem(
-                    unit_id=result.unit_id,
-                    site_id=result.site_id,
-                    component_id=cp.component_id,
-                    task=p.task.value,
-                    status=p.status.value,
-                    rank=STATUS_RANK[p.status],
-                    basis=p.basis.value,
-                    due_hours=round(p.due.hours, 1) if p.due.hours is not None else None,
-                    hours_left=round(
-                        p.due.hours - result.current_hours
-                        if p.due.hours is not None
-                        else (p.due.on - now.date()).days * result.rate,
-                        1,
-                    ),
-                    due_on=p.due.on,
-                    earliest_on=p.due.earliest,
-                    latest_on=p.due.latest,
-                    explanation=list(p.explanation),
-                    inputs=dict(p.inputs),
-                    computed_at=now,
-                )
-            )
+            items.append(due_item_make(result, cp.component_id, cp.projection, stood_down, now))
         for f in result.flags:
             flags.append(
                 UnitFlag(

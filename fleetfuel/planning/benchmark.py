@@ -22,7 +22,8 @@ from fleetfuel.fleet.models import (
 )
 from fleetfuel.ledger.actions import service_events_append
 from fleetfuel.ledger.models import ServiceEvent
-from services.common import DueStatus
+from services.common import Basis, DueStatus
+from services.urgency import urgency_tier
 
 from .actions import STATUS_RANK
 from .models import DueItem
@@ -77,6 +78,11 @@ def synthetic_fleet_make(
                     task=task,
                     status=status,
                     rank=STATUS_RANK[DueStatus(status)],
+                    urgency=urgency_tier(
+                        status=DueStatus(status), basis=Basis.PLAN_HOURS, unit_stood_down=False
+                    ),
+                    late_hours=-10.0 * days,
+                    late_from=today + timedelta(days=days),
                     basis="plan_hours",
                     due_hours=1000 + 10 * days,
                     hours_left=10.0 * days,

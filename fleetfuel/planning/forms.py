@@ -36,7 +36,13 @@ class DueFilterForm(forms.Form):
     flagged = forms.BooleanField(required=False, label="Flagged units only")
     q = forms.CharField(required=False, max_length=30, label="Fleet number")
     sort = forms.ChoiceField(
-        choices=[("due", "Due date"), ("unit", "Unit"), ("task", "Task"), ("status", "Status")],
+        choices=[
+            ("urgency", "Urgency"),
+            ("due", "Due date"),
+            ("unit", "Unit"),
+            ("task", "Task"),
+            ("status", "Status"),
+        ],
         required=False,
     )
     page = forms.IntegerField(min_value=1, required=False)

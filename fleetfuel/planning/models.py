@@ -38,6 +38,17 @@ class DueItem(models.Model):
     task = models.CharField(max_length=30, choices=Task.choices)
     status = models.CharField(max_length=10, choices=Status.choices)
     rank = models.PositiveSmallIntegerField(help_text="0 overdue, 1 check, 2 due, 3 soon, 4 ok")
+    # What to do first (services.urgency): the due list orders by urgency, late_from,
+    # -late_hours, id on one index, so paging stays in the database.
+    urgency = models.PositiveSmallIntegerField(
+        default=7, help_text="services.urgency.Tier: 0 water-in-fuel alarm ... 7 ok"
+    )
+    late_hours = models.FloatField(
+        default=0.0, help_text="Engine hours past the due point at the projection (<0: ahead)."
+    )
+    late_from = models.DateField(
+        null=True, help_text="The due date, or the day an exhausted estimate ran out."
+    )
     basis = models.CharField(max_length=40)
     due_hours = models.FloatField(null=True, blank=True)
     hours_left = models.FloatField(
@@ -74,6 +85,13 @@ class DueItem(models.Model):
             models.Index(fields=["site", "due_on", "id"], name="dueitem_site_due"),
             models.Index(fields=["site", "status", "due_on", "id"], name="dueitem_site_status_due"),
             models.Index(fields=["unit", "due_on"], name="dueitem_unit_due"),
+            models.Index(
+                fields=["urgency", "late_from", "-late_hours", "id"], name="dueitem_urgency"
+            ),
+            models.Index(
+                fields=["site", "urgency", "late_from", "-late_hours", "id"],
+                name="dueitem_site_urgency",
+            ),
         ]
 
     def __str__(self) -> str:

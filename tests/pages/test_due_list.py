@@ -10,10 +10,11 @@ import pytest
 from django.urls import reverse
 from django.utils import timezone
 
-from fleetfuel.fleet.models import Unit
+from fleetfuel.fleet.models import FuelSample, Unit
 from fleetfuel.planning.benchmark import synthetic_fleet_make
-from fleetfuel.planning.models import DueItem, UnitFlag
+from fleetfuel.planning.models import DueItem, SourceDecision, SourceDecisionUnit, UnitFlag
 from fleetfuel.workorders.models import WorkOrder
+from services.display import NBSP
 from services.safety import HP_CAUTION
 from tests import factories as f
 
@@ -31,7 +32,7 @@ def rows(response: Any) -> list[DueItem]:
     return list(response.context["page"].items)
 
 
-def test_lists_every_item_by_due_date_with_counts(as_manager: Any, small_fleet: list[Unit]) -> None:
+def test_lists_every_item_by_urgency_with_counts(as_manager: Any, small_fleet: list[Unit]) -> None:
     response = as_manager.get(reverse("pages:due_list"))
     assert response.status_code == 200
     items = rows(response)
@@ -94,6 +95,7 @@ def test_site_class_and_flag_filters(
         ("unit", lambda i: i.unit.fleet_number),
         ("task", lambda i: i.task),
         ("status", lambda i: i.rank),
+        ("urgency", lambda i: (i.urgency, i.late_from, -i.late_hours)),
         ("due", lambda i: i.due_on),
     ],
 )
@@ -157,9 +159,10 @@ def test_two_items_on_one_unit_make_one_work_order_with_two_tasks(
     assert mine.tasks.count() == 2 and mine.assigned_to == mechanic
     assert {t.due_item_id for t in mine.tasks.all()} == {p.pk for p in picked}
     assert mine.due_on == max(timezone.localdate(), min(p.due_on for p in picked))
-    # The items now show as in a work order, and cannot be put in a second one.
+    # The items now show the work order holding them, linked, and cannot be put in a second.
     listing = as_manager.get(reverse("pages:due_list"), {"q": unit.fleet_number})
-    assert "In a work order" in listing.content.decode()
+    badge = f'href="{reverse("workorders:detail", args=[mine.pk])}" title="In open work order'
+    assert listing.content.decode().count(badge) == 2 and mine.number in listing.content.decode()
     as_manager.post(reverse("pages:work_orders_create"), {"item": [picked[0].pk]})
     assert WorkOrder.objects.count() == 2
 
@@ -227,3 +230,111 @@ def test_query_count_does_not_grow_with_the_fleet(
     with django_assert_num_queries(13):
         response = as_manager.get(reverse("pages:due_list"), {"status": "overdue", "sort": "unit"})
     assert response.status_code == 200 and len(rows(response)) == min(50, size * 3 // 4)
+
+
+def test_each_row_says_how_far_past_or_ahead_in_days_and_hours(
+    as_manager: Any, small_fleet: list[Unit]
+) -> None:
+    # The synthetic fleet's unit 0 runs 10 h a day (hours left = 10 x days): its primary
+    # filter was due 3 days (30 h) ago, its fine filter is due in 1 day (10 h).
+    page = as_manager.get(reverse("pages:due_list"), {"q": "U-00000"})
+    html = page.content.decode().replace(NBSP, " ")  # no-break spaces hold numbers to units
+    assert "overdue by 3 d · 30 h" in html and "due in 1 d · 10 h" in html
+    # Short forms on the row, the long ones on hover (and in "Why?").
+    assert 'title="Change pressure-side (fine) filter">Fine filter<' in html
+    assert 'title="Plan hour interval">Plan hours<' in html
+
+
+def test_a_water_alarm_drain_leads_then_overdue_by_how_far(
+    as_manager: Any, small_fleet: list[Unit]
+) -> None:
+    # The most urgent thing is a drain a water-in-fuel alarm made due: give one ok item that
+    # standing (as the recompute does: services.urgency.Tier.WATER_ALARM).
+    drain = DueItem.objects.filter(status="ok", task="separator_drain").order_by("pk").first()
+    assert drain is not None
+    DueItem.objects.filter(pk=drain.pk).update(
+        status="due", basis="water_event", urgency=0, late_hours=0.0, late_from=timezone.localdate()
+    )
+    items = rows(as_manager.get(reverse("pages:due_list")))
+    assert items[0].pk == drain.pk
+    overdue = [i for i in items if i.status == "overdue"]
+    assert items[1 : 1 + len(overdue)] == overdue
+    assert [i.late_from for i in overdue] == sorted(i.late_from for i in overdue)
+
+
+def test_an_open_source_decision_gathers_its_dirt_estimate_items(
+    as_manager: Any, small_fleet: list[Unit], site: Any
+) -> None:
+    tank = f.source_make(name="East bulk tank", site=site)
+    sample = FuelSample.objects.create(
+        source=tank, sampled_at=timezone.now() - timedelta(days=3), iso4406="22/20/17",
+        reference="S-9",
+    )  # fmt: skip
+    decision = SourceDecision.objects.create(
+        source=tank, site=site, sample=sample, opened_at=timezone.now(),
+        reach_from=sample.sampled_at, explanation=["Out of range."], computed_at=timezone.now(),
+    )  # fmt: skip
+    reached = small_fleet[1]
+    SourceDecisionUnit.objects.create(
+        decision=decision, unit=reached, litres=400.0, fuelings=2,
+        first_at=sample.sampled_at, last_at=timezone.now(),
+    )  # fmt: skip
+    # Only the reached unit's items whose dirt estimate governs belong to the decision.
+    dirt = DueItem.objects.filter(unit=reached).order_by("pk")[:2]
+    DueItem.objects.filter(pk__in=[i.pk for i in dirt]).update(basis="contaminant_budget")
+    response = as_manager.get(reverse("pages:due_list"))
+    groups = response.context["groups"]
+    under = [g for g in groups if g.decision is not None]
+    assert len(under) == 1 and {r.pk for r in under[0].rows} == {i.pk for i in dirt}
+    assert sum(len(g.rows) for g in groups) == 12
+    html = response.content.decode()
+    assert html.count('class="card source-decision"') == 1
+    assert "East bulk tank: polish, quarantine or resample this tank" in html
+    assert "its 2 dirt-estimate items below" in html
+
+
+@pytest.mark.parametrize("size", [10, 1000])
+def test_the_fragment_query_count_does_not_grow_with_the_fleet(
+    as_manager: Any, site: Any, unit_class: Any, django_assert_num_queries: Any, size: int
+) -> None:
+    fleet_make(site=site, unit_class=unit_class, n=size)
+    # 1 session, 2 user, 3 role, 4 sites assigned (exists), 5 all sites' ids, 6 counts by
+    # status, 7 one page of items (with the open source decision and the open work order's id
+    # and number as subqueries), 8 flags of the units on the page, 9 open decisions at fuel
+    # sources (none here, so their units are not fetched). The filters' choices are not
+    # rendered in the fragment, so not fetched.
+    with django_assert_num_queries(9):
+        response = as_manager.get(reverse("pages:due_list"), headers={"HX-Request": "true"})
+    assert response.status_code == 200 and len(rows(response)) == min(50, size * 3)
+
+
+def test_counts_stop_at_the_cap_and_say_so(
+    as_manager: Any, small_fleet: list[Unit], monkeypatch: Any
+) -> None:
+    # 4 units x 3 items: 3 overdue, 3 due, 3 soon, 3 ok; with a cap of 2 each reads "2+".
+    monkeypatch.setattr("fleetfuel.planning.due_selectors.COUNT_CAP", 2)
+    monkeypatch.setattr("fleetfuel.pages.due_rows.COUNT_CAP", 2)
+    response = as_manager.get(reverse("pages:due_list"))
+    assert response.context["page"].counts == {
+        "overdue": 3,
+        "check": 0,
+        "due": 3,
+        "soon": 3,
+        "ok": 3,
+    }
+    assert ("overdue", "Overdue", "2+") in response.context["counts"]
+    assert ("check", "Check dP first", "0") in response.context["counts"]
+
+
+def test_row_text_from_the_database_is_escaped(as_manager: Any, small_fleet: list[Unit]) -> None:
+    # Cells are made in the presenter: a class name or flag with markup in it stays text.
+    unit = small_fleet[0]
+    unit.unit_class.name = "<b>Hauler</b>"
+    unit.unit_class.save()
+    UnitFlag.objects.create(
+        unit=unit, code="x", title='Valve "A" <i>', reason="r & s", checks=[],
+        since=timezone.now(), computed_at=timezone.now(),
+    )  # fmt: skip
+    html = as_manager.get(reverse("pages:due_list")).content.decode()
+    assert "<b>Hauler</b>" not in html and "&lt;b&gt;Hauler&lt;/b&gt;" in html
+    assert "Flag: Valve &quot;A&quot; &lt;i&gt;" in html and "r &amp; s" in html
