@@ -40,7 +40,7 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
         site_ids=site_ids,
         data=data,
         today=timezone.localdate(),
-        annotations={"in_work_order": selectors.due_item_in_open_work_order()},
+        annotations=selectors.due_item_open_work_order(),
     )
     query = request.GET.copy()
     query.pop("page", None)
@@ -79,13 +79,8 @@ def work_orders_create(request: HtmxHttpRequest) -> HttpResponse:
     except WorkOrderCreateError as exc:
         messages.error(request, str(exc))
     else:
-        if created.orders:
-            names = ", ".join(f"{o.number} ({o.unit.fleet_number})" for o in created.orders)
-            messages.success(request, f"Created {len(created.orders)} work order(s): {names}.")
-        if created.skipped:
-            messages.warning(
-                request, "Already in an open work order: " + "; ".join(created.skipped) + "."
-            )
+        names = ", ".join(f"{o.number} ({o.unit.fleet_number})" for o in created.orders)
+        messages.success(request, f"Created {len(created.orders)} work order(s): {names}.")
     target = reverse("pages:due_list") + (
         "?" + request.POST["return_query"] if request.POST.get("return_query") else ""
     )

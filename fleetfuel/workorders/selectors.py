@@ -140,10 +140,32 @@ def due_item_in_open_work_order() -> Exists:
     return Exists(_open_work_order_tasks().filter(due_item_id=OuterRef("pk")))
 
 
-def due_item_ids_in_open_work_orders(*, item_ids: list[int]) -> set[int]:
-    """Which of these due items are tasks of an open work order. One query."""
-    return set(
+def due_item_open_work_order() -> dict[str, Any]:
+    """Annotations of a due item (the outer row of a query): whether an open work order holds
+    it (``in_work_order``), and which one (``open_work_order_id``, ``open_work_order_number``;
+    None when none). Subqueries of the same query: no query more."""
+    held = (
+        _open_work_order_tasks()
+        .filter(due_item_id=OuterRef("pk"))
+        .order_by("work_order_id")
+    )
+    return {
+        "in_work_order": due_item_in_open_work_order(),
+        "open_work_order_id": Subquery(held.values("work_order_id")[:1]),
+        "open_work_order_number": Subquery(held.values("work_order__number")[:1]),
+    }
+
+
+def open_work_orders_holding(*, item_ids: list[int]) -> dict[int, WorkOrder]:
+    """Which of these due items are tasks of an open work order, and of which. One query."""
+    tasks = (
         _open_work_order_tasks()
         .filter(due_item_id__in=item_ids)
-        .values_list("due_item_id", flat=True)
+        .select_related("work_order")
+        .order_by("work_order_id")
     )
+    held: dict[int, WorkOrder] = {}
+    for task in tasks:
+        if task.due_item_id is not None:
+            held.setdefault(task.due_item_id, task.work_order)
+    return held
