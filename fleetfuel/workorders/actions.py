@@ -346,8 +346,7 @@ def work_orders_from_due_items(
 def held_refusal(items: list[DueItem], held: dict[int, WorkOrder]) -> str:
     """Why a selection was refused: each item already in an open work order, and which."""
     named = "; ".join(
-        f"{i.unit.fleet_number}: {i.get_task_display()} is in open work order "
-        f"{held[i.pk].number}"
+        f"{i.unit.fleet_number}: {i.get_task_display()} is in open work order {held[i.pk].number}"
         for i in items
         if i.pk in held
     )

@@ -144,11 +144,7 @@ def due_item_open_work_order() -> dict[str, Any]:
     """Annotations of a due item (the outer row of a query): whether an open work order holds
     it (``in_work_order``), and which one (``open_work_order_id``, ``open_work_order_number``;
     None when none). Subqueries of the same query: no query more."""
-    held = (
-        _open_work_order_tasks()
-        .filter(due_item_id=OuterRef("pk"))
-        .order_by("work_order_id")
-    )
+    held = _open_work_order_tasks().filter(due_item_id=OuterRef("pk")).order_by("work_order_id")
     return {
         "in_work_order": due_item_in_open_work_order(),
         "open_work_order_id": Subquery(held.values("work_order_id")[:1]),

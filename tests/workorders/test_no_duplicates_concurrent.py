@@ -3,6 +3,7 @@ are real there): exactly one work order holds the item, the other manager is tol
 
 from __future__ import annotations
 
+import contextlib
 import threading
 from typing import Any
 
@@ -47,10 +48,8 @@ def test_two_managers_pick_the_same_item_at_once_exactly_one_work_order_holds_it
     held_read = actions.open_work_orders_holding
 
     def held_after_meeting(**kw: Any) -> Any:
-        try:
+        with contextlib.suppress(threading.BrokenBarrierError):
             meeting.wait(timeout=1)
-        except threading.BrokenBarrierError:
-            pass
         return held_read(**kw)
 
     monkeypatch.setattr(actions, "open_work_orders_holding", held_after_meeting)
