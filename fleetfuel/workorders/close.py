@@ -188,7 +188,7 @@ def _closed_by_other(wo: WorkOrder, *, user: Any, now: datetime, entered: str) -
 def _visit_read(wo: WorkOrder, *, now: datetime) -> _Visit:
     """The tasks, the last reading, what is missing and what the rules say."""
     ctx = task_context(wo)
-    every = list(wo.tasks.select_related("component", "not_done_by").order_by("id"))
+    every = list(wo.tasks.select_related("component", "due_item", "not_done_by").order_by("id"))
     tasks = [t for t in every if not t.is_not_done]
     last = last_meter_reading(wo.unit_id)
     problems = [m for t in tasks for m in task_missing(t, ctx)]

@@ -116,7 +116,9 @@ class PageData:
 def work_order_page(work_order: WorkOrder) -> PageData:
     unit_id = work_order.unit_id
     return PageData(
-        tasks=list(work_order.tasks.select_related("component", "not_done_by").order_by("id")),
+        tasks=list(
+            work_order.tasks.select_related("component", "due_item", "not_done_by").order_by("id")
+        ),
         flags=list(UnitFlag.objects.filter(unit_id=unit_id).order_by("code")),
         due_items=list(
             DueItem.objects.filter(unit_id=unit_id)
