@@ -51,6 +51,7 @@ def page_context_build(
 ) -> dict[str, Any]:
     """Everything the work-order page (workorders/detail.html) shows."""
     data = selectors.work_order_page(wo)
+    settled = selectors.tasks_settled_elsewhere(work_order=wo, tasks=data.tasks)
     role = user_role(request.user)
     editable = wo.status == WorkOrder.Status.OPEN and role in WRITERS
     last = data.last_reading
@@ -59,7 +60,11 @@ def page_context_build(
         "unit": wo.unit,
         "site_tz": wo.unit.site.time_zone,
         "system": data.ctx.system,
-        "task_views": [task_view(t, data.ctx) for t in data.tasks],
+        "task_views": [task_view(t, data.ctx, settled_by=settled.get(t.pk)) for t in data.tasks],
+        # Every task's item was done in another work order: nothing is left to do here.
+        "settled_by": sorted({w.number: w for w in settled.values()}.values(), key=str)
+        if settled and len(settled) == len(data.tasks)
+        else [],
         "flags": data.flags,
         "due_items": data.due_items,
         "last_reading": last,

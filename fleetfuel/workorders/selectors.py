@@ -14,7 +14,7 @@ from fleetfuel.fleet.models import HIGH_PRESSURE_KINDS, Component, MeasurementLi
 from fleetfuel.planning.models import DueItem, UnitFlag
 
 from .context import TaskContext
-from .kinds import HIGH_PRESSURE_TASK_KINDS
+from .kinds import HIGH_PRESSURE_TASK_KINDS, ITEM_DOING_KINDS
 from .models import WorkOrder, WorkOrderTask
 
 
@@ -167,3 +167,36 @@ def open_work_orders_holding(*, item_ids: list[int]) -> dict[int, WorkOrder]:
         if task.due_item_id is not None:
             held.setdefault(task.due_item_id, task.work_order)
     return held
+
+
+def tasks_settled_elsewhere(
+    *, work_order: WorkOrder, tasks: list[WorkOrderTask]
+) -> dict[int, WorkOrder]:
+    """The open work order's tasks (of ``tasks``) whose due item another work order has done
+    since this one was made: task id -> that work order. Done means a task of the same kind,
+    or of a kind that does the item (a filter changed, a separator drained), recorded at a
+    close. One query, none when no task comes from a due item."""
+    pending = {
+        t.pk: t for t in tasks if t.due_item_id is not None and not t.done and not t.is_not_done
+    }
+    if work_order.status != WorkOrder.Status.OPEN or not pending:
+        return {}
+    done = (
+        WorkOrderTask.objects.filter(
+            done=True,
+            due_item_id__in={t.due_item_id for t in pending.values()},
+            work_order__status=WorkOrder.Status.CLOSED,
+            work_order__closed_at__gte=work_order.created_at,
+        )
+        .exclude(work_order_id=work_order.pk)
+        .select_related("work_order")
+        .order_by("work_order__closed_at", "pk")
+    )
+    by: dict[int, WorkOrder] = {}
+    for other in done:
+        for task in pending.values():
+            same_item = other.due_item_id == task.due_item_id
+            does_it = other.kind in ITEM_DOING_KINDS or other.kind == task.kind
+            if same_item and does_it:
+                by.setdefault(task.pk, other.work_order)
+    return by

@@ -12,7 +12,7 @@ from fleetfuel.fleet.models import Component, ComponentKind, MeterReading, Meter
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem
-from fleetfuel.workorders import close as close_module
+from fleetfuel.workorders import close_writes
 from fleetfuel.workorders.close import CloseOutcome, work_order_close
 from fleetfuel.workorders.forms import JobEntry
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
@@ -431,7 +431,7 @@ def test_a_server_error_records_nothing_and_says_how_to_retry(
     def broken(**kwargs: Any) -> None:
         raise RuntimeError("disk full")
 
-    monkeypatch.setattr(close_module, "service_event_append", broken)
+    monkeypatch.setattr(close_writes, "service_event_append", broken)
     response = as_mechanic.post(
         reverse("workorders:close", args=[wo.pk]), {"token": "t-err", "hour_meter": "2000"}
     )
