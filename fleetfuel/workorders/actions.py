@@ -131,8 +131,11 @@ def task_draft_save(
             task.entry = draft.entry
             task.cylinder = draft.cylinder
             task.component_id = draft.component_id
+            task.description = draft.description or task.description
             task.draft_saved_at = now
-            task.save(update_fields=["entry", "cylinder", "component", "draft_saved_at"])
+            task.save(
+                update_fields=["entry", "cylinder", "component", "description", "draft_saved_at"]
+            )
             return task
     raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=task.work_order_id))
 

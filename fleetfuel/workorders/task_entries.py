@@ -4,6 +4,7 @@ service event it becomes, and a task added on the page."""
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from typing import Any
 
@@ -54,7 +55,23 @@ def task_draft_clean(task: WorkOrderTask, data: Any, ctx: TaskContext) -> TaskDr
     if moved and spec.per_cylinder and spec.component_kind:
         comp = ctx.component(spec.component_kind, draft.cylinder) if draft.cylinder else None
         draft.component_id = comp.pk if comp else None
+    if moved and draft.cylinder != task.cylinder:
+        draft.description = title_for_cylinder(task, draft.cylinder)
     return draft
+
+
+def title_for_cylinder(task: WorkOrderTask, cylinder: int | None) -> str:
+    """The task's title when its cylinder changes: the cylinder it names is the new one; a
+    title naming none gets it added, one naming it loses it when the cylinder is cleared."""
+    title = task.description
+    named = re.compile(rf"\bcylinder {task.cylinder}\b", re.IGNORECASE) if task.cylinder else None
+    if named is not None and named.search(title):
+        if cylinder is None:
+            return re.sub(rf",?\s*\bcylinder {task.cylinder}\b", "", title, flags=re.I).strip()
+        return named.sub(lambda m: f"{m.group(0)[:8]} {cylinder}", title)
+    if cylinder is not None and not re.search(r"\bcylinder \d+\b", title, re.IGNORECASE):
+        return f"{title}, cylinder {cylinder}"[:200]
+    return title
 
 
 def task_missing(task: WorkOrderTask, ctx: TaskContext) -> list[str]:

@@ -126,7 +126,7 @@ def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     response = render(
         request,
         "workorders/detail.html#task-status",
-        {"tv": tv, "site_tz": wo.unit.site.time_zone, "save_error": save_error},
+        {"tv": tv, "site_tz": wo.unit.site.time_zone, "save_error": save_error, "oob": True},
         status=status,
     )
     return response_vary(response)
