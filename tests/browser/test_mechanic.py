@@ -253,3 +253,58 @@ def test_mechanic_marks_a_task_not_done_undoes_it_and_closes_without_it(
     assert kinds == {"injector_replaced", "connector_replaced"}
     primary_due.refresh_from_db()
     assert primary_due.status == DueItem.Status.OVERDUE
+
+
+# ----------------------------------------------------------------- touch targets
+
+# Everything a gloved finger can touch: links, buttons, fields, check boxes, the "cannot be
+# done" summaries. 44 x 44 CSS px is the minimum target of WCAG 2.2, success criterion 2.5.5
+# (Target Size, Enhanced). A link inside a sentence is exempt there (inline), and so here: a
+# plain link whose parent has other text of its own.
+SMALL_TARGETS = """() => {
+  const sel = 'a[href], button, input:not([type=hidden]), select, textarea, summary';
+  const inline = (el) => el.tagName === 'A' && !el.classList.contains('btn') &&
+    el.parentElement && el.parentElement.textContent.trim() !== el.textContent.trim() &&
+    ['P', 'LI', 'SPAN', 'DD', 'STRONG'].includes(el.parentElement.tagName);
+  return [...document.querySelectorAll(sel)]
+    .filter(el => el.getClientRects().length && getComputedStyle(el).visibility !== 'hidden')
+    .filter(el => !inline(el))
+    .map(el => [el, el.getBoundingClientRect()])
+    .filter(([el, r]) => r.width < 44 || r.height < 44)
+    .map(([el, r]) => `${Math.round(r.width)}x${Math.round(r.height)} ${el.outerHTML.slice(0, 90)}`);
+}"""
+
+VIEWPORTS = [(1280, 800), (768, 1024)]
+
+
+def targets_checked(page: Any, where: str) -> None:
+    small = list(page.evaluate(SMALL_TARGETS))
+    assert small == [], f"{where}: " + " | ".join(small)
+
+
+@pytest.mark.parametrize(("width", "height"), VIEWPORTS, ids=["1280x800", "768x1024"])
+def test_every_touch_target_on_the_mechanics_pages_is_44_px(
+    login_page: Any, job: WorkOrder, mechanic: Any, manager: Any, width: int, height: int
+) -> None:
+    from playwright.sync_api import expect
+
+    task_make(job, K.SEPARATOR_DRAIN, description="Drain water separator")
+    page = login_page(mechanic, width=width, height=height)
+    expect(page.locator("h1")).to_have_text("My work")
+    targets_checked(page, "my work")
+
+    page.goto(f"/work/{job.pk}/")
+    # Every form open: the meter replaced, a "cannot be done" reason, the cylinder asked.
+    page.check("#meter_replaced")
+    page.locator(".not-done-box > summary").first.click()
+    page.select_option("#add-kind", K.CONNECTOR_REPLACE)
+    expect(page.locator("#add-cylinder")).to_be_visible()
+    targets_checked(page, "work order page")
+    box = page.locator("#meter_replaced").bounding_box()
+    assert box["width"] >= 44 and box["height"] >= 44  # the check box itself, not only its label
+    screenshot(page, f"mechanic-targets-{width}x{height}")
+
+    manager_page = login_page(manager, width=width, height=height)
+    manager_page.goto("/work/all/")
+    expect(manager_page.locator("table.wo-table")).to_contain_text("WO-0300")
+    targets_checked(manager_page, "work order list")
