@@ -271,7 +271,8 @@ SMALL_TARGETS = """() => {
     .filter(el => !inline(el))
     .map(el => [el, el.getBoundingClientRect()])
     .filter(([el, r]) => r.width < 44 || r.height < 44)
-    .map(([el, r]) => `${Math.round(r.width)}x${Math.round(r.height)} ${el.outerHTML.slice(0, 90)}`);
+    .map(([el, r]) => `${Math.round(r.width)}x${Math.round(r.height)} ` +
+      el.outerHTML.slice(0, 90));
 }"""
 
 VIEWPORTS = [(1280, 800), (768, 1024)]
