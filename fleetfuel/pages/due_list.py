@@ -4,7 +4,6 @@ with work orders made from the ones picked. Composed here because it reads both 
 from __future__ import annotations
 
 from django.contrib import messages
-from django.db.models import OuterRef, Subquery
 from django.http import HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
@@ -21,18 +20,10 @@ from fleetfuel.planning.due_selectors import due_page
 from fleetfuel.planning.forms import DueFilterForm, WorkListSettingsForm
 from fleetfuel.planning.source_selectors import source_decisions_open
 from fleetfuel.planning.worklists import recent_dispatches
+from fleetfuel.workorders import selectors
 from fleetfuel.workorders.actions import WorkOrderCreateError, work_orders_from_due_items
-from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
 
 from .due_rows import count_chips, due_groups
-
-
-def _open_order(field: str) -> Subquery:
-    """The open work order holding a due item (the outer row), as one of its fields."""
-    tasks = WorkOrderTask.objects.filter(
-        due_item_id=OuterRef("pk"), work_order__status=WorkOrder.Status.OPEN
-    ).order_by("work_order_id")
-    return Subquery(tasks.values(field)[:1])
 
 
 @role_required(Role.MANAGER)
@@ -52,10 +43,7 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
         site_ids=site_ids,
         data=data,
         today=today,
-        annotations={
-            "order_id": _open_order("work_order_id"),
-            "order_number": _open_order("work_order__number"),
-        },
+        annotations=selectors.due_item_open_work_order(),
     )
     groups, decisions_elsewhere = due_groups(
         items=page.items,
@@ -106,13 +94,8 @@ def work_orders_create(request: HtmxHttpRequest) -> HttpResponse:
     except WorkOrderCreateError as exc:
         messages.error(request, str(exc))
     else:
-        if created.orders:
-            names = ", ".join(f"{o.number} ({o.unit.fleet_number})" for o in created.orders)
-            messages.success(request, f"Created {len(created.orders)} work order(s): {names}.")
-        if created.skipped:
-            messages.warning(
-                request, "Already in an open work order: " + "; ".join(created.skipped) + "."
-            )
+        names = ", ".join(f"{o.number} ({o.unit.fleet_number})" for o in created.orders)
+        messages.success(request, f"Created {len(created.orders)} work order(s): {names}.")
     target = reverse("pages:due_list") + (
         "?" + request.POST["return_query"] if request.POST.get("return_query") else ""
     )

@@ -152,11 +152,11 @@ def _row(item: Any, today: date, links: _Links, flags: list[UnitFlag]) -> DueRow
     timing, timing_title = _timing(item, today, style)
     task_long = TASK_LONG.get(item.task, item.task)
     fleet_number = esc(unit.fleet_number)
-    if getattr(item, "order_id", None):
+    if getattr(item, "open_work_order_id", None):
         select = '<span class="muted" title="Already in an open work order">\u2014</span>'
-        number = esc(item.order_number)
+        number = esc(item.open_work_order_number)
         order = (
-            f'<a class="badge st-ok" href="{links.of(links.order, item.order_id)}" '
+            f'<a class="badge st-ok" href="{links.of(links.order, item.open_work_order_id)}" '
             f'title="In open work order {number}">{number}</a>'
         )
     else:

@@ -30,7 +30,7 @@ from services import bounds
 from .forms import JobEntry, TaskDraft
 from .kinds import Kind, kind_for_due_task
 from .models import WorkOrder, WorkOrderTask
-from .selectors import due_item_ids_in_open_work_orders
+from .selectors import open_work_orders_holding
 from .task_entries import NewTask
 
 
@@ -131,8 +131,11 @@ def task_draft_save(
             task.entry = draft.entry
             task.cylinder = draft.cylinder
             task.component_id = draft.component_id
+            task.description = draft.description or task.description
             task.draft_saved_at = now
-            task.save(update_fields=["entry", "cylinder", "component", "draft_saved_at"])
+            task.save(
+                update_fields=["entry", "cylinder", "component", "description", "draft_saved_at"]
+            )
             return task
     raise WorkOrderNotOpen(WorkOrder.objects.select_related("closed_by").get(pk=task.work_order_id))
 
@@ -282,7 +285,6 @@ class WorkOrderCreateError(Exception):
 @dataclass(frozen=True)
 class CreatedOrders:
     orders: list[WorkOrder]
-    skipped: list[str]  # items already in an open work order, in words
 
 
 def mechanic_for_site(site_id: int) -> User | None:
@@ -311,7 +313,10 @@ def work_orders_from_due_items(
     """One work order per unit with one task per selected item, assigned to a mechanic of the
     unit's site, due on the earliest item's date (today for overdue items).
 
-    Items already in an open work order are skipped and named. All or nothing.
+    An item already in an open work order is never put in another: the whole selection is
+    refused, naming the item and the work order that holds it. The items' rows are locked
+    first (``select_for_update``), so of two managers picking the same item at once the second
+    waits, then sees the first one's work order and is refused. All or nothing.
     """
     if not item_ids:
         raise WorkOrderCreateError("Select at least one due item.")
@@ -326,20 +331,32 @@ def work_orders_from_due_items(
             raise WorkOrderCreateError(
                 "Some selected items no longer exist or are not at your sites; reload the list."
             )
-        busy = due_item_ids_in_open_work_orders(item_ids=item_ids)
+        # Read after the locks are granted: a work order committed meanwhile is seen.
+        held = open_work_orders_holding(item_ids=item_ids)
+        if held:
+            raise WorkOrderCreateError(held_refusal(items, held))
         by_unit: dict[int, list[DueItem]] = defaultdict(list)
-        skipped = []
         for item in items:
-            if item.pk in busy:
-                skipped.append(f"{item.unit.fleet_number}: {item.get_task_display()}")
-            else:
-                by_unit[item.unit_id].append(item)
+            by_unit[item.unit_id].append(item)
         now = now or timezone.now()
         orders = [
             _work_order_from_items(unit_items, created_by=created_by, today=today, now=now)
             for unit_items in by_unit.values()
         ]
-        return CreatedOrders(orders=orders, skipped=skipped)
+        return CreatedOrders(orders=orders)
+
+
+def held_refusal(items: list[DueItem], held: dict[int, WorkOrder]) -> str:
+    """Why a selection was refused: each item already in an open work order, and which."""
+    named = "; ".join(
+        f"{i.unit.fleet_number}: {i.get_task_display()} is in open work order {held[i.pk].number}"
+        for i in items
+        if i.pk in held
+    )
+    return (
+        f"No work order was made. An item already in an open work order cannot be put in "
+        f"another: {named}. Untick it, or add to that work order."
+    )
 
 
 def _work_order_from_items(

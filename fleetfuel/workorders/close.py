@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import uuid
 from dataclasses import dataclass, field
-from datetime import date, datetime, timedelta
+from datetime import datetime
 from typing import Any
 from zoneinfo import ZoneInfo
 
@@ -33,7 +33,6 @@ from django.utils import timezone
 
 from fleetfuel.accounts.access import user_role
 from fleetfuel.fleet.checks import meter_reading_refusal
-from fleetfuel.fleet.models import Component, MeterReading, MeterReplacement
 from fleetfuel.ledger.actions import service_event_append
 from fleetfuel.ledger.models import ServiceEvent
 from services import hour_meter, rules
@@ -47,12 +46,11 @@ from .actions import (
     person_name,
     work_order_locked,
 )
-from .context import TaskContext
+from .close_writes import CloseVisit, records_write
 from .forms import JobEntry
-from .kinds import Kind, kind_spec
 from .models import WorkOrder, WorkOrderTask
-from .selectors import last_meter_reading, task_context
-from .task_entries import closed_task, task_component, task_event_fields, task_missing
+from .selectors import last_meter_reading, task_context, tasks_settled_elsewhere
+from .task_entries import closed_task, task_missing
 
 
 @dataclass
@@ -75,24 +73,16 @@ class CloseOutcome:
     not_done: list[WorkOrderTask] = field(default_factory=list)  # left out, still due
 
 
-@dataclass
-class _Visit:
-    """What the close reads of an open work order, under its lock."""
-
-    ctx: TaskContext
-    tasks: list[WorkOrderTask]  # to record
-    not_done: list[WorkOrderTask]  # left out
-    last: MeterReading | None
-    closed: list[rules.ClosedTask]
-    violations: list[rules.RuleViolation]
-    problems: list[str]
-
-
 def not_done_note(*, task: WorkOrderTask) -> str:
     """The line a close appends to the work order's notes for a task not done."""
     return (
         f"Not done: {task.description} — {task.not_done_reason} ({person_name(task.not_done_by)})"
     )
+
+
+def settled_note(*, task: WorkOrderTask, by: WorkOrder) -> str:
+    """The line a close appends for a task whose item another work order did."""
+    return f"Done in work order {by.number}: {task.description} (not recorded again here)"
 
 
 def work_order_close(
@@ -144,7 +134,7 @@ def work_order_close(
             refusal = _refusal(wo, visit, user=user, override=override, reason=override_reason)
             if refusal is not None:
                 return refusal  # else every violation is overridden
-        follow_up = _records_write(wo=wo, user=user, visit=visit, now=now)
+        follow_up = records_write(wo=wo, user=user, visit=visit, now=now)
         _close_mark(wo, user=user, token=token, visit=visit, reason=override_reason, now=now)
         return CloseOutcome(
             result="closed",
@@ -185,20 +175,26 @@ def _closed_by_other(wo: WorkOrder, *, user: Any, now: datetime, entered: str) -
     )
 
 
-def _visit_read(wo: WorkOrder, *, now: datetime) -> _Visit:
-    """The tasks, the last reading, what is missing and what the rules say."""
+def _visit_read(wo: WorkOrder, *, now: datetime) -> CloseVisit:
+    """The tasks, the last reading, what is missing and what the rules say. A task whose
+    due item another work order has done since is left out, like a task not done; a work
+    order with nothing else left records no visit (no hour meter asked)."""
     ctx = task_context(wo)
-    every = list(wo.tasks.select_related("component", "not_done_by").order_by("id"))
-    tasks = [t for t in every if not t.is_not_done]
+    every = list(wo.tasks.select_related("component", "due_item", "not_done_by").order_by("id"))
+    settled = tasks_settled_elsewhere(work_order=wo, tasks=every)
+    tasks = [t for t in every if not t.is_not_done and t.pk not in settled]
+    settled_pairs = [(t, settled[t.pk]) for t in every if t.pk in settled]
+    not_done = [t for t in every if t.is_not_done]
     last = last_meter_reading(wo.unit_id)
     problems = [m for t in tasks for m in task_missing(t, ctx)]
-    problems += hour_meter.meter_entry_problems(
-        hour_meter=wo.hour_meter,
-        meter_replaced=wo.meter_replaced,
-        meter_old_final=wo.meter_old_final,
-        meter_new_start=wo.meter_new_start,
-        last_hours=last.hours if last else None,
-    )
+    if tasks or not_done:
+        problems += hour_meter.meter_entry_problems(
+            hour_meter=wo.hour_meter,
+            meter_replaced=wo.meter_replaced,
+            meter_old_final=wo.meter_old_final,
+            meter_new_start=wo.meter_new_start,
+            last_hours=last.hours if last else None,
+        )
     if not every:
         problems.append("There is nothing recorded on this work order: add a task first.")
     closed = [closed_task(t, ctx) for t in tasks]
@@ -210,10 +206,11 @@ def _visit_read(wo: WorkOrder, *, now: datetime) -> _Visit:
         cylinders=wo.unit.cylinders,
     )
     problems += _meter_implausible(wo, violations=violations, now=now)
-    return _Visit(
+    return CloseVisit(
         ctx=ctx,
         tasks=tasks,
-        not_done=[t for t in every if t.is_not_done],
+        not_done=not_done,
+        settled=settled_pairs,
         last=last,
         closed=closed,
         violations=violations,
@@ -237,7 +234,7 @@ def _meter_implausible(
 
 
 def _refusal(
-    wo: WorkOrder, visit: _Visit, *, user: Any, override: bool, reason: str
+    wo: WorkOrder, visit: CloseVisit, *, user: Any, override: bool, reason: str
 ) -> CloseOutcome | None:
     """Why the close is refused, or None when a permitted override lets it through."""
     refused = CloseOutcome(
@@ -263,15 +260,17 @@ def _close_mark(
     *,
     user: Any,
     token: str,
-    visit: _Visit,
+    visit: CloseVisit,
     reason: str,
     now: datetime,
 ) -> None:
     """The work order is closed, by whom and when; tasks not done are noted, an override (of
     the violations a close still has) is recorded in the ledger."""
     overridden = visit.violations
-    if visit.not_done:
-        note_append(wo, "\n".join(not_done_note(task=t) for t in visit.not_done))
+    lines = [settled_note(task=t, by=by) for t, by in visit.settled]
+    lines += [not_done_note(task=t) for t in visit.not_done]
+    if lines:
+        note_append(wo, "\n".join(lines))
     if overridden:
         wo.override_reason = reason.strip()
         wo.override_by = user
@@ -293,124 +292,6 @@ def _close_mark(
     wo.close_token = token
     fields = ["status", "closed_at", "closed_by", "close_token", "override_reason", "override_by"]
     wo.save(update_fields=fields)
-
-
-# --------------------------------------------------------------------------- what a close writes
-
-
-def _records_write(*, wo: WorkOrder, user: Any, visit: _Visit, now: datetime) -> WorkOrder | None:
-    """Write the readings, the service events, the renewed parts and the follow-up (inside
-    the caller's transaction). The planning recompute is enqueued on commit by the ledger's
-    signal."""
-    common = {
-        "unit": wo.unit,
-        "performed_at": now,
-        "recorded_by": user,
-        "recorded_at": now,
-        "hour_meter": wo.hour_meter,
-        "work_order": wo,
-    }
-    _meter_write(wo, last=visit.last, now=now, common=common)
-    today = local_time(now, wo.unit).date()
-    for task in visit.tasks:
-        _task_event_write(task, visit.ctx, common=common, today=today)
-    # Tasks marked not done stay not done: their due items remain due.
-    WorkOrderTask.objects.filter(pk__in=[t.pk for t in visit.tasks]).update(done=True)
-    if not rules.follow_ups(tasks=visit.closed):
-        return None
-    return _follow_up_create(wo=wo, user=user, visit=visit, now=now)
-
-
-def _meter_write(
-    wo: WorkOrder, *, last: MeterReading | None, now: datetime, common: dict[str, Any]
-) -> None:
-    """The reading at the job, after a meter replacement when one was made."""
-    if wo.meter_replaced:
-        old_final = (
-            wo.meter_old_final if wo.meter_old_final is not None else last.hours if last else 0
-        )
-        MeterReplacement.objects.create(
-            unit=wo.unit,
-            replaced_at=now,
-            old_meter_final=old_final,
-            new_meter_start=wo.meter_new_start or 0.0,
-            note=f"Work order {wo.number}",
-        )
-        service_event_append(
-            kind=ServiceEvent.Kind.METER_REPLACED,
-            notes=(
-                f"Old meter's final reading {old_final:g} h; new meter started at "
-                f"{wo.meter_new_start or 0:g} h."
-            ),
-            **common,
-        )
-    MeterReading.objects.create(
-        unit=wo.unit, taken_at=now, hours=wo.hour_meter, source=MeterReading.Source.WORK_ORDER
-    )
-
-
-def _task_event_write(
-    task: WorkOrderTask, ctx: TaskContext, *, common: dict[str, Any], today: date
-) -> None:
-    """The task's service event, its fields as its kind builds them; a renewed part."""
-    spec = kind_spec(task.kind)
-    comp = task_component(task, ctx)
-    service_event_append(kind=spec.event_kind, **task_event_fields(task, ctx, comp), **common)
-    if spec.records is not None:
-        spec.records(task, comp, common["performed_at"], common["hour_meter"])
-    if comp is not None and spec.renews_component:
-        _component_renew(comp, task, today=today, hours=common["hour_meter"])
-
-
-def _component_renew(
-    comp: Component, task: WorkOrderTask, *, today: date, hours: float | None
-) -> None:
-    """The fitted part is now the new one: its serial, part number and fitting point."""
-    entry = task.entry
-    comp.installed_on = today
-    comp.installed_hours = hours if hours is not None else comp.installed_hours
-    update = ["installed_on", "installed_hours"]
-    if entry.get("new_serial"):
-        comp.serial = str(entry["new_serial"])
-        update.append("serial")
-    if entry.get("part_number"):
-        comp.part_number = str(entry["part_number"])
-        update.append("part_number")
-    comp.save(update_fields=update)
-
-
-def _follow_up_number(wo: WorkOrder) -> str:
-    number = f"{wo.number}-F"
-    if len(number) > 20 or WorkOrder.objects.filter(number=number).exists():
-        number = f"FU-{wo.pk}"
-    return number
-
-
-def _follow_up_create(*, wo: WorkOrder, user: Any, visit: _Visit, now: datetime) -> WorkOrder:
-    follow_up = WorkOrder.objects.create(
-        number=_follow_up_number(wo),
-        unit=wo.unit,
-        priority=WorkOrder.Priority.HIGH,
-        due_on=local_time(now, wo.unit).date() + timedelta(days=1),
-        assigned_to=wo.assigned_to,
-        created_by=user,
-        created_at=now,
-        follow_up_of=wo,
-        notes=f"Created when {wo.number} closed: a measurement was outside its limits.",
-    )
-    for task, ct in zip(visit.tasks, visit.closed, strict=True):
-        (text,) = rules.follow_ups(tasks=[ct]) or (None,)
-        if text is None:
-            continue
-        limit = visit.ctx.limit_for(task)
-        WorkOrderTask.objects.create(
-            work_order=follow_up,
-            kind=Kind.MEASUREMENT,
-            cylinder=task.cylinder,
-            description=text[:200],
-            entry={"limit_id": limit.pk} if limit else {},
-        )
-    return follow_up
 
 
 def job_draft_keep(*, work_order_id: int, job: JobEntry, now: datetime) -> None:

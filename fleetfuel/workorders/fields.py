@@ -186,12 +186,41 @@ class AppearanceField(PickField):
 
 
 class FilterField(PickField):
-    """Which fitted filter: kept as the task's component."""
+    """Which fitted filter: kept as the task's component. A task made from a due item is
+    bound to that item's filter: it is the one option, shown but not changeable, and a post
+    naming another is refused (another filter is another task)."""
 
     invalid = "Filter: choose one of the fitted filters."
+    bound: int | None = None  # the due item's filter, for a task made from one
+
+    def bind(self, form: TaskForm, name: str) -> None:
+        super().bind(form, name)
+        self.bound = form.task.bound_component_id
+        if self.bound is not None:
+            self.widget.attrs["disabled"] = True
+            self.help_text = (
+                "From the due list: this task is for this filter. Another filter changed is "
+                "another task: add it under “Add a task”."
+            )
+            shown = self.options[0][1] if self.options else "the due list's filter"
+            self.invalid = (
+                f"Filter: this task is for the {shown.lower()} (from the due list) and cannot "
+                f"be switched to another. Another filter changed is another task: add it "
+                f"under “Add a task”."
+            )
+
+    def to_python(self, value: Any) -> Any:
+        if self.bound is not None and str(value or "") != str(self.bound):
+            raise ValidationError(self.invalid)
+        return super().to_python(value)
 
     def options_for(self, form: TaskForm) -> list[tuple[str, str]]:
-        return [(str(c.pk), c.get_kind_display()) for c in form.ctx.filters()]
+        bound = form.task.bound_component_id
+        return [
+            (str(c.pk), c.get_kind_display())
+            for c in form.ctx.filters()
+            if bound is None or c.pk == bound
+        ]
 
     def stored(self, form: TaskForm) -> Any:
         return form.task.component_id

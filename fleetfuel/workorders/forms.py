@@ -45,6 +45,7 @@ class TaskDraft:
     cylinder: int | None
     component_id: int | None
     errors: dict[str, str] = field(default_factory=dict)
+    description: str = ""  # the task's title where it follows the cylinder; "" unchanged
 
 
 COMMON_FIELDS = ("parts_used", "notes")

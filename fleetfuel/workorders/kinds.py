@@ -264,6 +264,8 @@ KINDS: dict[Kind, TaskKindSpec] = {
 }
 
 HIGH_PRESSURE_TASK_KINDS = [k for k, spec in KINDS.items() if spec.high_pressure]
+# The kinds that do a due item (a filter changed, a separator drained): one done settles it.
+ITEM_DOING_KINDS = [k for k, spec in KINDS.items() if spec.due_tasks]
 
 
 def kind_spec(kind: str) -> TaskKindSpec:

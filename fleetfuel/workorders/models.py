@@ -154,3 +154,9 @@ class WorkOrderTask(models.Model):
     @property
     def is_not_done(self) -> bool:
         return self.not_done_at is not None
+
+    @property
+    def bound_component_id(self) -> int | None:
+        """The part a task made from a due item works on: that item's, and no other (a
+        different part is a different task). None for a task added on the page."""
+        return self.due_item.component_id if self.due_item is not None else None

@@ -15,7 +15,7 @@ from .context import TaskContext, limit_passed, limit_text
 from .fields import TaskField
 from .forms import TaskForm
 from .kinds import kind_spec
-from .models import WorkOrderTask
+from .models import WorkOrder, WorkOrderTask
 from .task_entries import task_form, task_is_high_pressure, task_missing
 
 
@@ -43,6 +43,7 @@ class TaskView:
     missing: list[str]
     not_done_error: str = ""  # why "mark not done" was refused
     not_done_typed: str = ""  # the reason as typed, kept for a retry
+    settled_by: WorkOrder | None = None  # another work order did its due item since
 
 
 def _field_view(form: TaskForm, f: TaskField, name: str, error: str) -> FieldView:
@@ -60,7 +61,11 @@ def _field_view(form: TaskForm, f: TaskField, name: str, error: str) -> FieldVie
 
 
 def task_view(
-    task: WorkOrderTask, ctx: TaskContext, errors: Mapping[str, str] | None = None
+    task: WorkOrderTask,
+    ctx: TaskContext,
+    errors: Mapping[str, str] | None = None,
+    *,
+    settled_by: WorkOrder | None = None,
 ) -> TaskView:
     errors = errors or {}
     form = task_form(task, ctx)
@@ -73,5 +78,6 @@ def task_view(
         limit=limit,
         limit_text=limit_text(limit, ctx.system) if limit else "",
         passed=limit_passed(value if isinstance(value, int | float) else None, limit),
-        missing=task_missing(task, ctx),
+        missing=[] if settled_by else task_missing(task, ctx),
+        settled_by=settled_by,
     )

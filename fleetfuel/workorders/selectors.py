@@ -14,7 +14,7 @@ from fleetfuel.fleet.models import HIGH_PRESSURE_KINDS, Component, MeasurementLi
 from fleetfuel.planning.models import DueItem, UnitFlag
 
 from .context import TaskContext
-from .kinds import HIGH_PRESSURE_TASK_KINDS
+from .kinds import HIGH_PRESSURE_TASK_KINDS, ITEM_DOING_KINDS
 from .models import WorkOrder, WorkOrderTask
 
 
@@ -116,7 +116,9 @@ class PageData:
 def work_order_page(work_order: WorkOrder) -> PageData:
     unit_id = work_order.unit_id
     return PageData(
-        tasks=list(work_order.tasks.select_related("component", "not_done_by").order_by("id")),
+        tasks=list(
+            work_order.tasks.select_related("component", "due_item", "not_done_by").order_by("id")
+        ),
         flags=list(UnitFlag.objects.filter(unit_id=unit_id).order_by("code")),
         due_items=list(
             DueItem.objects.filter(unit_id=unit_id)
@@ -140,10 +142,61 @@ def due_item_in_open_work_order() -> Exists:
     return Exists(_open_work_order_tasks().filter(due_item_id=OuterRef("pk")))
 
 
-def due_item_ids_in_open_work_orders(*, item_ids: list[int]) -> set[int]:
-    """Which of these due items are tasks of an open work order. One query."""
-    return set(
+def due_item_open_work_order() -> dict[str, Any]:
+    """Annotations of a due item (the outer row of a query): whether an open work order holds
+    it (``in_work_order``), and which one (``open_work_order_id``, ``open_work_order_number``;
+    None when none). Subqueries of the same query: no query more."""
+    held = _open_work_order_tasks().filter(due_item_id=OuterRef("pk")).order_by("work_order_id")
+    return {
+        "in_work_order": due_item_in_open_work_order(),
+        "open_work_order_id": Subquery(held.values("work_order_id")[:1]),
+        "open_work_order_number": Subquery(held.values("work_order__number")[:1]),
+    }
+
+
+def open_work_orders_holding(*, item_ids: list[int]) -> dict[int, WorkOrder]:
+    """Which of these due items are tasks of an open work order, and of which. One query."""
+    tasks = (
         _open_work_order_tasks()
         .filter(due_item_id__in=item_ids)
-        .values_list("due_item_id", flat=True)
+        .select_related("work_order")
+        .order_by("work_order_id")
     )
+    held: dict[int, WorkOrder] = {}
+    for task in tasks:
+        if task.due_item_id is not None:
+            held.setdefault(task.due_item_id, task.work_order)
+    return held
+
+
+def tasks_settled_elsewhere(
+    *, work_order: WorkOrder, tasks: list[WorkOrderTask]
+) -> dict[int, WorkOrder]:
+    """The open work order's tasks (of ``tasks``) whose due item another work order has done
+    since this one was made: task id -> that work order. Done means a task of the same kind,
+    or of a kind that does the item (a filter changed, a separator drained), recorded at a
+    close. One query, none when no task comes from a due item."""
+    pending = {
+        t.pk: t for t in tasks if t.due_item_id is not None and not t.done and not t.is_not_done
+    }
+    if work_order.status != WorkOrder.Status.OPEN or not pending:
+        return {}
+    done = (
+        WorkOrderTask.objects.filter(
+            done=True,
+            due_item_id__in={t.due_item_id for t in pending.values()},
+            work_order__status=WorkOrder.Status.CLOSED,
+            work_order__closed_at__gte=work_order.created_at,
+        )
+        .exclude(work_order_id=work_order.pk)
+        .select_related("work_order")
+        .order_by("work_order__closed_at", "pk")
+    )
+    by: dict[int, WorkOrder] = {}
+    for other in done:
+        for task in pending.values():
+            same_item = other.due_item_id == task.due_item_id
+            does_it = other.kind in ITEM_DOING_KINDS or other.kind == task.kind
+            if same_item and does_it:
+                by.setdefault(task.pk, other.work_order)
+    return by

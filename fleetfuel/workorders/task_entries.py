@@ -4,6 +4,7 @@ service event it becomes, and a task added on the page."""
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from typing import Any
 
@@ -45,20 +46,56 @@ def task_form(task: WorkOrderTask, ctx: TaskContext, data: Any | None = None) ->
 
 def task_draft_clean(task: WorkOrderTask, data: Any, ctx: TaskContext) -> TaskDraft:
     """Read a task's posted form into a draft. A per-cylinder kind follows its cylinder to the
-    part fitted there."""
+    part fitted there; a task made from a due item keeps that item's part, whatever is posted."""
     draft = task_form(task, ctx, data).draft()
+    if task.bound_component_id is not None:
+        draft.component_id = task.bound_component_id
     spec = kind_spec(task.kind)
     moved = "cylinder" in data and "cylinder" not in draft.errors
     if moved and spec.per_cylinder and spec.component_kind:
         comp = ctx.component(spec.component_kind, draft.cylinder) if draft.cylinder else None
         draft.component_id = comp.pk if comp else None
+    if moved and draft.cylinder != task.cylinder:
+        draft.description = title_for_cylinder(task, draft.cylinder)
     return draft
+
+
+def title_for_cylinder(task: WorkOrderTask, cylinder: int | None) -> str:
+    """The task's title when its cylinder changes: the cylinder it names is the new one; a
+    title naming none gets it added, one naming it loses it when the cylinder is cleared."""
+    title = task.description
+    named = re.compile(rf"\bcylinder {task.cylinder}\b", re.IGNORECASE) if task.cylinder else None
+    if named is not None and named.search(title):
+        if cylinder is None:
+            return re.sub(rf",?\s*\bcylinder {task.cylinder}\b", "", title, flags=re.I).strip()
+        return named.sub(lambda m: f"{m.group(0)[:8]} {cylinder}", title)
+    if cylinder is not None and not re.search(r"\bcylinder \d+\b", title, re.IGNORECASE):
+        return f"{title}, cylinder {cylinder}"[:200]
+    return title
 
 
 def task_missing(task: WorkOrderTask, ctx: TaskContext) -> list[str]:
     """What a task still needs before the work order can close (plain sentences). A task
     marked not done needs nothing."""
-    return [] if task.is_not_done else task_form(task, ctx).missing()
+    if task.is_not_done:
+        return []
+    return task_form(task, ctx).missing() + task_part_mismatch(task, ctx)
+
+
+def task_part_mismatch(task: WorkOrderTask, ctx: TaskContext) -> list[str]:
+    """A task made from a due item set to another part than the item's: it would record a
+    change of the wrong part and leave the item due. Not overridable: set it back."""
+    bound = task.bound_component_id
+    if bound is None or task.component_id == bound:
+        return []
+    due = next((c for c in ctx.components if c.pk == bound), None)
+    other = task.component.get_kind_display() if task.component else "another part"
+    return [
+        f"{task.description}: this task is for the "
+        f"{due.get_kind_display().lower() if due else 'due list’s part'}, but the "
+        f"{other.lower()} is set. Tap “Save” on the task to set it back; another filter "
+        f"changed is another task."
+    ]
 
 
 def closed_task(task: WorkOrderTask, ctx: TaskContext) -> rules.ClosedTask:

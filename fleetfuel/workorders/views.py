@@ -36,6 +36,8 @@ from .page import (
     meter_backwards,
     not_saved_text,
     page_context_build,
+    refusal_pop,
+    refusal_redirect,
     response_vary,
 )
 from .presenters import task_view
@@ -78,7 +80,8 @@ def work_order_list(request: HtmxHttpRequest) -> HttpResponse:
 @role_required(*READERS)
 def detail(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     wo = work_order_for_user(request.user, pk)
-    return render(request, "workorders/detail.html", page_context_build(request, wo))
+    context = page_context_build(request, wo, **refusal_pop(request, wo))
+    return render(request, "workorders/detail.html", context)
 
 
 # --------------------------------------------------------------------------- drafts
@@ -123,7 +126,7 @@ def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     response = render(
         request,
         "workorders/detail.html#task-status",
-        {"tv": tv, "site_tz": wo.unit.site.time_zone, "save_error": save_error},
+        {"tv": tv, "site_tz": wo.unit.site.time_zone, "save_error": save_error, "oob": True},
         status=status,
     )
     return response_vary(response)
@@ -203,8 +206,7 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
     problems = [*job.errors.values(), text_error(reason, label="The override's reason")]
     if any(problems):  # nothing is closed with a value the form would refuse
         text = " ".join(p for p in problems if p)
-        context = page_context_build(request, wo, token=token, server_error=text)
-        return render(request, "workorders/detail.html", context, status=400)
+        return refusal_redirect(request, wo, token=token, server_error=text)
     try:
         outcome = work_order_close(
             work_order_id=wo.pk,
@@ -215,9 +217,8 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
             override_reason=reason,
             snapshot=_snapshot(request),
         )
-    except ValueError as exc:
-        context = page_context_build(request, wo, server_error=str(exc))
-        return render(request, "workorders/detail.html", context, status=400)
+    except ValueError as exc:  # a token of another work order's form: a new one is made
+        return refusal_redirect(request, wo, token="", server_error=str(exc))
     except Exception:
         # Nothing was closed (the transaction rolled back); the drafts are on the server.
         log.exception("closing work order %s failed", wo.pk)
@@ -251,9 +252,10 @@ def _close(request: HttpRequest, pk: int, *, override: bool) -> HttpResponse:
     if outcome.result == "closed_by_other":
         messages.warning(request, outcome.message)
         return redirect("workorders:detail", pk=wo.pk)
-    status = 403 if outcome.forbidden else 200
-    context = page_context_build(request, wo, outcome=outcome, token=token)
-    return render(request, "workorders/detail.html", context, status=status)
+    if outcome.forbidden:  # only a crafted post gets here: mechanics have no override button
+        context = page_context_build(request, wo, outcome=outcome, token=token)
+        return render(request, "workorders/detail.html", context, status=403)
+    return refusal_redirect(request, wo, token=token, outcome=outcome)
 
 
 @role_required(*WRITERS)

@@ -253,3 +253,169 @@ def test_mechanic_marks_a_task_not_done_undoes_it_and_closes_without_it(
     assert kinds == {"injector_replaced", "connector_replaced"}
     primary_due.refresh_from_db()
     assert primary_due.status == DueItem.Status.OVERDUE
+
+
+# ----------------------------------------------------------------- touch targets
+
+# Everything a gloved finger can touch: links, buttons, fields, check boxes, the "cannot be
+# done" summaries. 44 x 44 CSS px is the minimum target of WCAG 2.2, success criterion 2.5.5
+# (Target Size, Enhanced). A link inside a sentence is exempt there (inline), and so here: a
+# plain link whose parent has other text of its own.
+SMALL_TARGETS = """() => {
+  const sel = 'a[href], button, input:not([type=hidden]), select, textarea, summary';
+  const inline = (el) => el.tagName === 'A' && !el.classList.contains('btn') &&
+    el.parentElement && el.parentElement.textContent.trim() !== el.textContent.trim() &&
+    ['P', 'LI', 'SPAN', 'DD', 'STRONG'].includes(el.parentElement.tagName);
+  return [...document.querySelectorAll(sel)]
+    .filter(el => el.getClientRects().length && getComputedStyle(el).visibility !== 'hidden')
+    .filter(el => !inline(el))
+    .map(el => [el, el.getBoundingClientRect()])
+    .filter(([el, r]) => r.width < 44 || r.height < 44)
+    .map(([el, r]) => `${Math.round(r.width)}x${Math.round(r.height)} ` +
+      el.outerHTML.slice(0, 90));
+}"""
+
+VIEWPORTS = [(1280, 800), (768, 1024)]
+
+
+def targets_checked(page: Any, where: str) -> None:
+    small = list(page.evaluate(SMALL_TARGETS))
+    assert small == [], f"{where}: " + " | ".join(small)
+
+
+@pytest.mark.parametrize(("width", "height"), VIEWPORTS, ids=["1280x800", "768x1024"])
+def test_every_touch_target_on_the_mechanics_pages_is_44_px(
+    login_page: Any, job: WorkOrder, mechanic: Any, manager: Any, width: int, height: int
+) -> None:
+    from playwright.sync_api import expect
+
+    task_make(job, K.SEPARATOR_DRAIN, description="Drain water separator")
+    page = login_page(mechanic, width=width, height=height)
+    expect(page.locator("h1")).to_have_text("My work")
+    targets_checked(page, "my work")
+
+    page.goto(f"/work/{job.pk}/")
+    # Every form open: the meter replaced, a "cannot be done" reason, the cylinder asked.
+    page.check("#meter_replaced")
+    page.locator(".not-done-box > summary").first.click()
+    page.select_option("#add-kind", K.CONNECTOR_REPLACE)
+    expect(page.locator("#add-cylinder")).to_be_visible()
+    targets_checked(page, "work order page")
+    box = page.locator("#meter_replaced").bounding_box()
+    assert box["width"] >= 44 and box["height"] >= 44  # the check box itself, not only its label
+    screenshot(page, f"mechanic-targets-{width}x{height}")
+
+    manager_page = login_page(manager, width=width, height=height)
+    manager_page.goto("/work/all/")
+    expect(manager_page.locator("table.wo-table")).to_contain_text("WO-0300")
+    targets_checked(manager_page, "work order list")
+
+
+# ----------------------------------------------------------------- a refused close, reloaded
+
+
+@pytest.mark.parametrize(("width", "height"), VIEWPORTS, ids=["1280x800", "768x1024"])
+def test_a_refused_close_is_shown_on_the_page_and_a_reload_sends_nothing_again(
+    login_page: Any, job: WorkOrder, mechanic: Any, width: int, height: int
+) -> None:
+    from playwright.sync_api import expect
+
+    job.tasks.filter(kind=K.INJECTOR_REPLACE).update(entry={"new_serial": "INJ-3"})
+    job.tasks.filter(kind=K.FILTER_CHANGE).update(entry={"part_number": "PF-1"})
+    page = login_page(mechanic, width=width, height=height)
+    page.goto(f"/work/{job.pk}/")
+    page.fill("#hour_meter", "2012")
+    posts: list[str] = []
+    page.on("request", lambda r: posts.append(r.url) if r.method == "POST" else None)
+    page.click("button.close-btn")
+    refusal = page.locator("#refusal")
+    expect(refusal).to_contain_text("without a new high-pressure connector on cylinder 3")
+    # Post-redirect-get: the page's address is the work order's, not the close's.
+    assert page.url.split("#")[0].endswith(f"/work/{job.pk}/")
+    screenshot(page, f"mechanic-close-refused-{width}x{height}")
+
+    posts.clear()
+    page.reload()
+    page.wait_for_load_state("networkidle")
+    assert [u for u in posts if "/close/" in u] == []  # nothing re-posted
+    expect(page.locator("#refusal")).to_have_count(0)  # shown once
+    assert WorkOrder.objects.get(pk=job.pk).status == WorkOrder.Status.OPEN
+
+    # "Add a task" from the refusal starts with the missing connector on cylinder 3.
+    page.click("button.close-btn")
+    page.click("#refusal a:has-text('Add a task: High-pressure connector replaced, cylinder 3')")
+    expect(page.locator("#add-kind")).to_have_value(K.CONNECTOR_REPLACE)
+    expect(page.locator("#add-cylinder")).to_have_value("3")
+    page.click("button:has-text('Add task')")
+    connector = job.tasks.get(kind=K.CONNECTOR_REPLACE)
+    assert connector.cylinder == 3
+    page.click("button.close-btn")
+    expect(page.locator(".closed-box")).to_contain_text(f"Closed by {mechanic.username}")
+    assert ServiceEvent.objects.filter(work_order=job).count() == 3
+
+
+@pytest.mark.parametrize(("width", "height"), VIEWPORTS, ids=["1280x800", "768x1024"])
+def test_the_title_follows_the_cylinder_on_the_page(
+    login_page: Any, job: WorkOrder, mechanic: Any, width: int, height: int
+) -> None:
+    from playwright.sync_api import expect
+
+    task = task_make(
+        job,
+        K.CONNECTOR_REPLACE,
+        cylinder=3,
+        description="High-pressure connector replaced, cylinder 3",
+    )
+    page = login_page(mechanic, width=width, height=height)
+    page.goto(f"/work/{job.pk}/")
+    page.select_option(f"#t{task.pk}-cylinder", "4")
+    title = page.locator(f"#task-{task.pk}-title")
+    expect(title).to_have_text("High-pressure connector replaced, cylinder 4")
+    task.refresh_from_db()
+    assert task.cylinder == 4 and task.description.endswith("cylinder 4")
+
+
+# ----------------------------------------------------------------- the due item's filter
+
+
+@pytest.mark.parametrize(("width", "height"), VIEWPORTS, ids=["1280x800", "768x1024"])
+def test_a_filter_task_from_the_due_list_cannot_be_closed_on_another_filter(
+    login_page: Any, job: WorkOrder, unit: Any, mechanic: Any, width: int, height: int
+) -> None:
+    from playwright.sync_api import expect
+
+    primary_due = DueItem.objects.get(unit=unit, task=DueItem.Task.PRIMARY_FILTER)
+    task = job.tasks.get(kind=K.FILTER_CHANGE)
+    WorkOrderTask.objects.filter(pk=task.pk).update(due_item=primary_due)
+    job.tasks.exclude(pk=task.pk).delete()
+    fine = unit.components.get(kind=ComponentKind.FINE_FILTER)
+    page = login_page(mechanic, width=width, height=height)
+    page.goto(f"/work/{job.pk}/")
+    picker = page.locator(f"#t{task.pk}-filter")
+    expect(picker).to_be_disabled()
+    expect(picker.locator("option:checked")).to_have_text("Primary filter / water separator")
+    expect(picker.locator(f'option[value="{fine.pk}"]')).to_have_count(0)
+
+    # A post made by hand with the fine filter is refused and changes nothing.
+    token = page.locator(
+        f"#task-{task.pk} .task-form input[name=csrfmiddlewaretoken]"
+    ).input_value()
+    answer = page.request.post(
+        f"/work/tasks/{task.pk}/save/",
+        form={"csrfmiddlewaretoken": token, "filter": str(fine.pk), "part_number": "PF-9"},
+        headers={"HX-Request": "true", "Referer": page.url},
+    )
+    assert "cannot be switched to another" in answer.text()
+    task.refresh_from_db()
+    assert task.component_id == primary_due.component_id
+
+    page.fill("#hour_meter", "2012")
+    page.fill(f"#t{task.pk}-part_number", "PF-9")
+    page.press(f"#t{task.pk}-part_number", "Tab")
+    expect(page.locator(f"#task-{task.pk}-status .saved-note")).to_contain_text("Saved")
+    page.click("button.close-btn")
+    expect(page.locator(".closed-box")).to_be_visible()
+    (event,) = ServiceEvent.objects.filter(work_order=job)
+    assert event.component_kind == ComponentKind.PRIMARY_FILTER
+    primary_due.refresh_from_db()
+    assert primary_due.status == DueItem.Status.OK

@@ -12,7 +12,7 @@ from fleetfuel.fleet.models import Component, ComponentKind, MeterReading, Meter
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem
-from fleetfuel.workorders import close as close_module
+from fleetfuel.workorders import close_writes
 from fleetfuel.workorders.close import CloseOutcome, work_order_close
 from fleetfuel.workorders.forms import JobEntry
 from fleetfuel.workorders.models import WorkOrder, WorkOrderTask
@@ -68,17 +68,50 @@ def test_refusal_names_the_cylinder_missing_its_connector(wo: Any, mechanic: Any
 
 def test_refusal_page_names_the_cylinder(as_mechanic: Any, wo: Any) -> None:
     injectors_on_1_3_5(wo)
-    response = as_mechanic.post(
-        reverse("workorders:close", args=[wo.pk]), {"token": "t-view", "hour_meter": "2000"}
-    )
-    assert response.status_code == 200
-    html = response.content.decode()
+    url = reverse("workorders:close", args=[wo.pk])
+    response = as_mechanic.post(url, {"token": "t-view", "hour_meter": "2000"})
+    # Post-redirect-get: the refusal is shown on the work order's own page.
+    assert response.status_code == 302
+    assert response["Location"] == reverse("workorders:detail", args=[wo.pk]) + "#refusal"
+    page = as_mechanic.get(response["Location"])
+    html = page.content.decode()
     assert MISSING_3 in html
     assert "cylinder 1 without" not in html and "cylinder 5 without" not in html
     assert 'value="t-view"' in html  # the same token stays in the form for the retry
+    # "Add a task" offers the missing connector on cylinder 3.
+    link = f"?add={K.CONNECTOR_REPLACE}&amp;cylinder=3#add-task"
+    assert f'href="{link}"' in html
+    assert "Add a task: High-pressure connector replaced, cylinder 3" in html
     wo.refresh_from_db()
     assert wo.status == WorkOrder.Status.OPEN
     assert wo.hour_meter == 2_000.0  # what was entered with the close is kept as a draft
+    # A reload is a GET of the page: nothing re-posted, the refusal shown once.
+    again = as_mechanic.get(response["Location"]).content.decode()
+    assert MISSING_3 not in again
+    assert wo.tasks.count() == 5
+
+
+def test_add_a_task_link_preselects_the_kind_and_the_cylinder(as_mechanic: Any, wo: Any) -> None:
+    detail = reverse("workorders:detail", args=[wo.pk])
+    html = as_mechanic.get(detail, {"add": K.CONNECTOR_REPLACE, "cylinder": "3"}).content.decode()
+    assert f'<option value="{K.CONNECTOR_REPLACE}" data-asks="cylinder" selected>' in html
+    assert '<option value="3" selected>Cylinder 3</option>' in html
+    # Nothing chosen without the link; a made-up kind preselects nothing.
+    for query in ({}, {"add": "made_up", "cylinder": "x"}):
+        html = as_mechanic.get(detail, query).content.decode()
+        assert " selected>" not in html.split('id="add-kind"')[1].split("</form>")[0]
+
+
+def test_a_bad_value_with_the_close_is_refused_on_the_page_not_at_the_post_url(
+    as_mechanic: Any, wo: Any
+) -> None:
+    task_make(wo, K.RELIEF_VALVE_REPLACE, description="Relief valve")
+    url = reverse("workorders:close", args=[wo.pk])
+    response = as_mechanic.post(url, {"token": "t-bad", "hour_meter": "two thousand"})
+    assert response.status_code == 302
+    html = as_mechanic.get(response["Location"]).content.decode()
+    assert "Hour meter: “two thousand” is not a number." in html and 'value="t-bad"' in html
+    assert WorkOrder.objects.get(pk=wo.pk).status == WorkOrder.Status.OPEN
 
 
 def test_connector_on_every_injector_cylinder_closes(wo: Any, mechanic: Any) -> None:
@@ -431,7 +464,7 @@ def test_a_server_error_records_nothing_and_says_how_to_retry(
     def broken(**kwargs: Any) -> None:
         raise RuntimeError("disk full")
 
-    monkeypatch.setattr(close_module, "service_event_append", broken)
+    monkeypatch.setattr(close_writes, "service_event_append", broken)
     response = as_mechanic.post(
         reverse("workorders:close", args=[wo.pk]), {"token": "t-err", "hour_meter": "2000"}
     )

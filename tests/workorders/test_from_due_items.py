@@ -37,7 +37,6 @@ def test_items_of_one_unit_make_one_work_order_with_a_task_each(
         item_ids=[i.pk for i in picked], site_ids=[unit.site_id], created_by=manager, today=today
     )
     (order,) = created.orders
-    assert created.skipped == []
     assert order.number == f"WO-{order.pk:05d}" and order.unit == unit
     assert order.assigned_to == mechanic and order.created_by == manager
     assert order.due_on == max(today, min(i.due_on for i in picked))
@@ -52,16 +51,36 @@ def test_items_of_one_unit_make_one_work_order_with_a_task_each(
     assert primary.description == items[DueItem.Task.PRIMARY_FILTER].get_task_display()
 
 
-def test_items_already_in_an_open_work_order_are_skipped_and_named(
+def test_an_item_already_in_an_open_work_order_is_refused_and_named(
+    items: dict[str, DueItem], unit: Any, manager: Any
+) -> None:
+    fine, drain = items[DueItem.Task.FINE_FILTER], items[DueItem.Task.SEPARATOR_DRAIN]
+    kw = {"site_ids": [unit.site_id], "created_by": manager, "today": timezone.localdate()}
+    (first,) = work_orders_from_due_items(item_ids=[fine.pk], **kw).orders
+    # Picked again, alone or with an item that is free: refused whole, naming both.
+    for picked in ([fine.pk], [drain.pk, fine.pk]):
+        with pytest.raises(WorkOrderCreateError) as refused:
+            work_orders_from_due_items(item_ids=picked, **kw)
+        text = str(refused.value)
+        assert f"{unit.fleet_number}: {fine.get_task_display()}" in text
+        assert f"open work order {first.number}" in text
+        assert fine.get_task_display() in text and drain.get_task_display() not in text
+    assert list(WorkOrder.objects.all()) == [first]
+    assert WorkOrderTask.objects.filter(due_item=fine).count() == 1
+    assert not WorkOrderTask.objects.filter(due_item=drain).exists()
+
+
+def test_an_item_is_free_again_once_its_work_order_closed(
     items: dict[str, DueItem], unit: Any, manager: Any
 ) -> None:
     fine = items[DueItem.Task.FINE_FILTER]
     kw = {"site_ids": [unit.site_id], "created_by": manager, "today": timezone.localdate()}
-    work_orders_from_due_items(item_ids=[fine.pk], **kw)
-    again = work_orders_from_due_items(item_ids=[fine.pk], **kw)
-    assert again.orders == []
-    assert again.skipped == [f"{unit.fleet_number}: {fine.get_task_display()}"]
-    assert WorkOrder.objects.count() == 1
+    (first,) = work_orders_from_due_items(item_ids=[fine.pk], **kw).orders
+    WorkOrder.objects.filter(pk=first.pk).update(
+        status=WorkOrder.Status.CLOSED, closed_at=timezone.now(), closed_by=manager
+    )
+    (second,) = work_orders_from_due_items(item_ids=[fine.pk], **kw).orders
+    assert second.pk != first.pk
 
 
 def test_nothing_selected_or_another_sites_item_is_refused(

@@ -412,3 +412,43 @@ def test_admin_lists_and_shows_work_orders(client: Any, wo: WorkOrder, task: Wor
     change = client.get(reverse("admin:workorders_workorder_change", args=[wo.pk]))
     assert change.status_code == 200
     assert "Replace injector, cylinder 3" in change.content.decode()  # the inline task
+
+
+# ----------------------------------------------------------------- the title follows the cylinder
+
+
+@pytest.mark.parametrize(
+    ("title", "cylinder", "expected"),
+    [
+        (
+            "High-pressure connector replaced, cylinder 3",
+            4,
+            "High-pressure connector replaced, cylinder 4",
+        ),
+        ("Connector leaking at Cylinder 3, weeping", 5, "Connector leaking at Cylinder 5, weeping"),
+        ("High-pressure connector replaced, cylinder 3", None, "High-pressure connector replaced"),
+        ("Replace high-pressure connector", 2, "Replace high-pressure connector, cylinder 2"),
+        ("Cylinder 13 connector", 4, "Cylinder 13 connector"),  # names another cylinder
+    ],
+)
+def test_the_title_follows_the_cylinder(
+    as_mechanic: Any, wo: WorkOrder, title: str, cylinder: int | None, expected: str
+) -> None:
+    task = task_make(wo, K.CONNECTOR_REPLACE, cylinder=3, description=title)
+    url = reverse("workorders:task_save", args=[task.pk])
+    response = as_mechanic.post(url, {"cylinder": str(cylinder or "")}, **HTMX)
+    task.refresh_from_db()
+    assert task.cylinder == cylinder and task.description == expected
+    connector = wo.unit.components.filter(kind=ComponentKind.HP_CONNECTOR, position=cylinder)
+    assert task.component == connector.first()  # the part follows too
+    # The page's title is swapped in place with the save's answer.
+    html = response.content.decode()
+    assert f'<h3 id="task-{task.pk}-title" hx-swap-oob="true">{expected}</h3>' in html
+
+
+def test_a_save_that_keeps_the_cylinder_keeps_the_title(as_mechanic: Any, wo: WorkOrder) -> None:
+    task = task_make(wo, K.CONNECTOR_REPLACE, cylinder=3, description="Cylinder 3: my words")
+    url = reverse("workorders:task_save", args=[task.pk])
+    as_mechanic.post(url, {"cylinder": "3", "part_number": "HPC-1"}, **HTMX)
+    task.refresh_from_db()
+    assert task.description == "Cylinder 3: my words" and task.entry["part_number"] == "HPC-1"
