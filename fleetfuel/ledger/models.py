@@ -121,6 +121,13 @@ class ServiceEvent(models.Model):
         raise LedgerImmutableError("Service events cannot be deleted.")
 
     @property
+    def shown_kind_label(self) -> str:
+        """The label of the kind the entry stands for: a correction's is the kind it restates
+        (``effective_kind`` where the row was read with it, see effective.py)."""
+        kind = getattr(self, "effective_kind", None) or self.corrected_kind or self.kind
+        return str(self.Kind(kind).label) if kind in self.Kind.values else kind
+
+    @property
     def component_kind_label(self) -> str:
         if self.component_kind in ComponentKind.values:
             return str(ComponentKind(self.component_kind).label)

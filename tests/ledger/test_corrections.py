@@ -9,7 +9,7 @@ import io
 import json
 import subprocess
 import sys
-from datetime import timedelta
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
@@ -17,6 +17,7 @@ import pytest
 from django.core.exceptions import ValidationError
 from django.core.management import call_command
 from django.db import connection
+from django.urls import reverse
 
 from fleetfuel.fleet.models import ComponentKind
 from fleetfuel.ledger.actions import service_event_append, service_event_correct
@@ -215,3 +216,76 @@ def test_the_csv_of_a_corrected_history_passes_the_third_partys_check(
         [sys.executable, "-I", str(recipe), str(out)], capture_output=True, text=True, check=False
     )
     assert result.returncode == 0, result.stderr
+
+
+def _form_data(client: Any, event: ServiceEvent) -> dict[str, Any]:
+    page = client.get(reverse("ledger:history"), {"correct": event.pk})
+    form = page.context["correction_form"]
+    return {
+        name: form[name].value() if form[name].value() is not None else "" for name in form.fields
+    }
+
+
+def test_a_manager_moves_the_entry_to_another_part_on_the_history_page(
+    as_manager: Any, unit: Any, mechanic: Any
+) -> None:
+    wrong = _fine_change(unit, mechanic, days_ago=2, meter=1200.0)
+    primary = unit.components.get(kind=ComponentKind.PRIMARY_FILTER)
+    data = _form_data(as_manager, wrong)
+    assert data["kind"] == Kind.FILTER_CHANGED and data["component"] == f"c{wrong.component_id}"
+    data.update(component=f"c{primary.pk}", reason="Closed with the wrong filter")
+    response = as_manager.post(reverse("ledger:correct", args=[wrong.pk]), data)
+    assert response.status_code == 302
+    fixed = ServiceEvent.objects.get(corrects=wrong)
+    assert (fixed.component_id, fixed.component_kind) == (primary.pk, ComponentKind.PRIMARY_FILTER)
+    assert fixed.performed_at == wrong.performed_at  # the unchanged minute keeps its seconds
+    # The history shows the corrected entry and, beside it, the one it replaces.
+    page = as_manager.get(reverse("ledger:history")).content.decode()
+    assert "Primary filter / water separator" in page and "Entry 1 as recorded" in page
+    assert "Times in depot time, Europe/London." in page
+    shown = as_manager.get(reverse("ledger:history")).context["page"].events
+    assert [e.pk for e in shown] == [fixed.pk]
+    recorded = as_manager.get(reverse("ledger:history"), {"recorded": "on"})
+    assert [e.pk for e in recorded.context["page"].events] == [fixed.pk, wrong.pk]
+
+
+def test_a_cylinder_the_unit_lacks_is_refused_beside_its_field(
+    as_manager: Any, unit: Any, mechanic: Any
+) -> None:
+    recorded = _fine_change(unit, mechanic, days_ago=2, meter=1200.0)
+    data = _form_data(as_manager, recorded)
+    data.update(cylinder="7", reason="cylinder")  # a 6-cylinder unit (common practice: 1 to n)
+    response = as_manager.post(reverse("ledger:correct", args=[recorded.pk]), data)
+    assert response.status_code == 400
+    assert response.context["correction_form"].errors["cylinder"]
+    assert ServiceEvent.objects.count() == 1
+
+
+def test_an_auditor_cannot_correct(as_auditor: Any, unit: Any, mechanic: Any) -> None:
+    recorded = _fine_change(unit, mechanic, days_ago=2, meter=1200.0)
+    primary = unit.components.get(kind=ComponentKind.PRIMARY_FILTER)
+    response = as_auditor.post(
+        reverse("ledger:correct", args=[recorded.pk]),
+        {"component": f"c{primary.pk}", "kind": Kind.FILTER_CHANGED, "reason": "x",
+         "performed_at": "2026-06-13T12:00"},
+    )  # fmt: skip
+    assert response.status_code == 403
+    assert ServiceEvent.objects.count() == 1
+    page = as_auditor.get(reverse("ledger:history"), {"correct": recorded.pk})
+    assert page.context["correcting"] is None and b"Record correction" not in page.content
+
+
+def test_days_in_the_filter_are_depot_days(as_manager: Any, unit: Any, mechanic: Any) -> None:
+    """00:30 on 15 June in London (BST, UTC+1: the UK's summer time, Summer Time Order 2002)
+    is 23:30 on 14 June UTC: it is a 15 June entry for its depot."""
+    service_event_append(
+        unit=unit, kind=Kind.INSPECTION, recorded_by=mechanic, notes="early",
+        performed_at=datetime(2026, 6, 14, 23, 30, tzinfo=UTC),
+    )  # fmt: skip
+    on_15 = as_manager.get(
+        reverse("ledger:history"), {"date_from": "2026-06-15", "date_to": "2026-06-15"}
+    )
+    on_14 = as_manager.get(
+        reverse("ledger:history"), {"date_from": "2026-06-14", "date_to": "2026-06-14"}
+    )
+    assert len(on_15.context["page"].events) == 1 and not on_14.context["page"].events
