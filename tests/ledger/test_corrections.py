@@ -289,3 +289,16 @@ def test_days_in_the_filter_are_depot_days(as_manager: Any, unit: Any, mechanic:
         reverse("ledger:history"), {"date_from": "2026-06-14", "date_to": "2026-06-14"}
     )
     assert len(on_15.context["page"].events) == 1 and not on_14.context["page"].events
+
+
+def test_the_printed_record_marks_the_correction_and_the_entry_it_replaces(
+    as_manager: Any, unit: Any, mechanic: Any, manager: Any
+) -> None:
+    wrong = _fine_change(unit, mechanic, days_ago=2, meter=1200.0)
+    service_event_correct(event=wrong, reason="was a drain", recorded_by=manager,
+                          kind=Kind.SEPARATOR_DRAINED, water_ml=40.0)  # fmt: skip
+    response = as_manager.post(reverse("pages:export"), {"format": "print"})
+    page = response.content.decode()
+    original, correction = page.split('<tr class="entry')[1:3]
+    assert "Replaced by entry 2: not in effect" in original and "Filter changed" in original
+    assert "Correction of entry 1" in correction and "Water separator drained" in correction
