@@ -20,6 +20,7 @@ from django.db import connection
 from django.urls import reverse
 
 from fleetfuel.fleet.models import ComponentKind
+from fleetfuel.intake.imports.kinds_records import service_event_rows
 from fleetfuel.ledger.actions import service_event_append, service_event_correct
 from fleetfuel.ledger.effective import effective_events, in_effect
 from fleetfuel.ledger.exports import HEADERS, export_rows
@@ -302,3 +303,17 @@ def test_the_printed_record_marks_the_correction_and_the_entry_it_replaces(
     original, correction = page.split('<tr class="entry')[1:3]
     assert "Replaced by entry 2: not in effect" in original and "Filter changed" in original
     assert "Correction of entry 1" in correction and "Water separator drained" in correction
+
+
+def test_the_data_export_writes_each_entry_as_last_corrected(
+    unit: Any, mechanic: Any, manager: Any
+) -> None:
+    wrong = _fine_change(unit, mechanic, days_ago=2, meter=1200.0)
+    service_event_correct(
+        event=wrong, reason="wrong filter", recorded_by=manager,
+        component=unit.components.get(kind=ComponentKind.PRIMARY_FILTER),
+    )  # fmt: skip
+    (row,) = service_event_rows()
+    assert (row["kind"], row["component_kind"], row["hour_meter"]) == (
+        Kind.FILTER_CHANGED, ComponentKind.PRIMARY_FILTER, 1200.0,
+    )  # fmt: skip
