@@ -88,7 +88,11 @@ def effective_events(*kinds: str) -> QuerySet[ServiceEvent]:
 
     A filter change recorded against the wrong filter and corrected counts once, for the
     filter the correction names, at the time and hour meter it gives."""
-    return in_effect().filter(effective_kind__in=list(kinds))
+    # A row of another kind than a correction stands for its own kind: said so first, so the
+    # database works out only the corrections' kinds.
+    plain = Q(kind__in=kinds)
+    corrected = Q(kind=CORRECTION, effective_kind__in=list(kinds))
+    return in_effect().filter(plain | corrected)
 
 
 def effective_kind_of(event: ServiceEvent) -> str:
