@@ -32,7 +32,7 @@ from fleetfuel.fleet.models import (
     Unit,
     UnitClass,
 )
-from fleetfuel.ledger.actions import CONTENT_FIELDS
+from fleetfuel.ledger.actions import CONTENT_FIELDS, event_content
 from fleetfuel.ledger.models import ServiceEvent
 from services.flags import event_kind_classify
 from services.ledger import GENESIS, entry_hash
@@ -59,6 +59,7 @@ _BLANK_EVENT = dict.fromkeys(CONTENT_FIELDS) | dict.fromkeys(
         "parts_used",
         "notes",
         "reason",
+        "corrected_kind",
     ),
     "",
 )
@@ -387,7 +388,5 @@ class _Story:
                 }
             )
             row["prev_hash"] = prev
-            row["hash"] = prev = entry_hash(
-                content={k: row[k] for k in CONTENT_FIELDS}, prev_hash=prev
-            )
+            row["hash"] = prev = entry_hash(content=event_content(row), prev_hash=prev)
             yield row

@@ -12,7 +12,9 @@ from django.utils import timezone
 
 from fleetfuel.fleet.models import Unit
 from services.ledger import GENESIS, entry_hash, retention_ends_on
+from services.rules import cylinder_exists
 
+from .effective import effective_kind_of, version_in_effect
 from .models import ServiceEvent
 
 # The fields sealed by the hash, in the export's order. Adding a field here changes every
@@ -44,14 +46,24 @@ CONTENT_FIELDS = (
     "work_order_id",
     "corrects_id",
     "reason",
+    "corrected_kind",
 )
+# Fields added to CONTENT_FIELDS after entries were recorded without them: each is hashed only
+# when it is set (not empty), so every entry recorded before it keeps its hash and its chain
+# verifies. A field added from now on goes here too.
+HASHED_WHEN_SET = ("corrected_kind",)
 
 
 def event_content(event: ServiceEvent | dict[str, Any]) -> dict[str, object]:
     """The hashed content of an event (from a model instance or a values() row)."""
     if isinstance(event, dict):
-        return {name: event[name] for name in CONTENT_FIELDS}
-    return {name: getattr(event, name) for name in CONTENT_FIELDS}
+        content = {name: event[name] for name in CONTENT_FIELDS}
+    else:
+        content = {name: getattr(event, name) for name in CONTENT_FIELDS}
+    for name in HASHED_WHEN_SET:
+        if content[name] in ("", None):
+            del content[name]
+    return content
 
 
 def service_event_append(
@@ -104,6 +116,7 @@ _BLANK_TEXT_FIELDS = (
     "parts_used",
     "notes",
     "reason",
+    "corrected_kind",
 )
 # Checked by the database at the insert; full_clean would ask it once per row and relation.
 _RELATIONS = ["unit", "component", "work_order", "recorded_by", "corrects"]
@@ -153,10 +166,10 @@ def service_events_append(
 
 
 # What a correction may restate: the hashed fields less the unit, the chain fields, the author,
-# the work order and the correction's own fields. A correction is about what was done and measured.
+# the work order and the correction's own fields; the kind it restates is its ``kind`` argument.
 _FIXED_ON_CORRECTION = frozenset(
     {"unit_id", "seq", "kind", "recorded_at", "recorded_by_id", "work_order_id", "corrects_id",
-     "reason"}
+     "reason", "corrected_kind"}
 )  # fmt: skip
 CORRECTABLE_FIELDS = tuple(
     name.removesuffix("_id") for name in CONTENT_FIELDS if name not in _FIXED_ON_CORRECTION
@@ -164,13 +177,21 @@ CORRECTABLE_FIELDS = tuple(
 
 
 def service_event_correct(
-    *, event: ServiceEvent, reason: str, recorded_by: Any, **changed_fields: Any
+    *,
+    event: ServiceEvent,
+    reason: str,
+    recorded_by: Any,
+    kind: str | None = None,
+    **changed_fields: Any,
 ) -> ServiceEvent:
     """Record a correction of ``event`` as a new entry at the head of the unit's chain.
 
-    The new entry (kind CORRECTION, ``corrects`` = event) restates the entry in full: the
-    event's own values with ``changed_fields`` put over them. The corrected entry stays as
-    it was, so the history shows both and why.
+    The correction corrects the version in effect (``event`` itself, or the end of its line of
+    corrections: effective.py) and restates it in full: that version's values with ``kind``
+    (the kind of entry it really was) and ``changed_fields`` put over them. Every earlier
+    version stays as it was, so the history keeps the original and says why it changed.
+    A component must be the unit's; giving one sets ``component_kind`` to its kind unless
+    that is given too. A cylinder must be one of the unit's.
     """
     reason = (reason or "").strip()
     if not reason:
@@ -178,20 +199,47 @@ def service_event_correct(
     unknown = sorted(set(changed_fields) - set(CORRECTABLE_FIELDS))
     if unknown:
         raise ValidationError(f"These fields cannot be corrected: {', '.join(unknown)}.")
-    values = {name: getattr(event, name) for name in CORRECTABLE_FIELDS}
-    changed = {k: v for k, v in changed_fields.items() if v != values[k]}
-    if not changed:
-        raise ValidationError("Nothing to correct: give at least one value that differs.")
-    values.update(changed)
-    return service_event_append(
-        unit=event.unit,
-        kind=ServiceEvent.Kind.CORRECTION,
-        recorded_by=recorded_by,
-        corrects=event,
-        reason=reason,
-        work_order=event.work_order,
-        **values,
-    )
+    with transaction.atomic():
+        _chain_head_lock(unit=event.unit)  # no other correction of the unit meanwhile
+        current = version_in_effect(event)
+        values = {name: getattr(current, name) for name in CORRECTABLE_FIELDS}
+        values["corrected_kind"] = effective_kind_of(current)
+        changed = {k: v for k, v in changed_fields.items() if v != values[k]}
+        if kind is not None and kind != values["corrected_kind"]:
+            changed["corrected_kind"] = kind
+        _correction_check(event.unit, changed)
+        if not changed:
+            raise ValidationError("Nothing to correct: give at least one value that differs.")
+        values.update(changed)
+        return service_event_append(
+            unit=event.unit,
+            kind=ServiceEvent.Kind.CORRECTION,
+            recorded_by=recorded_by,
+            corrects=current,
+            reason=reason,
+            work_order=event.work_order,
+            **values,
+        )
+
+
+def _correction_check(unit: Unit, changed: dict[str, Any]) -> None:
+    """Refuse a kind, component or cylinder the unit cannot have (errors by field)."""
+    kind = changed.get("corrected_kind")
+    if kind is not None and (
+        kind not in ServiceEvent.Kind.values or kind == ServiceEvent.Kind.CORRECTION
+    ):
+        raise ValidationError({"kind": f"{kind!r} is not a kind of entry."})
+    component = changed.get("component")
+    if component is not None:
+        if component.unit_id != unit.pk:
+            raise ValidationError({"component": f"That part is not on {unit.fleet_number}."})
+        if changed.setdefault("component_kind", component.kind) != component.kind:
+            raise ValidationError({"component": "The part chosen is of another kind."})
+    cylinder = changed.get("cylinder")
+    if cylinder is not None and not cylinder_exists(cylinder=cylinder, cylinders=unit.cylinders):
+        raise ValidationError(
+            {"cylinder": f"{unit.fleet_number} has cylinders 1 to {unit.cylinders}."}
+        )
 
 
 class RetentionError(Exception):

@@ -27,7 +27,7 @@ from services.ledger import GENESIS, entry_hash
 
 from .actions import event_content
 from .csv_copy import copy_csv_stream
-from .exports import _LOOKUPS, csv_stream, export_rows
+from .exports import _LOOKUPS, csv_stream, export_rows, view_annotate
 from .models import ServiceEvent
 from .selectors import HistoryScope
 
@@ -59,7 +59,7 @@ def _sql_fill(*, unit: Unit, user: Any, rows: int) -> None:
     table = ServiceEvent._meta.db_table
     digest = "encode(sha256(convert_to(%s || ':' || {n}, 'UTF8')), 'hex')"
     blank = ("component_kind", "part_number", "old_serial", "new_serial", "measurement_name",
-             "parts_used", "reason")  # fmt: skip
+             "parts_used", "reason", "corrected_kind")  # fmt: skip
     sql = (
         f"INSERT INTO {table} (unit_id, recorded_by_id, kind, performed_at, recorded_at, "
         f"hour_meter, water_ml, water_appearance, notes, seq, prev_hash, hash, {', '.join(blank)})"
@@ -122,7 +122,8 @@ def _csv_copy_run(scope: HistoryScope, heads: dict[int, int]) -> tuple[int, str]
 
 def _copy_run(scope: HistoryScope) -> tuple[int, str]:
     """COPY (the same query) TO STDOUT as CSV, read in the chunks psycopg hands over."""
-    query = scope.events(with_kind=False).order_by("unit_id", "seq").values(*_LOOKUPS).query
+    events = view_annotate(scope.events(with_kind=False))
+    query = events.order_by("unit_id", "seq").values(*_LOOKUPS).query
     sql, params = query.sql_with_params()
     digest, size = hashlib.sha256(), 0
     with connection.cursor() as cursor:

@@ -32,11 +32,14 @@ from django.db.models import F, Field, ForeignKey, QuerySet
 
 from .exports import (
     COLUMNS,
+    CORRECTION,
+    CORRECTION_SUFFIX,
     FLUSH_BYTES,
     FORMULA_TRIGGERS,
     KIND_LABELS,
     csv_stream,
     export_rows,
+    view_annotate,
 )
 from .models import ServiceEvent
 
@@ -105,9 +108,13 @@ def field_resolve(*, lookup: str) -> Field[Any, Any]:
     return field.target_field if isinstance(field, ForeignKey) else field
 
 
+# The corrected view's columns are annotations (exports.VIEW_ANNOTATIONS), not model fields.
+_ANNOTATION_TYPES = {"effective_kind": "CharField", "superseded_by": "BigAutoField"}
+
+
 def cell_sql_build(*, lookup: str, expr: str) -> str:
     """The SQL that formats one column's cell, chosen by the model field's type."""
-    kind = field_resolve(lookup=lookup).get_internal_type()
+    kind = _ANNOTATION_TYPES.get(lookup) or field_resolve(lookup=lookup).get_internal_type()
     if kind in {"CharField", "TextField"}:
         return _text_sql(expr)
     if kind == "FloatField":
@@ -132,28 +139,31 @@ def copy_statement_build(
     """
     lookups = [lookup for _, lookup in COLUMNS if lookup] + list(_MECHANIC_LOOKUPS)
     alias = {lookup: f"c{i}" for i, lookup in enumerate(dict.fromkeys(lookups))}
-    inner = events.order_by().values(**{a: F(lookup) for lookup, a in alias.items()})
+    inner = view_annotate(events).order_by()
+    inner = inner.values(**{a: F(lookup) for lookup, a in alias.items()})
     inner_sql, inner_params = inner.query.get_compiler(using=events.db).as_sql()
 
     def col(lookup: str) -> str:
         return f"s.{alias[lookup]}"
 
-    # The kind's label and the mechanic's name, worked out once per row (their parameters
-    # appear once) and formatted below like any text column.
-    kind = col("kind")
+    # The kind's label, the mechanic's name and whether the row is in effect, worked out once
+    # per row (their parameters appear once) and formatted below like any text column.
+    kind, shown = col("kind"), f"COALESCE({col('effective_kind')}, {col('kind')})"
     whens = " ".join("WHEN %s THEN %s" for _ in KIND_LABELS)
     first, last, username = (col(lookup) for lookup in _MECHANIC_LOOKUPS)
     derived = (
-        f"CASE {kind} {whens} ELSE {kind} END AS nature, "
-        f"COALESCE(NULLIF(btrim({first} || ' ' || {last}, %s), ''), {username}) AS mechanic"
+        f"(CASE {shown} {whens} ELSE {shown} END) "
+        f"|| CASE WHEN {kind} = %s THEN %s ELSE '' END AS nature, "
+        f"COALESCE(NULLIF(btrim({first} || ' ' || {last}, %s), ''), {username}) AS mechanic, "
+        f"CASE WHEN {col('superseded_by')} IS NULL THEN 'true' ELSE 'false' END AS in_effect"
     )
     params: list[object] = [str(part) for pair in KIND_LABELS.items() for part in pair]
-    params.append(PYTHON_WHITESPACE)
+    params += [str(CORRECTION), CORRECTION_SUFFIX, PYTHON_WHITESPACE]
     cells = []
     for name, lookup in COLUMNS:
         if lookup:
             cells.append(cell_sql_build(lookup=lookup, expr=col(lookup)))
-        elif name in {"nature", "mechanic"}:
+        elif name in {"nature", "mechanic", "in_effect"}:
             cells.append(_text_sql(f"s.{name}"))
         else:
             raise ValueError(f"no source for column {name}")

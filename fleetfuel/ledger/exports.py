@@ -23,6 +23,7 @@ from django.db.models import QuerySet
 from services.ledger import canonical_value
 
 from .actions import CONTENT_FIELDS
+from .effective import EFFECTIVE_KIND, SUPERSEDED_BY
 from .models import ServiceEvent
 
 CHUNK = 2000
@@ -34,6 +35,14 @@ XLSX_MAX_ROWS = 1_048_576  # Excel's sheet limit, the header row included
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r", "'")
 
 KIND_LABELS = dict(ServiceEvent.Kind.choices)
+CORRECTION = ServiceEvent.Kind.CORRECTION
+CORRECTION_SUFFIX = " (correction)"
+
+# The corrected view beside the recorded rows (fleetfuel/ledger/effective.py): every row is
+# exported, so the chain can be checked; ``in_effect`` marks the rows that make the corrected
+# view, ``effective_kind`` the kind each stands for, ``superseded_by`` the correction that took
+# a row's place (its own values are the original, kept).
+VIEW_ANNOTATIONS = {"effective_kind": EFFECTIVE_KIND, "superseded_by": SUPERSEDED_BY}
 
 # (column, values() lookup). Unit identification and what was done follow 49 CFR 396.3(b);
 # each hashed field (CONTENT_FIELDS) is a column under its own name; the chain fields close it.
@@ -50,7 +59,7 @@ COLUMNS: tuple[tuple[str, str | None], ...] = (
     ("seq", "seq"),
     ("performed_at", "performed_at"),
     ("kind", "kind"),
-    ("nature", None),  # the kind's label
+    ("nature", None),  # the effective kind's label; a correction's ends " (correction)"
     ("mechanic", None),  # who recorded it, by name
     ("hour_meter", "hour_meter"),
     ("component_kind", "component_kind"),
@@ -70,6 +79,10 @@ COLUMNS: tuple[tuple[str, str | None], ...] = (
     ("notes", "notes"),
     ("reason", "reason"),
     ("corrects_id", "corrects_id"),
+    ("corrected_kind", "corrected_kind"),
+    ("effective_kind", "effective_kind"),
+    ("in_effect", None),  # true when no later correction took the row's place
+    ("superseded_by", "superseded_by"),
     ("work_order", "work_order__number"),
     ("work_order_id", "work_order_id"),
     ("component_id", "component_id"),
@@ -147,6 +160,26 @@ def _mechanic(row: Mapping[str, Any]) -> str:
     return full or row["recorded_by__username"]
 
 
+def nature_text(*, kind: str, effective_kind: str | None) -> str:
+    """The ``nature`` cell: the label of the kind a row stands for, a correction's marked."""
+    shown = effective_kind or kind
+    label = KIND_LABELS.get(shown, shown)
+    return label + CORRECTION_SUFFIX if kind == CORRECTION else label
+
+
+def view_annotate(events: QuerySet[ServiceEvent]) -> QuerySet[ServiceEvent]:
+    """``events`` with the corrected view's columns (``VIEW_ANNOTATIONS``)."""
+    return events.annotate(**VIEW_ANNOTATIONS)
+
+
+def _derived(name: str, row: Mapping[str, Any]) -> object:
+    if name == "nature":
+        return nature_text(kind=row["kind"], effective_kind=row["effective_kind"])
+    if name == "in_effect":
+        return row["superseded_by"] is None
+    return _mechanic(row)
+
+
 def export_rows(
     *, events: QuerySet[ServiceEvent], heads: Mapping[int, int]
 ) -> Iterator[tuple[object, ...]]:
@@ -155,16 +188,11 @@ def export_rows(
     ``heads`` maps unit id to the head seq noted when the export began; entries appended while
     the export runs are left out, so the rows agree with the manifest's heads.
     """
-    rows = events.order_by("unit_id", "seq").values(*_LOOKUPS)
+    rows = view_annotate(events).order_by("unit_id", "seq").values(*_LOOKUPS)
     for row in rows.iterator(chunk_size=CHUNK):
         if row["seq"] > heads.get(row["unit_id"], 0):
             continue
-        yield tuple(
-            row[lookup]
-            if lookup
-            else (KIND_LABELS.get(row["kind"], row["kind"]) if name == "nature" else _mechanic(row))
-            for name, lookup in COLUMNS
-        )
+        yield tuple(row[lookup] if lookup else _derived(name, row) for name, lookup in COLUMNS)
 
 
 def csv_stream(

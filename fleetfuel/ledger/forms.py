@@ -10,9 +10,11 @@ from django.db.models import QuerySet
 from django.utils import timezone
 
 from fleetfuel.accounts.hygiene import DateValidator, QuantityValidator, TextValidator
-from fleetfuel.fleet.models import Site
+from fleetfuel.fleet.models import Component, ComponentKind, Site, Unit
 from services import bounds
+from services.rules import cylinder_numbers
 
+from .effective import effective_kind_of, version_in_effect
 from .models import ExportLog, ServiceEvent
 from .selectors import HistoryScope
 
@@ -31,10 +33,15 @@ class HistoryFilterForm(forms.Form):
         help_text="One or more, separated by commas.",
         widget=forms.TextInput(attrs={"placeholder": "e.g. N-001, N-002"}),
     )
-    date_from = forms.DateField(label="From (UTC day)", required=False, widget=_DATE)
-    date_to = forms.DateField(label="To (UTC day)", required=False, widget=_DATE)
+    date_from = forms.DateField(label="From (depot day)", required=False, widget=_DATE)
+    date_to = forms.DateField(label="To (depot day)", required=False, widget=_DATE)
     kind = forms.ChoiceField(
         label="Kind", required=False, choices=[("", "All kinds"), *ServiceEvent.Kind.choices]
+    )
+    recorded = forms.BooleanField(
+        label="Every entry as recorded",
+        required=False,
+        help_text="Corrected entries and their corrections one by one, as the chain holds them.",
     )
 
     def __init__(self, *args: Any, sites: QuerySet[Site], **kwargs: Any) -> None:
@@ -62,6 +69,7 @@ class HistoryFilterForm(forms.Form):
             date_from=data.get("date_from"),
             date_to=data.get("date_to"),
             kind=data.get("kind") or "",
+            recorded=bool(data.get("recorded")),
         )
 
 
@@ -69,14 +77,42 @@ class ExportForm(HistoryFilterForm):
     format = forms.ChoiceField(choices=ExportLog.Format.choices)
 
 
-class CorrectionForm(forms.Form):
-    """What a manager may restate about an entry, prefilled with the entry's values.
+KIND_CHOICES = [(v, label) for v, label in ServiceEvent.Kind.choices if v != "correction"]
 
-    Times are the site's local time; the view activates the site's time zone around it.
+
+def part_choices(unit: Unit) -> list[tuple[str, str]]:
+    """The parts an entry may name: each of the unit's parts ("c<id>"), fitted or since
+    removed, then a kind of part with no particular one ("k<kind>")."""
+    parts = [
+        (f"c{c.pk}", _part_label(c))
+        for c in Component.objects.filter(unit=unit).order_by("removed_on", "kind", "position")
+    ]
+    kinds = [(f"k{v}", f"{label} (no particular part)") for v, label in ComponentKind.choices]
+    return [("", "None"), *parts, *kinds]
+
+
+def _part_label(comp: Component) -> str:
+    label = str(ComponentKind(comp.kind).label)
+    if comp.position:
+        label += f", cylinder {comp.position}"
+    if comp.serial:
+        label += f", serial {comp.serial}"
+    return label + (f" (removed {comp.removed_on:%Y-%m-%d})" if comp.removed_on else "")
+
+
+class CorrectionForm(forms.Form):
+    """What a manager may restate about an entry, prefilled with the version in effect.
+
+    Times are the depot's local time; the view activates the depot's time zone around it.
     """
 
+    kind = forms.ChoiceField(label="What was done", choices=KIND_CHOICES)
+    component = forms.ChoiceField(label="Part", required=False)
+    cylinder = forms.TypedChoiceField(
+        label="Cylinder", required=False, coerce=int, empty_value=None
+    )
     performed_at = forms.DateTimeField(
-        label="Done at (site time)",
+        label="Done at (depot time)",
         widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"),
         input_formats=["%Y-%m-%dT%H:%M", "%Y-%m-%d %H:%M"],
         validators=[DateValidator("done")],
@@ -94,6 +130,11 @@ class CorrectionForm(forms.Form):
     water_ml = forms.FloatField(
         label="Water drained (mL)", required=False, validators=[QuantityValidator("volume_ml")]
     )
+    dp_before_bar = forms.FloatField(
+        label="Filter dP before (bar)",
+        required=False,
+        validators=[QuantityValidator("pressure_bar_gauge")],
+    )
     value = forms.FloatField(label="Measured value", required=False)
     passed = forms.NullBooleanField(label="Measurement passed", required=False)
     notes = forms.CharField(
@@ -107,17 +148,45 @@ class CorrectionForm(forms.Form):
 
     def __init__(self, *args: Any, event: ServiceEvent, **kwargs: Any) -> None:
         self.event = event
-        zone = ZoneInfo(event.unit.site.time_zone)
-        initial = {name: getattr(event, name) for name in self.base_fields if name != "reason"}
-        initial["performed_at"] = timezone.localtime(event.performed_at, zone).replace(
+        self.current = current = version_in_effect(event)
+        unit = event.unit
+        zone = ZoneInfo(unit.site.time_zone)
+        initial = {
+            name: getattr(current, name)
+            for name in self.base_fields
+            if name not in {"reason", "kind", "component"}
+        }
+        initial["kind"] = effective_kind_of(current)
+        initial["component"] = (
+            f"c{current.component_id}"
+            if current.component_id
+            else (f"k{current.component_kind}" if current.component_kind else "")
+        )
+        initial["performed_at"] = timezone.localtime(current.performed_at, zone).replace(
             second=0, microsecond=0, tzinfo=None
         )
         super().__init__(*args, initial=initial, **kwargs)
+        self.fields["component"].choices = part_choices(unit)  # type: ignore[attr-defined]
+        self.fields["cylinder"].choices = [  # type: ignore[attr-defined]
+            ("", "None"),
+            *((n, str(n)) for n in cylinder_numbers(cylinders=unit.cylinders)),
+        ]
+
+    def clean_component(self) -> tuple[Component | None, str]:
+        """(the part, its kind) from the choice."""
+        choice = self.cleaned_data.get("component") or ""
+        if choice.startswith("c"):
+            comp = Component.objects.filter(pk=int(choice[1:]), unit_id=self.event.unit_id).first()
+            if comp is None:
+                raise forms.ValidationError("Choose one of this unit's parts.")
+            return comp, comp.kind
+        return None, choice[1:]
 
     def changed_fields(self) -> dict[str, Any]:
         """The entered values, the unchanged minute of ``performed_at`` kept to the second."""
-        values = {k: v for k, v in self.cleaned_data.items() if k != "reason"}
-        original = self.event.performed_at
+        values = {k: v for k, v in self.cleaned_data.items() if k not in {"reason", "kind"}}
+        values["component"], values["component_kind"] = values["component"]
+        original = self.current.performed_at
         if values["performed_at"] == original.replace(second=0, microsecond=0):
             values["performed_at"] = original
         for name in ("part_number", "old_serial", "new_serial", "notes"):

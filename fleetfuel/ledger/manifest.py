@@ -16,7 +16,7 @@ from django.utils import timezone
 
 from services.ledger import GENESIS
 
-from .actions import CONTENT_FIELDS
+from .actions import CONTENT_FIELDS, HASHED_WHEN_SET
 from .checkpoints import units_with_heads
 from .exports import FORMULA_TRIGGERS, HEADERS
 from .models import ExportLog
@@ -86,7 +86,10 @@ def export_start(
         "generated_by": user.get_username() if user else "command line",
         "filters": scope.describe(),
         "columns": list(HEADERS) if fmt != ExportLog.Format.PRINT else [],
-        "hashed_fields": list(CONTENT_FIELDS),
+        "hashed_fields": [name for name in CONTENT_FIELDS if name not in HASHED_WHEN_SET],
+        # Hashed too, but only on the rows where they are not empty (added to the history
+        # later: the entries recorded before keep their hashes).
+        "hashed_when_set": list(HASHED_WHEN_SET),
         "genesis": GENESIS,
         "canonical_form": CANONICAL_FORM,
         "escaping": ESCAPING if fmt != ExportLog.Format.PRINT else "",

@@ -78,6 +78,9 @@ class ServiceEvent(models.Model):
         "self", on_delete=models.PROTECT, null=True, blank=True, related_name="corrections"
     )
     reason = models.TextField(blank=True, help_text="Why a correction or override was made.")
+    # On a correction: the kind of entry the corrected entry really was (its own ``kind`` is
+    # "correction"). Empty on every other entry and on corrections recorded before it existed.
+    corrected_kind = models.CharField(max_length=30, choices=Kind.choices, blank=True)
 
     # Hash chain per unit: seq 1, 2, 3... each sealing the previous entry's hash.
     seq = models.PositiveIntegerField()
@@ -91,6 +94,11 @@ class ServiceEvent(models.Model):
             models.CheckConstraint(
                 condition=Q(kind="correction", corrects__isnull=False) | ~Q(kind="correction"),
                 name="ledger_correction_names_its_event",
+            ),
+            models.CheckConstraint(
+                condition=Q(corrected_kind="")
+                | (Q(kind="correction") & ~Q(corrected_kind="correction")),
+                name="ledger_corrected_kind_on_corrections_only",
             ),
         ]
         indexes = [
@@ -111,6 +119,13 @@ class ServiceEvent(models.Model):
 
     def delete(self, *args: object, **kwargs: object) -> tuple[int, dict[str, int]]:
         raise LedgerImmutableError("Service events cannot be deleted.")
+
+    @property
+    def shown_kind_label(self) -> str:
+        """The label of the kind the entry stands for: a correction's is the kind it restates
+        (``effective_kind`` where the row was read with it, see effective.py)."""
+        kind = getattr(self, "effective_kind", None) or self.corrected_kind or self.kind
+        return str(self.Kind(kind).label) if kind in self.Kind.values else kind
 
     @property
     def component_kind_label(self) -> str:

@@ -2,15 +2,18 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from datetime import UTC, date, datetime, time, timedelta
 from typing import Any
+from zoneinfo import ZoneInfo
 
 from django.db.models import Exists, OuterRef, Q, QuerySet
 
 from fleetfuel.accounts.access import site_ids_for_user
 from fleetfuel.fleet.models import Site, Unit
 
+from .effective import in_effect, with_effective_kind
 from .models import ExportLog, ServiceEvent
 
 PAGE_SIZE = 50
@@ -18,17 +21,33 @@ _EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
 _MICRO = timedelta(microseconds=1)
 
 
-def day_start(day: date) -> datetime:
-    """Dates in filters are UTC calendar days."""
-    return datetime.combine(day, time.min, tzinfo=UTC)
+def day_start(day: date, zone: str = "UTC") -> datetime:
+    """The first instant of ``day`` in the time zone ``zone``."""
+    return datetime.combine(day, time.min, tzinfo=ZoneInfo(zone))
+
+
+def _days_condition(zones: Iterable[str], date_from: date | None, date_to: date | None) -> Q:
+    """Entries done on the days ``date_from`` to ``date_to`` (both included) as the calendar
+    of each unit's depot counts them: one condition per depot time zone."""
+    condition = Q(pk__in=[])
+    for zone in zones:
+        in_zone = Q(unit__site__time_zone=zone)
+        if date_from:
+            in_zone &= Q(performed_at__gte=day_start(date_from, zone))
+        if date_to:
+            in_zone &= Q(performed_at__lt=day_start(date_to + timedelta(days=1), zone))
+        condition |= in_zone
+    return condition
 
 
 @dataclass(frozen=True)
 class HistoryScope:
     """Which part of the history a person asked for, within the sites they may see.
 
-    ``allowed_site_ids`` None means every site (the command line); ``kind`` narrows the page
-    only: exports always hold every kind, so the chain can be checked.
+    ``allowed_site_ids`` None means every site (the command line); ``kind`` and ``recorded``
+    (every entry as recorded, not the corrected view) are the page's only: exports always
+    hold every entry, so the chain can be checked. Dates are depot calendar days: each entry
+    is taken by the day in its unit's depot time zone, the time base the page shows.
     """
 
     allowed_site_ids: tuple[int, ...] | None
@@ -37,6 +56,7 @@ class HistoryScope:
     date_from: date | None = None
     date_to: date | None = None
     kind: str = ""
+    recorded: bool = False
 
     def describe(self) -> dict[str, Any]:
         """The filters in words and ISO dates, for the export log and the manifest."""
@@ -45,7 +65,7 @@ class HistoryScope:
             "units": list(self.fleet_numbers),
             "from": self.date_from.isoformat() if self.date_from else None,
             "to": self.date_to.isoformat() if self.date_to else None,
-            "dates": "UTC calendar days, both ends included",
+            "dates": "calendar days in each unit's depot time zone, both ends included",
         }
 
     def units(self) -> QuerySet[Unit]:
@@ -62,10 +82,10 @@ class HistoryScope:
         events = ServiceEvent.objects.all()
         if self.allowed_site_ids is not None or self.site is not None or self.fleet_numbers:
             events = events.filter(unit__in=self.units().values("pk"))
-        if self.date_from:
-            events = events.filter(performed_at__gte=day_start(self.date_from))
-        if self.date_to:
-            events = events.filter(performed_at__lt=day_start(self.date_to + timedelta(days=1)))
+        if self.date_from or self.date_to:
+            zones = Site.objects.filter(pk__in=self.units().values("site_id"))
+            zones = zones.order_by().values_list("time_zone", flat=True).distinct()
+            events = events.filter(_days_condition(list(zones), self.date_from, self.date_to))
         if with_kind and self.kind:
             events = events.filter(kind=self.kind)
         return events
@@ -95,14 +115,28 @@ class HistoryPage:
     newer: str | None = None  # cursor for the page of newer entries
     older: str | None = None  # cursor for the page of older entries
 
+    @property
+    def time_zones(self) -> list[str]:
+        """The depot time zones the page's times are shown in, named once each."""
+        return sorted({event.unit.site.time_zone for event in self.events})
+
 
 def history_page(
     *, scope: HistoryScope, older_than: str = "", newer_than: str = "", size: int = PAGE_SIZE
 ) -> HistoryPage:
-    """One page, newest first, by keyset (no count of the table): one query."""
-    rows = scope.events().select_related(
-        "unit", "unit__site", "recorded_by", "work_order", "corrects"
-    )
+    """One page, newest first by the moment each entry was done, by keyset (no count of the
+    table): one query (two with dates: their depots' time zones). The corrected view (each
+    entry with its corrections applied: effective.py), or with ``scope.recorded`` every entry
+    as recorded, each marked when a correction took its place."""
+    rows = scope.events(with_kind=False)
+    if scope.recorded:
+        rows = with_effective_kind(rows.filter(kind=scope.kind) if scope.kind else rows)
+    else:
+        rows = in_effect(rows)
+        if scope.kind:
+            key = "kind" if scope.kind == ServiceEvent.Kind.CORRECTION else "effective_kind"
+            rows = rows.filter(**{key: scope.kind})
+    rows = rows.select_related("unit", "unit__site", "recorded_by", "work_order", "corrects")
     rows = rows.annotate(
         is_corrected=Exists(ServiceEvent.objects.filter(corrects_id=OuterRef("pk")))
     )

@@ -112,6 +112,7 @@ def correct(request: HttpRequest, pk: int) -> HttpResponse:
                 event=event,
                 reason=form.cleaned_data["reason"],
                 recorded_by=request.user,
+                kind=form.cleaned_data["kind"],
                 **form.changed_fields(),
             )
         except ValidationError as exc:

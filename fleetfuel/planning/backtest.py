@@ -18,7 +18,7 @@ from fleetfuel.fleet.models import ComponentKind, Unit
 from fleetfuel.ledger.models import ServiceEvent
 
 from .engine import FILTER_TASKS, engine_hours_at, unit_compute
-from .selectors import batch_inputs_load
+from .selectors import batch_inputs_load, ledger_events
 
 
 @dataclass(frozen=True)
@@ -70,10 +70,9 @@ def backtest_run(*, unit_ids: list[int]) -> BacktestSummary:
     units = {u.pk: u for u in Unit.objects.filter(pk__in=unit_ids)}
     history: dict[tuple[int, str], list[tuple[datetime, float | None, float | None]]] = {}
     for unit_id, kind, at, meter, dp in (
-        ServiceEvent.objects.filter(
-            unit_id__in=list(units),
-            kind=ServiceEvent.Kind.FILTER_CHANGED,
-            component_kind__in=list(FILTER_TASKS),
+        ledger_events(ServiceEvent.Kind.FILTER_CHANGED)
+        .filter(  # corrections applied
+            unit_id__in=list(units), component_kind__in=list(FILTER_TASKS)
         )
         .order_by("unit_id", "performed_at", "id")
         .values_list("unit_id", "component_kind", "performed_at", "hour_meter", "dp_before_bar")

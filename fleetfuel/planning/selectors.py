@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from datetime import date, datetime, time, timedelta
 from typing import Any
 
-from django.db.models import Exists, OuterRef, Q, Subquery, Sum
+from django.db.models import Exists, OuterRef, Q, QuerySet, Subquery, Sum
 
 from fleetfuel.fleet.models import (
     Component,
@@ -31,6 +31,7 @@ from fleetfuel.fleet.models import (
     ServicePlan,
     Unit,
 )
+from fleetfuel.ledger.effective import effective_events, in_effect
 from fleetfuel.ledger.models import ServiceEvent
 from services import usage
 from services.common import UsageForecast
@@ -41,6 +42,14 @@ from services.filter_life import LifeBudget
 LOOKBACK_DAYS = 400
 
 # --------------------------------------------------------------------------- engine inputs
+
+
+def ledger_events(*kinds: str) -> QuerySet[ServiceEvent]:
+    """The service history as the engine reads it: the entries in effect, each with its
+    corrections applied (a correction can move an entry to another part, kind or time:
+    fleetfuel/ledger/effective.py), of these kinds (all kinds when none is given). Every
+    read of the ledger below goes through here; filter by ``effective_kind``, not ``kind``."""
+    return effective_events(*kinds) if kinds else in_effect()
 
 
 @dataclass
@@ -178,8 +187,8 @@ def filter_changes_load(
     (disposed units too: their history is evidence), by (class, filter kind)."""
     out: dict[tuple[int, str], list[ChangeRow]] = defaultdict(list)
     for class_id, kind, unit_id, at, meter, dp in (
-        ServiceEvent.objects.filter(
-            kind=ServiceEvent.Kind.FILTER_CHANGED,
+        ledger_events(ServiceEvent.Kind.FILTER_CHANGED)
+        .filter(
             unit__unit_class_id__in=class_ids,
             component_kind__in=[ComponentKind.PRIMARY_FILTER, ComponentKind.FINE_FILTER],
             performed_at__lte=now,
@@ -205,15 +214,19 @@ def _units_load(*, unit_ids: list[int], now: datetime) -> dict[int, UnitInputs]:
         "-taken_at"
     )
     fueled = Fueling.objects.filter(unit_id=OuterRef("pk"), fueled_at__lte=now)
-    service = ServiceEvent.objects.filter(
-        unit_id=OuterRef("pk"), performed_at__lte=now, hour_meter__isnull=False
-    ).order_by("-performed_at")
+    service = (
+        ledger_events()
+        .filter(unit_id=OuterRef("pk"), performed_at__lte=now, hour_meter__isnull=False)
+        .order_by("-performed_at")
+    )
     fitted = Component.objects.filter(
         unit_id=OuterRef("pk"), installed_on__lte=now.date(), removed_on__isnull=True
     ).order_by("-installed_on", "-installed_hours")
-    valve = ServiceEvent.objects.filter(
-        unit_id=OuterRef("pk"), performed_at__lte=now, kind=ServiceEvent.Kind.RELIEF_VALVE_REPLACED
-    ).order_by("-performed_at")
+    valve = (
+        ledger_events(ServiceEvent.Kind.RELIEF_VALVE_REPLACED)
+        .filter(unit_id=OuterRef("pk"), performed_at__lte=now)
+        .order_by("-performed_at")
+    )
     valve_fitted = fitted.filter(kind=ComponentKind.RELIEF_VALVE)
     units = (
         Unit.objects.filter(pk__in=unit_ids)
@@ -297,14 +310,17 @@ def _replacements_load(*, bundles: dict[int, UnitInputs]) -> None:
 def _ledger_load(*, bundles: dict[int, UnitInputs], now: datetime, since: datetime) -> None:
     """Filter changes and drains from the ledger (latest change per kind; recent drains)."""
     rows = (
-        ServiceEvent.objects.filter(
-            unit_id__in=list(bundles),
-            kind__in=[ServiceEvent.Kind.FILTER_CHANGED, ServiceEvent.Kind.SEPARATOR_DRAINED],
-            performed_at__lte=now,
-        )
+        ledger_events(ServiceEvent.Kind.FILTER_CHANGED, ServiceEvent.Kind.SEPARATOR_DRAINED)
+        .filter(unit_id__in=list(bundles), performed_at__lte=now)
         .order_by("unit_id", "performed_at")
         .values_list(
-            "unit_id", "kind", "component_kind", "performed_at", "hour_meter", "water_ml", "id"
+            "unit_id",
+            "effective_kind",
+            "component_kind",
+            "performed_at",
+            "hour_meter",
+            "water_ml",
+            "id",
         )
     )
     for unit_id, kind, comp_kind, at, hours, water, event_id in rows:
@@ -340,9 +356,8 @@ def _events_load(*, bundles: dict[int, UnitInputs], now: datetime, since: dateti
     ).order_by("unit_id", "occurred_at"):
         bundles[e.unit_id].events.append(e)
     # Openings since the valve's last replacement (a ledger event) or fitting (a component).
-    replaced_since = ServiceEvent.objects.filter(
+    replaced_since = ledger_events(ServiceEvent.Kind.RELIEF_VALVE_REPLACED).filter(
         unit_id=OuterRef("unit_id"),
-        kind=ServiceEvent.Kind.RELIEF_VALVE_REPLACED,
         performed_at__gte=OuterRef("occurred_at"),
         performed_at__lte=now,
     )

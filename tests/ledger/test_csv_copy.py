@@ -174,6 +174,9 @@ def awkward_history(mechanic: Any, manager: Any, unit_class: Any) -> dict[str, A
     )  # fmt: skip
     service_event_correct(event=drained, reason="=typed in the wrong box", recorded_by=manager,
                           water_ml=0.1, notes='=1+1, "really"\n')  # fmt: skip
+    # Corrected again, to another kind: the first correction is superseded, the kind changes.
+    service_event_correct(event=drained, reason="an inspection", recorded_by=manager,
+                          kind=ServiceEvent.Kind.INSPECTION)  # fmt: skip
     service_event_append(  # a year before 1000: Python's %Y does not pad it
         unit=second, kind=ServiceEvent.Kind.INSPECTION, recorded_by=blank,
         performed_at=datetime(999, 12, 31, 23, 59, 59, 5, tzinfo=UTC), notes="odd clock",

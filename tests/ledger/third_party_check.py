@@ -36,6 +36,7 @@ last = {}
 rows = csv.DictReader(open(path, newline="", encoding="utf-8"))  # noqa: SIM115
 for r in rows:
     content = {name: cell(name, r[name]) for name in m["hashed_fields"]}
+    content.update({n: r[n] for n in m.get("hashed_when_set", []) if r[n] != ""})
     body = json.dumps(content, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
     event = f"event {r['event_id']} of {r['fleet_number']}"
     assert hashlib.sha256((body + r["prev_hash"]).encode()).hexdigest() == r["hash"], event

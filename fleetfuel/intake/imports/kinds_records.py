@@ -10,6 +10,7 @@ from django.core.exceptions import ValidationError
 
 from fleetfuel.fleet.models import ComponentKind, Delivery, FuelSample
 from fleetfuel.ledger.actions import service_event_append
+from fleetfuel.ledger.effective import in_effect
 from fleetfuel.ledger.models import ServiceEvent
 from services.units import fahrenheit_to_celsius, psi_to_bar, us_fl_oz_to_ml
 
@@ -174,12 +175,15 @@ def service_event_store(values: dict[str, Any], ctx: Context) -> str:
 
 
 def service_event_rows() -> Iterator[dict[str, Any]]:
-    qs = ServiceEvent.objects.select_related("unit__site", "recorded_by")
+    """The corrected view (fleetfuel/ledger/effective.py): each entry as last corrected, under
+    the kind it stands for; the corrections themselves stay with the chain (the ledger's own
+    export), and so do rule overrides."""
+    qs = in_effect().select_related("unit__site", "recorded_by")
     for e in qs.order_by("unit_id", "seq").iterator(chunk_size=2000):
-        if e.kind in (ServiceEvent.Kind.CORRECTION, ServiceEvent.Kind.RULE_OVERRIDE):
-            continue  # stays with the chain it belongs to (the ledger's own export)
+        if e.effective_kind in (ServiceEvent.Kind.CORRECTION, ServiceEvent.Kind.RULE_OVERRIDE):
+            continue
         yield {
-            "unit": e.unit.fleet_number, "site": e.unit.site.code, "kind": e.kind,
+            "unit": e.unit.fleet_number, "site": e.unit.site.code, "kind": e.effective_kind,
             "performed_at": e.performed_at, "recorded_by": e.recorded_by.username,
             "recorded_at": e.recorded_at, **{n: getattr(e, n) for n in EVENT_FIELDS},
             "passed": {True: "yes", False: "no"}.get(e.passed, ""),  # type: ignore[arg-type]
@@ -193,5 +197,6 @@ LAYOUTS = (
            ("unit", "site", "kind", "performed_at", "component_kind", "cylinder",
             "measurement_name"), service_event_store, service_event_rows,
            note="Appended to each unit's hash chain in file order; never updated. "
-                "Corrections and rule overrides are not imported."),
+                "Each entry is exported as last corrected; corrections themselves and rule "
+                "overrides are not imported."),
 )  # fmt: skip
