@@ -236,7 +236,7 @@ def test_manager_sets_their_own_work_list_preferences(
     # The error stands beside its field (inside the field's label), not at the top of the page.
     html = bad.content.decode()
     field = html[html.index('name="work_list_hour"') :]
-    assert "less than or equal to 23" in field[: field.index("</label>")]
+    assert "from 0 to 23" in field[: field.index("</label>")]
     assert 'aria-invalid="true"' in html
     manager.profile.refresh_from_db()
     assert manager.profile.work_list_hour == 5 and manager.profile.work_list_subscribed
