@@ -19,6 +19,7 @@ from fleetfuel.accounts.access import role_required, sites_for_user
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.accounts.requests import HtmxHttpRequest
 from fleetfuel.fleet.models import Site
+from services.display import count_noun
 
 from .forms import WorkListSettingsForm
 from .models import WorkListDispatch
@@ -76,7 +77,7 @@ def _site_send_now(request: HtmxHttpRequest, site: Site) -> tuple[int, str]:
             "button again."
         )
     return messages.ERROR, (
-        f"not sent after {dispatch.attempts} attempt(s) ({dispatch.last_error}). "
+        f"not sent after {count_noun(dispatch.attempts, 'attempt')} ({dispatch.last_error}). "
         "Press the button to try again."
     )
 
