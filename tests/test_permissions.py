@@ -77,7 +77,7 @@ SESSION_ENDERS = {"accounts:logout"}  # after these, the person logs in again
 EXPECTED: dict[str, str] = {
     "accounts:home": "L/L 302/302 302/302 302/302 302/302",
     "accounts:healthz": "200/405 200/405 200/405 200/405 200/405",
-    "accounts:favicon": "301/301 301/301 301/301 301/301 301/301",
+    "accounts:favicon": "301/405 301/405 301/405 301/405 301/405",
     "accounts:login": "200/200 200/200 200/200 200/200 200/200",
     "accounts:logout": "405/L 405/L 405/L 405/L 405/L",
     "accounts:password_change": "L/L 200/200 200/200 200/200 200/200",

@@ -1,7 +1,5 @@
 from django.contrib.auth import views as auth_views
-from django.templatetags.static import static
 from django.urls import path, reverse_lazy
-from django.views.generic import RedirectView
 
 from . import views
 
@@ -9,12 +7,7 @@ app_name = "accounts"
 urlpatterns = [
     path("", views.home, name="home"),
     path("healthz", views.healthz, name="healthz"),
-    # Browsers ask for /favicon.ico on pages without an icon link (the admin, old clients).
-    path(
-        "favicon.ico",
-        RedirectView.as_view(url=static("favicon.svg"), permanent=True, query_string=False),
-        name="favicon",
-    ),
+    path("favicon.ico", views.favicon, name="favicon"),
     path(
         "login/",
         auth_views.LoginView.as_view(template_name="accounts/login.html"),
