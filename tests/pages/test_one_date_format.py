@@ -214,3 +214,21 @@ def test_csv_and_xlsx_exports_use_iso_dates(at_now: None) -> None:
     ]
     found = [d for v in values for d in dates_in(v)]
     assert all(ISO_DATE.fullmatch(d) for d in found), found[:5]
+
+
+def test_one_spelling_per_depot_on_the_unit_page_and_the_print(at_now: None) -> None:
+    # British "tyre", US "tire" (common practice); the demo's haulers carry a tyre size.
+    client = signed_in("manager")
+    for code, label, other in (
+        ("kestrel", "Tyre size", "Tire size"),
+        ("cedar-flats", "Tire size", "Tyre size"),
+    ):
+        unit = Unit.objects.filter(site__code=code).exclude(tire_size="").order_by("pk").first()
+        assert unit is not None
+        text = page(client, reverse("pages:unit_detail", args=[unit.pk]))
+        printed = client.post(
+            reverse("pages:export"),
+            {"site": unit.site_id, "unit": unit.fleet_number, "format": "print"},
+        ).content.decode()
+        for shown in (text, printed):
+            assert label in shown and other not in shown
