@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import datetime as dt
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 from decimal import ROUND_HALF_UP, Decimal
 from typing import Final
@@ -141,3 +142,36 @@ def spelled(text: str, unit_system: str | None) -> str:
         return other.capitalize() if word[0].isupper() else other
 
     return _WORD.sub(swap, text)
+
+
+_ISO_IN_TEXT = re.compile(
+    r"\b(\d{4})-(\d{2})-(\d{2})(?:[ T](\d{2}):(\d{2})(?::\d{2}(?:\.\d+)?)?( UTC|Z)?)?\b"
+)
+_HOURS_IN_TEXT = re.compile(r"(\d[\d,]*(?:\.\d+)?) h\b")
+
+
+def prose_text(
+    text: str,
+    code: str | None = None,
+    *,
+    to_local: Callable[[dt.datetime], dt.datetime] | None = None,
+) -> str:
+    """Computed prose (reasons, explanations, written with ISO dates) in the depot's style:
+    '2026-12-02' becomes the depot's date, '2026-12-02 14:05 UTC' its date and time in the
+    depot's zone (``to_local`` converts an aware UTC datetime), and the space in '12,269 h'
+    a no-break space."""
+
+    def swap(match: re.Match[str]) -> str:
+        y, mo, d, hh, mm, utc = match.groups()
+        try:
+            if hh is None:
+                return day_text(dt.date(int(y), int(mo), int(d)), code)
+            at = dt.datetime(int(y), int(mo), int(d), int(hh), int(mm))
+        except ValueError:
+            return match.group(0)
+        if utc and to_local is not None:
+            at = to_local(at.replace(tzinfo=dt.UTC))
+        return when_text(at, code)
+
+    text = _ISO_IN_TEXT.sub(swap, text)
+    return _HOURS_IN_TEXT.sub(lambda m: f"{m.group(1)}{NBSP}h", text)

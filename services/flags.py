@@ -18,6 +18,7 @@ from datetime import datetime, timedelta
 from typing import Final
 
 from services.common import TaskKind, amount_check, moment_check
+from services.display import count_noun
 
 # --------------------------------------------------------------------------- J1939 tables
 
@@ -280,7 +281,7 @@ def _relief_repeat_flag(
     hits.sort(key=lambda h: -h[0])
     count, window, triggered = hits[0]
     reason = (
-        f"{count} relief-valve openings in the last {window} ({_span(triggered)}), "
+        f"{count_noun(count, 'relief-valve opening')} in the last {window} ({_span(triggered)}), "
         f"at or above the {n_flag} that flag a unit"
     )
     if len(hits) > 1:
@@ -318,8 +319,8 @@ def _relief_life_flag(
         code="relief_valve_life",
         title="Rail pressure relief valve at its opening limit",
         reason=(
-            f"The relief valve has opened {lifetime} times{fitted}, at or above the {limit} "
-            "after which the plan replaces it."
+            f"The relief valve has opened {count_noun(lifetime, 'time')}{fitted}, "
+            f"at or above the {limit} after which the plan replaces it."
         ),
         checks=[
             "Replace the rail pressure relief valve per the manufacturer's service documentation.",
@@ -337,7 +338,7 @@ def _imbalance_flag(*, imbalance: Sequence[EngineEvent]) -> UnitFlag | None:
         code="pumping_imbalance",
         title="High-pressure pump: pumping imbalance",
         reason=(
-            f"{_count(imbalance)} pumping-imbalance events ({_span(imbalance)}), "
+            f"{count_noun(_count(imbalance), 'pumping-imbalance event')} ({_span(imbalance)}), "
             f"last {spn_label(imbalance[-1].spn)}, FMI {imbalance[-1].fmi}."
         ),
         checks=[

@@ -105,8 +105,8 @@ def _check_codes(codes: Codes) -> None:
     for smaller, larger, i in pairs:
         if larger > smaller:
             raise ValueError(
-                f"scale number {larger} at >={CHANNEL_SIZES_UM[i + 1]} um(c) is above "
-                f"{smaller} at >={CHANNEL_SIZES_UM[i]} um(c): counts are cumulative, so a "
+                f"scale number {larger} at ≥{CHANNEL_SIZES_UM[i + 1]} µm(c) is above "
+                f"{smaller} at ≥{CHANNEL_SIZES_UM[i]} µm(c): counts are cumulative, so a "
                 "larger size cannot have more particles"
             )
 
@@ -261,7 +261,7 @@ def channel_for_rating(rating_um: float | None) -> int:
     if rating_um is None:
         return 0
     if not (math.isfinite(rating_um) and rating_um > 0):
-        raise ValueError(f"filter rating must be a positive number of um, got {rating_um}")
+        raise ValueError(f"filter rating must be a positive number of µm, got {rating_um}")
     return 0 if rating_um <= 4 else 1 if rating_um < 10 else 2
 
 
@@ -273,7 +273,7 @@ def channel_for_efficiency_size(size_um_c: float) -> int:
     4 um(c): channel 0; at 6 up to below 14: channel 1; from 14: channel 2. Below 4: 0.
     """
     if not (math.isfinite(size_um_c) and size_um_c > 0):
-        raise ValueError(f"efficiency size must be a positive number of um(c), got {size_um_c}")
+        raise ValueError(f"efficiency size must be a positive number of µm(c), got {size_um_c}")
     return 2 if size_um_c >= 14 else 1 if size_um_c >= 6 else 0
 
 
@@ -286,24 +286,24 @@ def filter_channel(
     if efficiency_size_um_c is not None:
         channel = channel_for_efficiency_size(efficiency_size_um_c)
         return channel, (
-            f"Dirt is counted at >={size[channel]} um(c), the channel at or below the "
-            f"{efficiency_size_um_c:g} um(c) size its efficiency is rated at (ISO 19438)."
+            f"Dirt is counted at ≥{size[channel]} µm(c), the channel at or below the "
+            f"{efficiency_size_um_c:g} µm(c) size its efficiency is rated at (ISO 19438)."
         )
     channel = channel_for_rating(nominal_rating_um)
     basis = (
         "no rating is recorded"
         if nominal_rating_um is None
-        else f"from its nominal {nominal_rating_um:g} um rating"
+        else f"from its nominal {nominal_rating_um:g} µm rating"
     )
     return channel, (
-        f"Dirt is counted at >={size[channel]} um(c), {basis}: record the size its "
+        f"Dirt is counted at ≥{size[channel]} µm(c), {basis}: record the size its "
         "efficiency is rated at (ISO 19438) to choose the channel by it."
     )
 
 
 def channel_check(channel: int) -> None:
     if channel not in (0, 1, 2):
-        raise ValueError(f"channel must be 0, 1 or 2 (>=4, >=6, >=14 um(c)), got {channel}")
+        raise ValueError(f"channel must be 0, 1 or 2 (≥4, ≥6, ≥14 µm(c)), got {channel}")
 
 
 def concentration_per_ml(*, quality: FuelQuality, channel: int) -> float:
@@ -324,7 +324,7 @@ def concentration_per_ml(*, quality: FuelQuality, channel: int) -> float:
             if quality.marks[channel] == ABOVE_TABLE:
                 return ABOVE_TABLE_PER_ML
             return count_range(code)[1]
-    raise LookupError(f"{quality.label} has no count at >={CHANNEL_SIZES_UM[channel]} um(c)")
+    raise LookupError(f"{quality.label} has no count at ≥{CHANNEL_SIZES_UM[channel]} µm(c)")
 
 
 def concentration_or_reference(*, quality: FuelQuality | None, channel: int) -> tuple[float, bool]:

@@ -9,6 +9,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+from services.display import count_noun
 from services.hour_meter import meter_backwards
 
 # --------------------------------------------------------------------------- closing rules
@@ -187,4 +188,4 @@ def override_allowed(
         return False, (
             f"Give a written reason of at least {MIN_OVERRIDE_REASON} characters for the override."
         )
-    return True, f"Override accepted for {len(violations)} rule(s): {reason.strip()}"
+    return True, f"Override accepted for {count_noun(len(violations), 'rule')}: {reason.strip()}"

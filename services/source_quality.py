@@ -26,6 +26,7 @@ from dataclasses import dataclass
 from datetime import datetime, timedelta
 from enum import StrEnum
 
+from .display import count_noun
 from .fuel_quality import (
     CHANNEL_SIZES_UM,
     EN590_WATER_MAX_MG_KG,
@@ -95,7 +96,7 @@ def sample_range_check(
             particles_over = True
             few = " (fewer than 20 particles counted: uncertain)" if marks[i] == FEW_COUNTED else ""
             reasons.append(
-                f"ISO 4406 {shown} is {code - ref} scale numbers above the reference "
+                f"ISO 4406 {shown} is {count_noun(code - ref, 'scale number')} above the reference "
                 f"{ref_shown} at ≥{CHANNEL_SIZES_UM[i]} µm(c), about {2 ** (code - ref)} times "
                 f"the particles (margin {margin}){few}"
             )

@@ -358,7 +358,7 @@ def _explanation(
         )
     wettest = sorted(since, key=lambda i: i.free_water_mg_kg, reverse=True)[:3]
     if wettest and wettest[0].free_water_mg_kg > 0:
-        parts = [f"{i.label} ({i.free_water_mg_kg:g} mg/kg)" for i in wettest]
+        parts = [f"{i.label} ({i.free_water_mg_kg:g} mg/kg free water)" for i in wettest]
         out.append("Wettest fuel since the drain: " + "; ".join(parts) + ".")
     out.append(sentence(f"Usage: {forecast.note}"))
     return out

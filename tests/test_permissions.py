@@ -77,6 +77,7 @@ SESSION_ENDERS = {"accounts:logout"}  # after these, the person logs in again
 EXPECTED: dict[str, str] = {
     "accounts:home": "L/L 302/302 302/302 302/302 302/302",
     "accounts:healthz": "200/405 200/405 200/405 200/405 200/405",
+    "accounts:favicon": "301/405 301/405 301/405 301/405 301/405",
     "accounts:login": "200/200 200/200 200/200 200/200 200/200",
     "accounts:logout": "405/L 405/L 405/L 405/L 405/L",
     "accounts:password_change": "L/L 200/200 200/200 200/200 200/200",
@@ -91,7 +92,7 @@ EXPECTED: dict[str, str] = {
     "pages:export_manifest": "L/L 200/405 404/405 403/403 404/405",
     "planning:source_decision": "L/L 200/400 404/404 403/403 200/403",
     "planning:worklist_send_now": "L/L 405/302 405/302 403/403 403/403",
-    "planning:worklist_settings": "L/L 405/302 405/302 403/403 403/403",
+    "planning:worklist_settings": "L/L 405/400 405/400 403/403 403/403",
     "workorders:my_work": "L/L 200/200 200/200 200/200 403/403",
     "workorders:list": "L/L 200/200 200/200 403/403 200/200",
     "workorders:detail": "L/L 200/200 404/404 200/200 200/200",

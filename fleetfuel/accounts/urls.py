@@ -7,6 +7,7 @@ app_name = "accounts"
 urlpatterns = [
     path("", views.home, name="home"),
     path("healthz", views.healthz, name="healthz"),
+    path("favicon.ico", views.favicon, name="favicon"),
     path(
         "login/",
         auth_views.LoginView.as_view(template_name="accounts/login.html"),

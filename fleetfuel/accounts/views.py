@@ -13,7 +13,8 @@ from django.db import connection
 from django.db.models import Q
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
-from django.views.decorators.http import require_GET, require_http_methods
+from django.templatetags.static import static
+from django.views.decorators.http import require_GET, require_http_methods, require_safe
 
 from .access import role_required, site_ids_for_user, user_role
 from .models import Role
@@ -32,6 +33,13 @@ def home(request: HttpRequest) -> HttpResponse:
     if role is None:
         raise PermissionDenied("Your account has no role yet; ask a fleet manager.")
     return redirect(HOME_BY_ROLE[Role(role)])
+
+
+@require_safe
+def favicon(request: HttpRequest) -> HttpResponse:
+    """Browsers ask for /favicon.ico on pages without an icon link (the admin, old clients):
+    the static icon (its hashed name is looked up per request, after collectstatic)."""
+    return redirect(static("favicon.svg"), permanent=True)
 
 
 @require_GET

@@ -24,6 +24,7 @@ from django.views.decorators.vary import vary_on_headers
 from fleetfuel.accounts.access import role_required
 from fleetfuel.accounts.models import Role
 from fleetfuel.fleet.models import Site
+from services.display import count_noun
 
 from . import entry_forms as ef
 from . import entry_selectors as sel
@@ -99,11 +100,11 @@ def hours_round(request: HttpRequest) -> HttpResponse:
             )
             refused |= outcome.refused
             if not refused and (outcome.saved or outcome.unchanged):
-                text = f"{len(outcome.saved)} reading(s) saved at {site.name}."
+                text = f"{count_noun(len(outcome.saved), 'reading')} saved at {site.name}."
                 at = request.POST.get("taken_at", "")
                 return _saved(request, "hours", text, {"site": site.code, "at": at})
             if outcome.saved:
-                messages.success(request, f"{len(outcome.saved)} reading(s) saved.")
+                messages.success(request, f"{count_noun(len(outcome.saved), 'reading')} saved.")
                 rows = sel.round_rows(site=site, today=today)
             if not refused:
                 form.add_error(None, "Type at least one reading.")

@@ -6,6 +6,8 @@ from collections import defaultdict
 from collections.abc import Mapping
 from typing import Any
 
+from fleetfuel.fleet.models import Site
+
 from .exports import view_annotate
 from .models import ExportLog, ServiceEvent
 from .selectors import HistoryScope
@@ -33,10 +35,17 @@ def print_context(log: ExportLog, scope: HistoryScope, heads: Mapping[int, int])
             # The entry that replaced this one, by its seq (None while in effect, or when the
             # correction came after the export began).
             event.replaced_by_seq = seq_of.get(event.superseded_by)  # type: ignore[attr-defined]
-    units = [{**unit, "events": by_unit.get(unit["unit_id"], [])} for unit in log.manifest["units"]]
+    # Each unit's depot shows its dates and hours its own way (one query for the depots).
+    names = {unit["site"] for unit in log.manifest["units"]}
+    depots = {site.name: site for site in Site.objects.filter(name__in=names)}
+    units = [
+        {**unit, "events": by_unit.get(unit["unit_id"], []), "depot": depots.get(unit["site"])}
+        for unit in log.manifest["units"]
+    ]
     return {
         "log": log,
         "units": units,
+        "print_depot": next(iter(depots.values())) if len(depots) == 1 else None,
         "filters": log.filters,
         "row_count": sum(len(u["events"]) for u in units),
     }

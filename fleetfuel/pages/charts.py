@@ -6,15 +6,22 @@ the axis title). Dates are plotted on a linear time axis.
 
 from __future__ import annotations
 
+import math
+import zoneinfo
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from datetime import date, datetime
+from datetime import UTC, date, datetime, timedelta
+from typing import Any
 
 from django.utils.html import escape
 from django.utils.safestring import SafeString, mark_safe
 
+from fleetfuel.accounts.templatetags.fmt import day
+
 W, H = 640, 240
 LEFT, RIGHT, TOP, BOTTOM = 64, 16, 14, 40
+LABEL_HALF_WIDTH = 40  # about half of '30 Sep 2026' at 11px: nearer an edge, align to it
+BAND_MIN_PX = 6.0  # a forecast band narrower than this (a year's scale) is widened to show
 
 
 @dataclass
@@ -57,7 +64,48 @@ def _nice_ticks(lo: float, hi: float, n: int = 4) -> list[float]:
     return ticks
 
 
-def chart_svg(chart: Chart) -> SafeString:
+def _month_add(d: date, months: int) -> date:
+    n = d.month - 1 + months
+    return date(d.year + n // 12, n % 12 + 1, 1)
+
+
+def x_ticks(x0: float, x1: float, depot: Any = None) -> list[tuple[float, date]]:
+    """Ticks at local midnights of the depot, each date once: every few days over a short
+    span, on the first of every few months over a long one."""
+    try:
+        zone: Any = zoneinfo.ZoneInfo(getattr(depot, "time_zone", None) or "UTC")
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        zone = UTC
+    d0 = datetime.fromtimestamp(x0, zone).date()
+    d1 = datetime.fromtimestamp(x1, zone).date()
+    span = (d1 - d0).days
+    if span > 120:
+        months = (d1.year - d0.year) * 12 + d1.month - d0.month
+        step = max(1, math.ceil(months / 4))
+        days = [_month_add(d0, k) for k in range(1, months + 1, step)]
+    else:
+        step = max(1, math.ceil(span / 4))
+        days = [d0 + timedelta(days=k) for k in range(0, span + 1, step)]
+    ticks = [(datetime(d.year, d.month, d.day, tzinfo=zone).timestamp(), d) for d in days]
+    ticks = [(t, d) for t, d in ticks if x0 <= t <= x1]
+    return ticks or [((x0 + x1) / 2, datetime.fromtimestamp((x0 + x1) / 2, zone).date())]
+
+
+def _band(chart: Chart, px: Any, py: Any) -> str:
+    """The forecast band, never thinner than BAND_MIN_PX so it shows at a year's scale."""
+    top, bottom = [], []
+    for x, lo, hi in chart.band:
+        y_hi, y_lo = py(hi), py(lo)
+        if y_lo - y_hi < BAND_MIN_PX:
+            mid = (y_hi + y_lo) / 2
+            y_hi, y_lo = mid - BAND_MIN_PX / 2, mid + BAND_MIN_PX / 2
+        top.append(f"{px(_ts(x)):.1f},{y_hi:.1f}")
+        bottom.append(f"{px(_ts(x)):.1f},{y_lo:.1f}")
+    return f'<polygon class="band" points="{" ".join(top)} {" ".join(reversed(bottom))}"/>'
+
+
+def chart_svg(chart: Chart, depot: Any = None) -> SafeString:
+    """The chart as SVG; dates on the x axis in the depot's style and zone."""
     xs = [_ts(x) for s in chart.series for x, _ in s.points] + [_ts(b[0]) for b in chart.band]
     ys = [y for s in chart.series for _, y in s.points] + [v for b in chart.band for v in b[1:]]
     if chart.limit is not None:
@@ -91,11 +139,17 @@ def chart_svg(chart: Chart) -> SafeString:
         out.append(
             f'<text x="{LEFT - 6}" y="{py(t) + 4:.1f}" text-anchor="end">{t:,.{digits}f}</text>'
         )
-    for i in range(5):
-        xt = x0 + (x1 - x0) * i / 4
-        label = datetime.fromtimestamp(xt).strftime("%d %b %y")
+    for xt, tick_day in x_ticks(x0, x1, depot):
+        x = px(xt)
+        anchor = "middle"
+        if x < LEFT + LABEL_HALF_WIDTH:
+            anchor = "start"
+        elif x > W - RIGHT - LABEL_HALF_WIDTH:
+            anchor = "end"
         out.append(
-            f'<text x="{px(xt):.1f}" y="{H - BOTTOM + 16}" text-anchor="middle">{label}</text>'
+            f'<line class="axis" x1="{x:.1f}" x2="{x:.1f}" y1="{TOP + ph}" y2="{TOP + ph + 4}"/>'
+            f'<text x="{x:.1f}" y="{H - BOTTOM + 16}" text-anchor="{anchor}">'
+            f"{escape(day(tick_day, depot))}</text>"
         )
     out.append(f'<line class="axis" x1="{LEFT}" x2="{LEFT}" y1="{TOP}" y2="{TOP + ph}"/>')
     out.append(f'<line class="axis" x1="{LEFT}" x2="{W - RIGHT}" y1="{TOP + ph}" y2="{TOP + ph}"/>')
@@ -104,9 +158,7 @@ def chart_svg(chart: Chart) -> SafeString:
         f'transform="rotate(-90 14 {TOP + ph / 2:.1f})">{escape(chart.y_label)}</text>'
     )
     if chart.band:
-        upper = " ".join(f"{px(_ts(x)):.1f},{py(hi):.1f}" for x, _, hi in chart.band)
-        lower = " ".join(f"{px(_ts(x)):.1f},{py(lo):.1f}" for x, lo, _ in reversed(chart.band))
-        out.append(f'<polygon class="band" points="{upper} {lower}"/>')
+        out.append(_band(chart, px, py))
     if chart.limit is not None:
         out.append(
             f'<line class="limit" x1="{LEFT}" x2="{W - RIGHT}" y1="{py(chart.limit):.1f}" '

@@ -38,7 +38,7 @@ def unit_list(request: HttpRequest) -> HttpResponse:
 def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
     unit = unit_for_user(request.user, pk)
     page = unit_page(unit=unit, now=timezone.now())
-    charts = {name: chart_svg(chart) for name, chart in page.charts.items()}
+    charts = {name: chart_svg(chart, unit.site) for name, chart in page.charts.items()}
     return render(
         request,
         "pages/unit_detail.html",

@@ -53,10 +53,19 @@ class DueFilterForm(forms.Form):
         self.fields["unit_class"].queryset = classes  # type: ignore[attr-defined]
 
 
+_NUMBER_ERRORS = ("min_value", "max_value", "invalid", "required")
+
+
 class WorkListSettingsForm(forms.ModelForm):
     class Meta:
         model = Profile
         fields = ["work_list_subscribed", "work_list_hour", "work_list_days_ahead"]
+        error_messages = {
+            "work_list_hour": dict.fromkeys(_NUMBER_ERRORS, "Give a whole hour from 0 to 23 "
+                                            "(the site's local time), e.g. 6."),
+            "work_list_days_ahead": dict.fromkeys(_NUMBER_ERRORS, "Give a number of days from "
+                                                  "1 to 60, e.g. 7."),
+        }  # fmt: skip
 
 
 class SourceDecisionResolveForm(forms.Form):

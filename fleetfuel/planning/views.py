@@ -10,7 +10,7 @@ import zoneinfo
 
 from django.contrib import messages
 from django.http import HttpResponse
-from django.shortcuts import redirect
+from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils import timezone
 from django.views.decorators.http import require_POST
@@ -19,6 +19,7 @@ from fleetfuel.accounts.access import role_required, sites_for_user
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.accounts.requests import HtmxHttpRequest
 from fleetfuel.fleet.models import Site
+from services.display import count_noun
 
 from .forms import WorkListSettingsForm
 from .models import WorkListDispatch
@@ -76,7 +77,7 @@ def _site_send_now(request: HtmxHttpRequest, site: Site) -> tuple[int, str]:
             "button again."
         )
     return messages.ERROR, (
-        f"not sent after {dispatch.attempts} attempt(s) ({dispatch.last_error}). "
+        f"not sent after {count_noun(dispatch.attempts, 'attempt')} ({dispatch.last_error}). "
         "Press the button to try again."
     )
 
@@ -84,13 +85,12 @@ def _site_send_now(request: HtmxHttpRequest, site: Site) -> tuple[int, str]:
 @role_required(Role.MANAGER)
 @require_POST
 def worklist_settings(request: HtmxHttpRequest) -> HttpResponse:
-    """The manager's own work-list preferences (subscribed, local hour, days ahead)."""
+    """The manager's own work-list preferences (subscribed, local hour, days ahead). A bad
+    value comes back on the form with its error beside its field, nothing saved."""
     profile, _ = Profile.objects.get_or_create(user=request.user)
     form = WorkListSettingsForm(request.POST, instance=profile)
-    if form.is_valid():
-        form.save()
-        messages.success(request, "Work-list settings saved.")
-    else:
-        errors = "; ".join(f"{form.fields[f].label}: {' '.join(e)}" for f, e in form.errors.items())
-        messages.error(request, f"Settings not saved. {errors}")
+    if not form.is_valid():
+        return render(request, "planning/worklist_settings.html", {"form": form}, status=400)
+    form.save()
+    messages.success(request, "Work-list settings saved.")
     return redirect(reverse("pages:due_list") + "#work-lists")

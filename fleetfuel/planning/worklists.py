@@ -23,7 +23,9 @@ from django.utils import timezone
 
 from fleetfuel.accounts.access import site_ids_for_user
 from fleetfuel.accounts.models import Profile, Role
+from fleetfuel.accounts.templatetags import fmt
 from fleetfuel.fleet.models import Site
+from services.display import NBSP
 
 from .models import DueItem, UnitFlag, WorkListDispatch
 
@@ -83,7 +85,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
 def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMultiAlternatives, int]:
     ctx = worklist_content(user=user, site=site, today=today)
     subject = (
-        f"fleetfuel work list, {site.name}, {today:%a %d %b %Y}: "
+        f"fleetfuel work list, {site.name}, {fmt.day(today, site).replace(NBSP, ' ')}: "
         f"{ctx['overdue']} overdue, "
         + (f"{ctx['check']} to check, " if ctx["check"] else "")
         + f"{ctx['upcoming']} due within {ctx['days']} days"

@@ -51,6 +51,7 @@ def task_card_render(
         "tv": tv,
         "wo": wo,
         "editable": editable,
+        "site": wo.unit.site,
         "site_tz": wo.unit.site.time_zone,
         "not_done_tasks": selectors.tasks_not_done(work_order=wo),
         "oob": True,

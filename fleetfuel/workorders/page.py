@@ -132,6 +132,7 @@ def page_context_build(
     return {
         "wo": wo,
         "unit": wo.unit,
+        "site": wo.unit.site,
         "site_tz": wo.unit.site.time_zone,
         "system": data.ctx.system,
         "task_views": [task_view(t, data.ctx, settled_by=settled.get(t.pk)) for t in data.tasks],

@@ -126,7 +126,13 @@ def task_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
     response = render(
         request,
         "workorders/detail.html#task-status",
-        {"tv": tv, "site_tz": wo.unit.site.time_zone, "save_error": save_error, "oob": True},
+        {
+            "tv": tv,
+            "site": wo.unit.site,
+            "site_tz": wo.unit.site.time_zone,
+            "save_error": save_error,
+            "oob": True,
+        },
         status=status,
     )
     return response_vary(response)
@@ -158,6 +164,7 @@ def job_save(request: HtmxHttpRequest, pk: int) -> HttpResponse:
         "workorders/detail.html#job-status",
         {
             "wo": wo,
+            "site": wo.unit.site,
             "site_tz": wo.unit.site.time_zone,
             "save_error": save_error,
             "job_errors": list(job.errors.values()),

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 from datetime import timedelta
+from pathlib import Path
 from typing import Any
 
 import pytest
+from django.contrib.staticfiles import finders
 from django.core.exceptions import PermissionDenied
 from django.http import Http404
 from django.urls import URLPattern, URLResolver, get_resolver, reverse
@@ -19,7 +21,7 @@ from tests import factories as f
 from tests.ledger.conftest import events_add
 from tests.workorders.conftest import task_make, work_order_make
 
-PUBLIC = {"accounts:login", "accounts:logout", "accounts:healthz"}
+PUBLIC = {"accounts:login", "accounts:logout", "accounts:healthz", "accounts:favicon"}
 # Machine endpoints take a bearer token, not a session: anonymous is 401 (tests/intake).
 TOKEN_ONLY = {"api:telematics"}
 
@@ -236,3 +238,14 @@ def test_export_logs_are_the_makers_or_a_managers(
     assert outcome(lambda: access.export_log_for_user(manager_here, log.pk)) == log
     mechanic_here = f.user_make("mechanic", sites=[site])
     assert outcome(lambda: access.export_log_for_user(mechanic_here, log.pk)) == 403
+
+
+def test_favicon_is_served_and_linked(client: Any, db: Any) -> None:
+    """/favicon.ico (asked for by browsers on pages without a link) leads to the icon."""
+    response = client.get("/favicon.ico")
+    assert response.status_code == 301 and response["Location"].endswith("favicon.svg")
+    # The static files (served by WhiteNoise once collected) hold it under that name.
+    found = finders.find("favicon.svg")
+    assert found and "<svg" in Path(found).read_text(encoding="utf-8")
+    login = client.get(reverse("accounts:login")).content.decode()
+    assert 'rel="icon"' in login and "favicon.svg" in login

@@ -55,7 +55,7 @@ def test_manager_enters_a_days_data(login_page: Any, width: int, height: int) ->
     assert page.input_value("#h-" + str(units[1].pk)) == "1160"  # the typed value is kept
     page.fill("#h-" + str(units[1].pk), "1116")
     page.keyboard.press("Enter")
-    page.get_by_text("1 reading(s) saved at Quarry Depot").wait_for()
+    page.get_by_text("1 reading saved at Quarry Depot").wait_for()
     assert MeterReading.objects.filter(unit=units[1], hours=1_116.0).exists()
     assert MeterReading.objects.filter(unit=units[2]).count() == 1
 

@@ -50,7 +50,8 @@ def test_every_active_unit_with_its_last_reading(
     page = as_manager.get(URL, {"site": site.code}).content.decode()
     for unit in units:
         assert f'name="h-{unit.pk}"' in page
-    assert "1,000.0 h" in page and "2026-06-13 13:00" in page  # 12:00 UTC in London summer
+    # 12:00 UTC is 13:00 in London summer (BST, IANA tz database), in the depot's style.
+    assert "1,000\u00a0h" in page and "13\u00a0Jun\u00a02026, 13:00" in page
     assert "R-GONE" not in page and "S-ELSEWHERE" not in page
 
 
@@ -73,7 +74,7 @@ def test_a_clean_round_saves_and_comes_back_blank(
 ) -> None:
     a, b = depot(site, unit_class, 2)
     response = post(as_manager, site, {a: "1010", b: "1020"}, follow=True)
-    assert response.redirect_chain and "2 reading(s) saved" in response.content.decode()
+    assert response.redirect_chain and "2 readings saved" in response.content.decode()
     assert MeterReading.objects.filter(taken_at__gt=NOW - DAY).count() == 2
     # The same form sent again stores nothing twice.
     post(as_manager, site, {a: "1010", b: "1020"})

@@ -79,10 +79,10 @@ def test_the_channel_follows_the_efficiency_size_and_says_so(site: Any, unit_cla
     due_items_recompute(unit_ids=[unit.pk], now=NOW)
     fine, primary = items(unit)["fine_filter"], items(unit)["primary_filter"]
     # ISO 19438: rated at 4 um(c) -> the >=4 um(c) count, though its nominal rating is 10 um.
-    assert any(">=4 um(c)" in s and "ISO 19438" in s for s in fine.explanation)
+    assert any("≥4 µm(c)" in s and "ISO 19438" in s for s in fine.explanation)
     # No efficiency size: the nominal 30 um rating picks >=14 um(c), and the sentence says
     # it is the fallback.
-    assert any(">=14 um(c)" in s and "nominal 30 um" in s for s in primary.explanation)
+    assert any("≥14 µm(c)" in s and "nominal 30 µm" in s for s in primary.explanation)
 
 
 def test_refused_records_are_left_out_with_their_reason(site: Any, unit_class: Any) -> None:

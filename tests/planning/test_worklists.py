@@ -105,7 +105,8 @@ def test_tick_sends_one_list_per_manager_site_and_day(
     assert len(inbox.messages) == 1  # ... but the claim lets only one through
     sender, rcpt, msg = inbox.messages[0]
     assert rcpt == ["morgan@depot.example"]
-    assert msg["Subject"].startswith(f"fleetfuel work list, {site.name}, Mon 15 Jun 2026")
+    subject = " ".join(msg["Subject"].split())  # unfolded (RFC 5322 section 2.2.3)
+    assert subject.startswith(f"fleetfuel work list, {site.name}, 15 Jun 2026")
     parts = {
         p.get_content_type(): p.get_payload(decode=True).decode()
         for p in msg.walk()
@@ -230,8 +231,13 @@ def test_manager_sets_their_own_work_list_preferences(
     assert ok.status_code == 302
     manager.profile.refresh_from_db()
     assert (manager.profile.work_list_hour, manager.profile.work_list_days_ahead) == (5, 3)
-    bad = client.post(url, {"work_list_hour": "25", "work_list_days_ahead": "3"}, follow=True)
-    assert "Settings not saved" in bad.content.decode() and "23" in bad.content.decode()
+    bad = client.post(url, {"work_list_hour": "25", "work_list_days_ahead": "3"})
+    assert bad.status_code == 400
+    # The error stands beside its field (inside the field's label), not at the top of the page.
+    html = bad.content.decode()
+    field = html[html.index('name="work_list_hour"') :]
+    assert "from 0 to 23" in field[: field.index("</label>")]
+    assert 'aria-invalid="true"' in html
     manager.profile.refresh_from_db()
     assert manager.profile.work_list_hour == 5 and manager.profile.work_list_subscribed
 

@@ -118,3 +118,11 @@ def test_spelling_follows_unit_system() -> None:
 
 def test_unknown_style_falls_back_to_default() -> None:
     assert display.day_text(DAY, "xx") == display.day_text(DAY, display.DEFAULT_STYLE)
+
+
+def test_prose_dates_and_hours_in_the_style() -> None:
+    text = "Due on 2026-12-02 at 12,269 h; since 2026-07-01 03:30 UTC."
+    out = display.prose_text(text, "en-US", to_local=lambda at: at - dt.timedelta(hours=5))
+    assert plain(out) == "Due on Dec 2, 2026 at 12,269 h; since Jun 30, 2026, 10:30 PM."
+    assert NBSP + "h" in out
+    assert display.prose_text("part 2026-13-45", "en-GB") == "part 2026-13-45"

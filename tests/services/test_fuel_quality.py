@@ -266,7 +266,7 @@ def test_channel_follows_the_efficiency_size(size, channel):
 def test_without_an_efficiency_size_the_nominal_rating_is_the_fallback_and_says_so():
     chosen, sentence = fq.filter_channel(efficiency_size_um_c=None, nominal_rating_um=10.0)
     assert chosen == fq.channel_for_rating(10.0) == 2
-    assert "nominal 10 um rating" in sentence and "record the size" in sentence
+    assert "nominal 10 µm rating" in sentence and "record the size" in sentence
     # A 10 um nominal element rated "beta 200 at 4 um(c)" is loaded by the >=4 um(c) count.
     assert fq.filter_channel(efficiency_size_um_c=4.0, nominal_rating_um=10.0)[0] == 0
 

@@ -273,7 +273,7 @@ def test_water_typed_in_us_fluid_ounces_is_stored_in_ml(client: Any, us_wo: Work
 def test_job_draft_warns_when_the_meter_goes_backwards(as_mechanic: Any, wo: WorkOrder) -> None:
     url = reverse("workorders:job_save", args=[wo.pk])
     backwards = as_mechanic.post(url, {"hour_meter": "1980", "notes": "Cold start"}, **HTMX)
-    assert "below the last reading (1,990.0 h)" in backwards.content.decode()
+    assert "below the last reading (1,990\u00a0h)" in backwards.content.decode()
     wo.refresh_from_db()
     assert (wo.hour_meter, wo.notes) == (1_980.0, "Cold start") and wo.job_saved_at
     replaced = as_mechanic.post(

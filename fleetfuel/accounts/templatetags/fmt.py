@@ -130,3 +130,14 @@ def spelled(text: str, site: Any = None) -> str:
     """The text in the depot's spelling (US spelling at a US-customary depot)."""
     depot = depot_of(site)
     return display.spelled(str(text), getattr(depot, "unit_system", None))
+
+
+@register.filter
+def prose(text: str | None, site: Any = None) -> str:
+    """Computed text (a reason, an explanation) with its ISO dates in the depot's style and
+    zone, and a no-break space before each 'h' of engine hours."""
+    if text is None:
+        return ""
+    return display.prose_text(
+        str(text), style_code(site), to_local=lambda at: local(at, site).replace(tzinfo=None)
+    )
