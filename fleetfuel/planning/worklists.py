@@ -1,7 +1,8 @@
 """Emailed work lists: what each manager should see before the shift starts.
 
 One email per manager, site and local day: overdue items, items due within the manager's
-chosen days, and flagged units, grouped by unit, with links back to the due list.
+chosen days, and flagged units, grouped by unit, most urgent unit first (as the due list
+orders), with links back to the due list.
 """
 
 from __future__ import annotations
@@ -38,6 +39,23 @@ class UnitSection:
     flags: list[UnitFlag]
 
 
+def item_urgency(item: DueItem) -> tuple[int, date, str]:
+    """The due list's order of urgency: status rank (overdue first), then how far overdue.
+
+    The one place the email's order is decided: swap in the due list's own urgency rank
+    stored on DueItem when it has one.
+    """
+    return (item.rank, item.due_on, item.task)
+
+
+def section_urgency(section: UnitSection) -> tuple[int, date, str]:
+    """A unit's place in the email: flagged units first (a flag says stop and check), then by
+    its most urgent item, the longest overdue first; fleet number breaks ties."""
+    first = min((item_urgency(item) for item in section.items), default=None)
+    rank = 1 + first[0] if first else len(DueItem.Status) + 1
+    return (0 if section.flags else rank, first[1] if first else date.max, section.fleet_number)
+
+
 def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
     """What the email lists (three queries)."""
     days = user.profile.work_list_days_ahead
@@ -45,7 +63,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
         DueItem.objects.filter(site=site)
         .filter(Q(status=DueItem.Status.OVERDUE) | Q(due_on__lte=today + timedelta(days=days)))
         .select_related("unit")
-        .order_by("unit__fleet_number", "due_on", "task")
+        .order_by("rank", "due_on", "task")
     )
     flags = list(
         UnitFlag.objects.filter(unit__site=site, unit__disposed_on__isnull=True)
@@ -67,7 +85,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
         "site": site,
         "today": today,
         "days": days,
-        "sections": sorted(sections.values(), key=lambda s: s.fleet_number),
+        "sections": sorted(sections.values(), key=section_urgency),
         "overdue": overdue,
         "check": check,
         "upcoming": len(items) - overdue - check,

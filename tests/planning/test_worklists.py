@@ -264,3 +264,33 @@ def test_a_depot_whose_list_cannot_be_built_is_reported_and_the_others_sent(
     assert len(inbox.messages) == 1
     failed = WorkListDispatch.objects.get(site=broken)
     assert failed.status == WorkListDispatch.Status.RETRYING and "linefeed" in failed.last_error
+
+
+@pytest.mark.django_db
+def test_the_email_lists_units_most_urgent_first(
+    smtp: tuple[Inbox, int], subscribed: dict[str, Any], unit_class: Any, monkeypatch: Any
+) -> None:
+    """Flagged units, then overdue ones (longest overdue first), then the rest, whatever their
+    fleet numbers say; the same units in the same order in both parts of the email. Which
+    unit is overdue or due comes from the engine, not from the test: OV-1 has run 600 h on a
+    500 h filter (tests.factories.plans_make); AA-1 and AB-1 have run 50 h and 450 h."""
+    inbox, port = smtp
+    site = subscribed["site"]
+    for number, days in (("AA-1", 5), ("AB-1", 45)):
+        unit = f.unit_make(site=site, unit_class=unit_class, fleet_number=number)
+        history_make(unit=unit, source=f.source_make(), days=days)
+        due_items_recompute(unit_ids=[unit.pk], now=f.NOW)
+    at = datetime(2026, 6, 15, 5, 10, tzinfo=UTC)
+    monkeypatch.setattr("django.utils.timezone.now", lambda: at)
+    with override_settings(MAILERS=smtp_mailer(port)):
+        worklists_tick()
+    (_, _, msg), *_ = inbox.messages
+    for part in msg.walk():
+        if part.is_multipart():
+            continue
+        body = part.get_payload(decode=True).decode()
+        places = {n: body.index(n) for n in ("FL-1", "OV-1", "AA-1", "AB-1") if n in body}
+        assert sorted(places, key=places.__getitem__)[:2] == ["FL-1", "OV-1"], (
+            part.get_content_type()
+        )
+        assert len(places) >= 3  # at least one of the A units is due within the 7 days
