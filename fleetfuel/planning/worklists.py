@@ -116,10 +116,17 @@ def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMulti
 
 
 def dispatch_get_or_create(
-    *, user_id: int, site_id: int, local_date: date, manual: bool
+    *, user_id: int, site_id: int, local_date: date, manual: bool, resend: int = 0
 ) -> WorkListDispatch:
-    """The one dispatch of a manager, site and local day: scheduled, or sent by hand."""
-    key = {"user_id": user_id, "site_id": site_id, "local_date": local_date, "manual": manual}
+    """The one dispatch of a manager, site and local day: scheduled, or sent by hand (or the
+    manager's ``resend``-th confirmed resend of it)."""
+    key = {
+        "user_id": user_id,
+        "site_id": site_id,
+        "local_date": local_date,
+        "manual": manual,
+        "resend": resend,
+    }
     try:
         with transaction.atomic():
             dispatch, _ = WorkListDispatch.objects.get_or_create(**key)
@@ -129,11 +136,11 @@ def dispatch_get_or_create(
 
 
 def dispatch_claim(
-    *, user_id: int, site_id: int, local_date: date, manual: bool
+    *, user_id: int, site_id: int, local_date: date, manual: bool, resend: int = 0
 ) -> WorkListDispatch | None:
     """Claim the right to send (None: already sent, or another worker is sending it)."""
     dispatch = dispatch_get_or_create(
-        user_id=user_id, site_id=site_id, local_date=local_date, manual=manual
+        user_id=user_id, site_id=site_id, local_date=local_date, manual=manual, resend=resend
     )
     claimed = WorkListDispatch.objects.filter(
         pk=dispatch.pk,
@@ -145,11 +152,14 @@ def dispatch_claim(
     return dispatch
 
 
-def dispatch_request(*, user_id: int, site_id: int, local_date: date) -> WorkListDispatch:
-    """The day's by-hand dispatch for "send now": one a day per manager and site, so a second
-    press sends nothing twice. A press after a final failure starts it again."""
+def dispatch_request(
+    *, user_id: int, site_id: int, local_date: date, resend: int = 0
+) -> WorkListDispatch:
+    """A by-hand dispatch for "send now": the day's (``resend`` 0) or a confirmed resend of
+    it, each sent once however often it is asked for. A press after a final failure starts
+    it again."""
     dispatch = dispatch_get_or_create(
-        user_id=user_id, site_id=site_id, local_date=local_date, manual=True
+        user_id=user_id, site_id=site_id, local_date=local_date, manual=True, resend=resend
     )
     if WorkListDispatch.objects.filter(
         pk=dispatch.pk, status=WorkListDispatch.Status.FAILED
@@ -202,14 +212,29 @@ def worklists_due_now(*, now: datetime) -> list[tuple[int, int, date]]:
 DISPATCH_STUCK_AFTER = timedelta(minutes=15)
 
 
-def dispatches_stuck(*, now: datetime) -> list[tuple[int, int, date, bool]]:
-    """(user, site, local day, by hand) of the dispatches of the last two days still unsent."""
+def dispatches_stuck(*, now: datetime) -> list[tuple[int, int, date, bool, int]]:
+    """(user, site, local day, by hand, resend) of the last two days' dispatches unsent."""
     return list(
         WorkListDispatch.objects.filter(
             status__in=[WorkListDispatch.Status.PENDING, WorkListDispatch.Status.RETRYING],
             created_at__lt=now - DISPATCH_STUCK_AFTER,
             local_date__gte=(now - timedelta(days=2)).date(),
-        ).values_list("user_id", "site_id", "local_date", "manual")
+        ).values_list("user_id", "site_id", "local_date", "manual", "resend")
+    )
+
+
+def dispatch_by_hand_latest(
+    *, user_id: int, site_id: int, local_date: date
+) -> WorkListDispatch | None:
+    """The manager's latest by-hand dispatch of a site's list for a local day (the day's own,
+    or its last resend), with who it went to."""
+    return (
+        WorkListDispatch.objects.filter(
+            user_id=user_id, site_id=site_id, local_date=local_date, manual=True
+        )
+        .select_related("user")
+        .order_by("-resend")
+        .first()
     )
 
 
