@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 import email
+import shutil
 import socket
+import subprocess
 from collections.abc import Iterator
 from datetime import UTC, datetime, timedelta
 from email.message import Message
+from pathlib import Path
 from typing import Any
 
 import pytest
@@ -292,3 +295,20 @@ def test_the_email_lists_units_most_urgent_first(
             part.get_content_type()
         )
         assert len(places) >= 3  # at least one of the A units is due within the 7 days
+
+
+@pytest.mark.skipif(shutil.which("make") is None, reason="make is not installed")
+def test_make_demo_links_emails_to_the_address_it_serves() -> None:
+    """`make demo` on another host and port: the server and the emails' SITE_URL move with it
+    (make -n prints the commands without running them)."""
+    root = Path(__file__).resolve().parents[2]
+    shown = subprocess.run(
+        ["make", "-n", "-C", str(root), "demo", "HOST=127.0.0.2", "PORT=8123"],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout
+    serve = next(line for line in shown.splitlines() if "runserver" in line)
+    assert "SITE_URL=http://127.0.0.2:8123 " in serve and serve.endswith("127.0.0.2:8123")
+    seed = next(line for line in shown.splitlines() if "seed_demo" in line)
+    assert "SITE_URL=http://127.0.0.2:8123 " in seed
