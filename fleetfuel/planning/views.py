@@ -89,7 +89,8 @@ def _sent_when(site: Site, dispatch: WorkListDispatch) -> str:
     sent = timezone.localtime(dispatch.sent_at, zoneinfo.ZoneInfo(site.time_zone))
     who = dispatch.user.get_full_name() or dispatch.user.get_username()
     what = "sent again" if dispatch.resend else "sent"
-    return f"today's work list was {what} at {sent:%H:%M} by {who} to {dispatch.user.email}"
+    at = f"{sent:%H:%M} {sent.tzname()}"  # the site's own time, named: depots differ
+    return f"today's work list was {what} at {at} by {who} to {dispatch.user.email}"
 
 
 def _site_send_again(

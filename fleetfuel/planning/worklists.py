@@ -98,10 +98,13 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
     }
 
 
-def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMultiAlternatives, int]:
+def worklist_message(
+    *, user: User, site: Site, today: date, again: bool = False
+) -> tuple[EmailMultiAlternatives, int]:
     ctx = worklist_content(user=user, site=site, today=today)
     subject = (
-        f"fleetfuel work list, {site.name}, {today:%a %d %b %Y}: "
+        f"fleetfuel work list{' (sent again)' if again else ''}, {site.name}, "
+        f"{today:%a %d %b %Y}: "
         f"{ctx['overdue']} overdue, "
         + (f"{ctx['check']} to check, " if ctx["check"] else "")
         + f"{ctx['upcoming']} due within {ctx['days']} days"
@@ -173,7 +176,10 @@ def dispatch_send(*, dispatch: WorkListDispatch) -> None:
     after being recorded, so the dispatch never stays claimed by a send that failed."""
     try:
         message, count = worklist_message(
-            user=dispatch.user, site=dispatch.site, today=dispatch.local_date
+            user=dispatch.user,
+            site=dispatch.site,
+            today=dispatch.local_date,
+            again=dispatch.resend > 0,
         )
         message.send()
     except Exception as exc:

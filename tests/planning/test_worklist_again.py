@@ -61,7 +61,7 @@ def test_two_presses_send_one_email_per_depot_and_the_second_asks(
         # When it went, in the depot's own time (Europe/Berlin is an hour ahead of London).
         at = went.astimezone(zoneinfo.ZoneInfo(depot.time_zone))
         assert (
-            f"{depot.name}</strong>: today&#x27;s work list was sent at {at:%H:%M} by "
+            f"{depot.name}</strong>: today&#x27;s work list was sent at {at:%H:%M %Z} by "
             "Morgan Hale to morgan@depot.example; send again?"
         ) in html
     assert len(ticked(second)) == 2
@@ -77,6 +77,10 @@ def test_a_confirmed_resend_is_sent_once_and_recorded(
     twice = client.post(reverse(SEND), form, follow=True)  # the form sent twice
     asked_again = client.post(reverse(SEND))
     assert len(inbox.messages) == 4  # the day's list and one resend, per depot
+    again = [m["Subject"] for _, _, m in inbox.messages if "(sent again)" in m["Subject"]]
+    assert len(again) == 2 and all(
+        s.startswith("fleetfuel work list (sent again), ") for s in again
+    )
     assert sorted(texts(confirmed)) == sorted(
         ("success", f"{d.name}: work list sent again to morgan@depot.example.")
         for d in two_depots["depots"]
