@@ -19,6 +19,7 @@ from fleetfuel.accounts.access import role_required, sites_for_user
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.accounts.requests import HtmxHttpRequest
 from fleetfuel.fleet.models import Site
+from services.display import clock_text
 
 from .forms import WorkListSettingsForm
 from .models import WorkListDispatch
@@ -89,7 +90,8 @@ def _sent_when(site: Site, dispatch: WorkListDispatch) -> str:
     sent = timezone.localtime(dispatch.sent_at, zoneinfo.ZoneInfo(site.time_zone))
     who = dispatch.user.get_full_name() or dispatch.user.get_username()
     what = "sent again" if dispatch.resend else "sent"
-    at = f"{sent:%H:%M} {sent.tzname()}"  # the site's own time, named: depots differ
+    # The depot's own time in its display style, with its zone named: depots differ.
+    at = f"{clock_text(sent, site.display_style)} {sent.tzname()}"
     return f"today's work list was {what} at {at} by {who} to {dispatch.user.email}"
 
 

@@ -42,7 +42,8 @@ def two_depots(subscribed: dict[str, Any], client: Any) -> dict[str, Any]:
     manager = subscribed["manager"]
     manager.first_name, manager.last_name = "Morgan", "Hale"
     manager.save()
-    depots = [subscribed["site"], f.site_make(name="Quarry Depot", time_zone="Europe/Berlin")]
+    quarry = f.site_make(name="Quarry Depot", time_zone="Europe/Berlin", display_style="en-US")
+    depots = [subscribed["site"], quarry]
     manager.profile.sites.set(depots)
     client.force_login(manager)
     return {"manager": manager, "depots": depots}
@@ -58,10 +59,16 @@ def test_two_presses_send_one_email_per_depot_and_the_second_asks(
     html = second.content.decode()
     for depot in two_depots["depots"]:
         went = WorkListDispatch.objects.get(site=depot, manual=True).sent_at
-        # When it went, in the depot's own time (Europe/Berlin is an hour ahead of London).
+        # When it went, in the depot's own time (Europe/Berlin is an hour ahead of London)
+        # and its display style (the US depot's clock has 12 hours).
         at = went.astimezone(zoneinfo.ZoneInfo(depot.time_zone))
+        clock = (
+            f"{at.hour % 12 or 12}:{at:%M}\u00a0{at:%p}"
+            if depot.display_style == "en-US"
+            else f"{at:%H:%M}"
+        )
         assert (
-            f"{depot.name}</strong>: today&#x27;s work list was sent at {at:%H:%M %Z} by "
+            f"{depot.name}</strong>: today&#x27;s work list was sent at {clock} {at:%Z} by "
             "Morgan Hale to morgan@depot.example; send again?"
         ) in html
     assert len(ticked(second)) == 2
