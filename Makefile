@@ -9,7 +9,9 @@ PY := $(BIN)/python
 STAMP := $(VENV)/.installed
 HOST ?= 127.0.0.1
 PORT ?= 8000
-DEMO_ENV := DEBUG=true
+# Links in the demo's emails point at the address it serves (override: make demo SITE_URL=...).
+SITE_URL ?= http://$(HOST):$(PORT)
+DEMO_ENV := DEBUG=true SITE_URL=$(SITE_URL)
 
 .PHONY: demo test lint format migrations-check check-deploy benchmark clean venv lock
 

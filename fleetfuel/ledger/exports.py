@@ -1,4 +1,4 @@
-"""The service history as files a third party can read and check: CSV and XLSX.
+"""The service history as files a third party can read and check: CSV (XLSX: xlsx.py).
 
 Rows come from one query ordered by unit and seq, read in chunks through a server-side cursor
 (``.iterator``), so an export of a million entries holds a chunk in memory, not the table.
@@ -13,7 +13,6 @@ import csv
 import hashlib
 import io
 from collections.abc import Callable, Iterable, Iterator, Mapping
-from datetime import date, datetime
 from decimal import Decimal
 from pathlib import Path
 from typing import Any
@@ -144,17 +143,6 @@ def cell_text(value: object) -> str:
     return str(canonical_value(value))
 
 
-def cell_value(value: object) -> object:
-    """An XLSX cell: numbers stay numbers, times are canonical text, text is escaped."""
-    if isinstance(value, str):
-        return cell_escape(value)
-    if isinstance(value, datetime | date):
-        return canonical_value(value)
-    if isinstance(value, float):
-        return canonical_value(value)
-    return value
-
-
 def _mechanic(row: Mapping[str, Any]) -> str:
     full = f"{row['recorded_by__first_name']} {row['recorded_by__last_name']}".strip()
     return full or row["recorded_by__username"]
@@ -222,39 +210,6 @@ def csv_stream(
     if chunk:
         yield chunk
     on_done(count, digest.hexdigest())
-
-
-def xlsx_write(
-    *, path: Path, rows: Iterable[tuple[object, ...]], units: Iterable[Mapping[str, Any]]
-) -> int:
-    """Write the workbook (openpyxl write-only mode, constant memory); return the row count.
-
-    Sheet "Service history" holds the rows (continued on further sheets past Excel's limit);
-    sheet "Units" holds each unit's identification and its scheduled tasks with due dates.
-    """
-    from openpyxl import Workbook
-
-    book = Workbook(write_only=True)
-    sheet, sheet_rows, sheets, count = None, XLSX_MAX_ROWS, 0, 0
-    for row in rows:
-        if sheet_rows >= XLSX_MAX_ROWS:
-            sheets += 1
-            sheet = book.create_sheet("Service history" + (f" ({sheets})" if sheets > 1 else ""))
-            sheet.append(HEADERS)
-            sheet_rows = 1
-        assert sheet is not None
-        sheet.append([cell_value(value) for value in row])
-        sheet_rows += 1
-        count += 1
-    if sheet is None:
-        book.create_sheet("Service history").append(HEADERS)
-    units_sheet = book.create_sheet("Units")
-    units_sheet.append(UNIT_HEADERS)
-    for unit in units:
-        for row in unit_sheet_rows(unit):
-            units_sheet.append([cell_value(value) for value in row])
-    book.save(path)
-    return count
 
 
 UNIT_HEADERS = (

@@ -34,12 +34,13 @@ from fleetfuel.accounts.access import (
     site_ids_for_user,
 )
 from fleetfuel.ledger.csv_copy import history_csv_stream
-from fleetfuel.ledger.exports import export_rows, file_sha256, xlsx_write
+from fleetfuel.ledger.exports import export_rows, file_sha256
 from fleetfuel.ledger.forms import ExportForm
 from fleetfuel.ledger.manifest import export_finish, manifest_bytes
 from fleetfuel.ledger.models import ExportLog
 from fleetfuel.ledger.printing import PRINT_MAX_ROWS, print_context
 from fleetfuel.ledger.selectors import filter_sites
+from fleetfuel.ledger.xlsx import xlsx_write
 
 from .manifest import history_export_start
 
@@ -94,7 +95,7 @@ def _xlsx_response(log: ExportLog, rows: Any) -> FileResponse:
     with tempfile.NamedTemporaryFile(suffix=".xlsx", delete=False) as handle:
         path = Path(handle.name)
     try:
-        count = xlsx_write(path=path, rows=rows, units=log.manifest["units"])
+        count = xlsx_write(path=path, rows=rows, log=log)
         export_finish(log_id=log.pk, row_count=count, sha256=file_sha256(path))
         data = path.open("rb")
     finally:

@@ -165,9 +165,9 @@ class StaleProjection(models.Model):
 
 
 class WorkListDispatch(models.Model):
-    """One emailed work list: a manager, a site, a local day, scheduled or by hand. Claimed
-    before sending, so a rerun of the hourly tick, two workers, or two presses of "send now"
-    never send the same list twice."""
+    """One emailed work list: a manager, a site, a local day, scheduled or by hand (and, by
+    hand, each resend the manager confirmed). Claimed before sending, so a rerun of the hourly
+    tick, two workers, or two presses of "send now" never send the same list twice."""
 
     class Status(models.TextChoices):
         PENDING = "pending", "Waiting to send"
@@ -180,6 +180,10 @@ class WorkListDispatch(models.Model):
     site = models.ForeignKey("fleet.Site", on_delete=models.CASCADE, related_name="work_lists")
     local_date = models.DateField()
     manual = models.BooleanField(default=False, help_text="Sent with the 'send now' button.")
+    resend = models.PositiveSmallIntegerField(
+        default=0,
+        help_text="0: the day's list; 1, 2, ...: sent again by hand, each time confirmed.",
+    )
     status = models.CharField(max_length=10, choices=Status.choices, default=Status.PENDING)
     attempts = models.PositiveSmallIntegerField(default=0)
     last_error = models.TextField(blank=True)
@@ -190,10 +194,11 @@ class WorkListDispatch(models.Model):
     class Meta:
         ordering = ["-created_at"]
         constraints = [
-            # One scheduled and one by-hand list a day: a second press sends nothing.
+            # One scheduled and one by-hand list a day: a second press asks before sending
+            # again, and each confirmed resend is a row of its own, sent once.
             models.UniqueConstraint(
-                fields=["user", "site", "local_date", "manual"],
-                name="worklist_once_per_user_site_day_kind",
+                fields=["user", "site", "local_date", "manual", "resend"],
+                name="worklist_once_per_user_site_day_kind_resend",
             ),
         ]
 

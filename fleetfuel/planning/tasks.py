@@ -110,8 +110,8 @@ def worklists_tick() -> int:
     due = worklists_due_now(now=now)
     for user_id, site_id, local_date in due:
         worklist_send.delay(user_id, site_id, local_date.isoformat())
-    for user_id, site_id, local_date, manual in dispatches_stuck(now=now):
-        worklist_send.delay(user_id, site_id, local_date.isoformat(), manual)
+    for user_id, site_id, local_date, manual, resend in dispatches_stuck(now=now):
+        worklist_send.delay(user_id, site_id, local_date.isoformat(), manual, resend)
     return len(due)
 
 
@@ -122,15 +122,22 @@ def worklists_tick() -> int:
     soft_time_limit=100,
     max_retries=3,
 )
-def worklist_send(self, user_id: int, site_id: int, local_date: str, manual: bool = False) -> str:  # type: ignore[no-untyped-def]
-    """Claim, then send one work list; SMTP failures retry with backoff (30 s, 2, 8 min).
+def worklist_send(  # type: ignore[no-untyped-def]
+    self, user_id: int, site_id: int, local_date: str, manual: bool = False, resend: int = 0
+) -> str:
+    """Claim, then send one work list (``resend``: a confirmed resend of the day's by-hand
+    list); SMTP failures retry with backoff (30 s, 2, 8 min).
 
     After the last retry the dispatch stays FAILED with the error, shown on the manager's page.
     """
     if self.request.retries:
         dispatch = (
             WorkListDispatch.objects.filter(
-                user_id=user_id, site_id=site_id, local_date=local_date, manual=manual
+                user_id=user_id,
+                site_id=site_id,
+                local_date=local_date,
+                manual=manual,
+                resend=resend,
             )
             .order_by("-created_at")
             .first()
@@ -147,6 +154,7 @@ def worklist_send(self, user_id: int, site_id: int, local_date: str, manual: boo
             site_id=site_id,
             local_date=date.fromisoformat(local_date),
             manual=manual,
+            resend=resend,
         )
         if dispatch is None:
             return "already sent or being sent"

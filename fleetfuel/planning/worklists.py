@@ -1,7 +1,8 @@
 """Emailed work lists: what each manager should see before the shift starts.
 
 One email per manager, site and local day: overdue items, items due within the manager's
-chosen days, and flagged units, grouped by unit, with links back to the due list.
+chosen days, and flagged units, grouped by unit, most urgent unit first (as the due list
+orders), with links back to the due list.
 """
 
 from __future__ import annotations
@@ -40,6 +41,21 @@ class UnitSection:
     flags: list[UnitFlag]
 
 
+def item_urgency(item: DueItem) -> tuple[int, date, float, str]:
+    """The due list's order of urgency (services.urgency, stored on the item at recompute):
+    its tier (a water-in-fuel alarm first), then the longest overdue, then the most hours
+    past; the one place the email's order is decided."""
+    return (item.urgency, item.late_from or date.max, -(item.late_hours or 0.0), item.task)
+
+
+def section_urgency(section: UnitSection) -> tuple[int, tuple[int, date, float, str], str]:
+    """A unit's place in the email: flagged units first (a flag says stop and check), then by
+    its most urgent item; fleet number breaks ties."""
+    first = min((item_urgency(item) for item in section.items), default=None)
+    last = (len(DueItem.Status) + 8, date.max, 0.0, "")
+    return (0 if section.flags else 1, first or last, section.fleet_number)
+
+
 def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
     """What the email lists (three queries)."""
     days = user.profile.work_list_days_ahead
@@ -47,7 +63,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
         DueItem.objects.filter(site=site)
         .filter(Q(status=DueItem.Status.OVERDUE) | Q(due_on__lte=today + timedelta(days=days)))
         .select_related("unit")
-        .order_by("unit__fleet_number", "due_on", "task")
+        .order_by("urgency", "late_from", "-late_hours", "task")
     )
     flags = list(
         UnitFlag.objects.filter(unit__site=site, unit__disposed_on__isnull=True)
@@ -69,7 +85,7 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
         "site": site,
         "today": today,
         "days": days,
-        "sections": sorted(sections.values(), key=lambda s: s.fleet_number),
+        "sections": sorted(sections.values(), key=section_urgency),
         "overdue": overdue,
         "check": check,
         "upcoming": len(items) - overdue - check,
@@ -82,10 +98,13 @@ def worklist_content(*, user: User, site: Site, today: date) -> dict[str, Any]:
     }
 
 
-def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMultiAlternatives, int]:
+def worklist_message(
+    *, user: User, site: Site, today: date, again: bool = False
+) -> tuple[EmailMultiAlternatives, int]:
     ctx = worklist_content(user=user, site=site, today=today)
     subject = (
-        f"fleetfuel work list, {site.name}, {fmt.day(today, site).replace(NBSP, ' ')}: "
+        f"fleetfuel work list{' (sent again)' if again else ''}, {site.name}, "
+        f"{fmt.day(today, site).replace(NBSP, ' ')}: "
         f"{ctx['overdue']} overdue, "
         + (f"{ctx['check']} to check, " if ctx["check"] else "")
         + f"{ctx['upcoming']} due within {ctx['days']} days"
@@ -100,10 +119,17 @@ def worklist_message(*, user: User, site: Site, today: date) -> tuple[EmailMulti
 
 
 def dispatch_get_or_create(
-    *, user_id: int, site_id: int, local_date: date, manual: bool
+    *, user_id: int, site_id: int, local_date: date, manual: bool, resend: int = 0
 ) -> WorkListDispatch:
-    """The one dispatch of a manager, site and local day: scheduled, or sent by hand."""
-    key = {"user_id": user_id, "site_id": site_id, "local_date": local_date, "manual": manual}
+    """The one dispatch of a manager, site and local day: scheduled, or sent by hand (or the
+    manager's ``resend``-th confirmed resend of it)."""
+    key = {
+        "user_id": user_id,
+        "site_id": site_id,
+        "local_date": local_date,
+        "manual": manual,
+        "resend": resend,
+    }
     try:
         with transaction.atomic():
             dispatch, _ = WorkListDispatch.objects.get_or_create(**key)
@@ -113,11 +139,11 @@ def dispatch_get_or_create(
 
 
 def dispatch_claim(
-    *, user_id: int, site_id: int, local_date: date, manual: bool
+    *, user_id: int, site_id: int, local_date: date, manual: bool, resend: int = 0
 ) -> WorkListDispatch | None:
     """Claim the right to send (None: already sent, or another worker is sending it)."""
     dispatch = dispatch_get_or_create(
-        user_id=user_id, site_id=site_id, local_date=local_date, manual=manual
+        user_id=user_id, site_id=site_id, local_date=local_date, manual=manual, resend=resend
     )
     claimed = WorkListDispatch.objects.filter(
         pk=dispatch.pk,
@@ -129,11 +155,14 @@ def dispatch_claim(
     return dispatch
 
 
-def dispatch_request(*, user_id: int, site_id: int, local_date: date) -> WorkListDispatch:
-    """The day's by-hand dispatch for "send now": one a day per manager and site, so a second
-    press sends nothing twice. A press after a final failure starts it again."""
+def dispatch_request(
+    *, user_id: int, site_id: int, local_date: date, resend: int = 0
+) -> WorkListDispatch:
+    """A by-hand dispatch for "send now": the day's (``resend`` 0) or a confirmed resend of
+    it, each sent once however often it is asked for. A press after a final failure starts
+    it again."""
     dispatch = dispatch_get_or_create(
-        user_id=user_id, site_id=site_id, local_date=local_date, manual=True
+        user_id=user_id, site_id=site_id, local_date=local_date, manual=True, resend=resend
     )
     if WorkListDispatch.objects.filter(
         pk=dispatch.pk, status=WorkListDispatch.Status.FAILED
@@ -147,7 +176,10 @@ def dispatch_send(*, dispatch: WorkListDispatch) -> None:
     after being recorded, so the dispatch never stays claimed by a send that failed."""
     try:
         message, count = worklist_message(
-            user=dispatch.user, site=dispatch.site, today=dispatch.local_date
+            user=dispatch.user,
+            site=dispatch.site,
+            today=dispatch.local_date,
+            again=dispatch.resend > 0,
         )
         message.send()
     except Exception as exc:
@@ -186,14 +218,29 @@ def worklists_due_now(*, now: datetime) -> list[tuple[int, int, date]]:
 DISPATCH_STUCK_AFTER = timedelta(minutes=15)
 
 
-def dispatches_stuck(*, now: datetime) -> list[tuple[int, int, date, bool]]:
-    """(user, site, local day, by hand) of the dispatches of the last two days still unsent."""
+def dispatches_stuck(*, now: datetime) -> list[tuple[int, int, date, bool, int]]:
+    """(user, site, local day, by hand, resend) of the last two days' dispatches unsent."""
     return list(
         WorkListDispatch.objects.filter(
             status__in=[WorkListDispatch.Status.PENDING, WorkListDispatch.Status.RETRYING],
             created_at__lt=now - DISPATCH_STUCK_AFTER,
             local_date__gte=(now - timedelta(days=2)).date(),
-        ).values_list("user_id", "site_id", "local_date", "manual")
+        ).values_list("user_id", "site_id", "local_date", "manual", "resend")
+    )
+
+
+def dispatch_by_hand_latest(
+    *, user_id: int, site_id: int, local_date: date
+) -> WorkListDispatch | None:
+    """The manager's latest by-hand dispatch of a site's list for a local day (the day's own,
+    or its last resend), with who it went to."""
+    return (
+        WorkListDispatch.objects.filter(
+            user_id=user_id, site_id=site_id, local_date=local_date, manual=True
+        )
+        .select_related("user")
+        .order_by("-resend")
+        .first()
     )
 
 

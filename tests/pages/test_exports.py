@@ -8,7 +8,7 @@ import csv
 import hashlib
 import io
 import json
-from datetime import date, timedelta
+from datetime import date, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
@@ -201,16 +201,51 @@ def test_xlsx_opens_with_openpyxl_and_matches_its_manifest(as_auditor: Any, hist
     manifest = manifest_of(as_auditor, response)
     assert manifest["sha256"] == hashlib.sha256(data).hexdigest()
     book = openpyxl.load_workbook(io.BytesIO(data), read_only=True)
-    assert book.sheetnames == ["Service history", "Units"]
+    assert book.sheetnames == ["Service history", "Units", "Manifest"]
     rows = list(book["Service history"].iter_rows(values_only=True))
     header, body = rows[0], rows[1:]
     assert len(body) == manifest["row_count"] == 4
     last = dict(zip(header, body[-1], strict=True))
-    assert last["notes"] == '\'=HYPERLINK("http://example.test")'  # text, not a formula
-    assert last["value"] == 4.75 and last["passed"] is True
+    assert last["Notes"] == '\'=HYPERLINK("http://example.test")'  # text, not a formula
+    assert last["Measured value"] == 4.75 and last["Within limits"] is True
     units = list(book["Units"].iter_rows(values_only=True))
-    assert units[0][:6] == ("site", "fleet_number", "make", "model", "serial_number", "year")
+    assert units[0][:6] == ("Site", "Fleet number", "Make", "Model", "Serial number", "Year")
     assert units[1][1] == "N-001"
+
+
+def test_xlsx_is_a_sheet_people_read(as_auditor: Any, history: Any, unit: Any) -> None:
+    """Read back with openpyxl (the outside reference for the OOXML format, ECMA-376): worded
+    headers, real date and number cells, a frozen header row, a filter, widths, and the
+    manifest on its own sheet mapping each header to the CSV's column name."""
+    response = export_post(as_auditor, "xlsx")
+    book = openpyxl.load_workbook(io.BytesIO(b"".join(response.streaming_content)))
+    for sheet in book.worksheets:
+        assert sheet.freeze_panes == "A2", sheet.title
+        assert sheet.auto_filter.ref and sheet.auto_filter.ref.startswith("A1:"), sheet.title
+        assert all(cell.font.b for cell in sheet[1] if cell.value), sheet.title
+    history_sheet = book["Service history"]
+    assert history_sheet.auto_filter.ref == f"A1:{history_sheet.cell(1, 40).column_letter}5"
+    header = [cell.value for cell in history_sheet[1]]
+    assert not [h for h in header if "_" in str(h)]  # words, not snake_case
+    assert {"Fleet number", "Performed (UTC)", "Hour meter (h)", "What was done"} <= set(header)
+    assert history_sheet.column_dimensions["A"].width >= len("Site")
+    cells = dict(zip(header, history_sheet[5], strict=True))
+    performed = cells["Performed (UTC)"]
+    assert performed.is_date and performed.data_type == "d"  # a date cell, not text
+    assert performed.value == datetime(2026, 6, 15, 12, 0)  # f.NOW in UTC, as the CSV says
+    assert cells["Recorded (UTC)"].is_date
+    assert cells["Hour meter (h)"].value == 1234.5 and cells["Hour meter (h)"].data_type == "n"
+    units = book["Units"]
+    unit_header = [cell.value for cell in units[1]]
+    in_service = units.cell(2, unit_header.index("In service since") + 1)
+    assert in_service.is_date and in_service.value.date() == unit.in_service_on
+    manifest = {row[0]: row[1] for row in book["Manifest"].iter_rows(values_only=True) if row[0]}
+    assert manifest["Export ID"] == int(response["X-Fleetfuel-Export"])
+    assert isinstance(manifest["Made (UTC)"], datetime)
+    assert manifest["Performed (UTC)"] == "performed_at" and manifest["Entry hash (SHA-256)"] == (
+        "hash"
+    )
+    assert set(CONTENT_FIELDS) <= set(manifest.values())
 
 
 def test_printable_record_breaks_page_per_unit(

@@ -11,10 +11,11 @@ from django.db.models import Q
 
 from fleetfuel.fleet.models import Site
 from fleetfuel.ledger.csv_copy import history_csv_stream
-from fleetfuel.ledger.exports import export_rows, file_sha256, xlsx_write
+from fleetfuel.ledger.exports import export_rows, file_sha256
 from fleetfuel.ledger.manifest import export_finish, manifest_bytes
 from fleetfuel.ledger.models import ExportLog
 from fleetfuel.ledger.selectors import HistoryScope
+from fleetfuel.ledger.xlsx import xlsx_write
 from fleetfuel.pages.manifest import history_export_start
 
 
@@ -84,7 +85,7 @@ class Command(BaseCommand):
                     handle.write(chunk)
         else:
             rows = export_rows(events=events, heads=heads)
-            count = xlsx_write(path=out, rows=rows, units=log.manifest["units"])
+            count = xlsx_write(path=out, rows=rows, log=log)
             export_finish(log_id=log.pk, row_count=count, sha256=file_sha256(out))
         log.refresh_from_db()
         manifest_path = Path(f"{out}.manifest.json")
