@@ -27,6 +27,16 @@ class SourceFuel:
 
 
 @dataclass(frozen=True)
+class BatchSources:
+    """A batch's source samples as services read them (and the refused ones, with reasons),
+    and each source's tank inputs: the same for every unit of the batch."""
+
+    samples: list[fi.Sample]
+    refused: list[str]
+    sources: dict[int, SourceFuel]
+
+
+@dataclass(frozen=True)
 class TankLoadings:
     """What the unit's filters saw since their change, and the tank's fuel now."""
 
