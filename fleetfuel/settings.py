@@ -16,7 +16,6 @@ from pathlib import Path
 from urllib.parse import urlsplit
 
 import dj_database_url
-from celery.schedules import crontab
 from django.core.exceptions import ImproperlyConfigured
 from django.utils.csp import CSP
 
@@ -395,30 +394,7 @@ CELERY_BROKER_CONNECTION_TIMEOUT = 2
 CELERY_REDIS_SOCKET_CONNECT_TIMEOUT = 2
 CELERY_TASK_PUBLISH_RETRY_POLICY = _PUBLISH_RETRY
 CELERY_RESULT_BACKEND_TRANSPORT_OPTIONS = {"retry_policy": _PUBLISH_RETRY}
-# Keep beat single (one process): every scheduled job is idempotent anyway.
-CELERY_BEAT_SCHEDULE = {
-    "nightly-recompute": {
-        "task": "fleetfuel.planning.tasks.recompute_all",
-        "schedule": crontab(hour=2, minute=15),
-        "options": {"expires": 6 * 3600},
-    },
-    "stale-sweep": {
-        # Units whose recompute could not be queued, and a nightly run whose chain broke.
-        "task": "fleetfuel.planning.tasks.stale_sweep",
-        "schedule": crontab(minute="*/5"),
-        "options": {"expires": 4 * 60},
-    },
-    "ledger-checkpoints": {
-        "task": "fleetfuel.ledger.tasks.checkpoint_heads",
-        "schedule": crontab(minute="*/15"),
-        "options": {"expires": 14 * 60},
-    },
-    "work-lists": {
-        "task": "fleetfuel.planning.tasks.worklists_tick",
-        "schedule": crontab(minute=0),
-        "options": {"expires": 50 * 60},
-    },
-}
+# Queues (task routes) and the beat schedule: fleetfuel/celery.py.
 
 LOG_LEVEL = env_choice("LOG_LEVEL", "INFO", ("DEBUG", "INFO", "WARNING", "ERROR", "CRITICAL"))
 LOGGING = {

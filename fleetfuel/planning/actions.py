@@ -72,14 +72,17 @@ class RecomputeResult:
     flags: int
 
 
-def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResult:
+def due_items_recompute(
+    *, unit_ids: list[int], now: datetime, sources: bool = True
+) -> RecomputeResult:
     """Project every task of the given units and store the latest word on each.
 
     Idempotent: the same inputs give the same rows (upserts keyed on component and task, so
     a due item keeps its id, and the work-order tasks that point at it stay linked).
     A fixed number of queries per call, whatever the number of units.
     The units' stale marks read before their inputs are removed after (a mark made since
-    stays, for the sweep).
+    stays, for the sweep). With ``sources`` (the default) the fuel sources' decisions are
+    refreshed after; a full run's batches leave that to the run's end (runs.py).
     """
     marks = list(
         StaleProjection.objects.filter(unit_id__in=unit_ids).values_list("unit_id", "marked_at")
@@ -149,7 +152,8 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             for unit_id, marked_at in marks:
                 seen |= Q(unit_id=unit_id, marked_at=marked_at)
             StaleProjection.objects.filter(seen).delete()
-    source_decisions_recompute(now=now)  # the sources' decisions, after their units
+    if sources:
+        source_decisions_recompute(now=now)  # the sources' decisions, after their units
     return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))
 
 
