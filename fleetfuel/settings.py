@@ -13,6 +13,7 @@ import os
 from datetime import timedelta
 from email.utils import parseaddr
 from pathlib import Path
+from typing import Any
 from urllib.parse import urlsplit
 
 import dj_database_url
@@ -210,23 +211,33 @@ TEMPLATES = [
     }
 ]
 
-# Database: DATABASE_URL (postgres://user@host:5432/name) or the SQLite default under var/.
+# Database: DATABASE_URL (postgres://user@host:5432/name) or the SQLite default under var/;
+# DATABASE_REPLICA_URL (optional): a read replica for exports and history reads only
+# (fleetfuel/dbrouters.py); tests run it as a mirror of the default database.
 _default_sqlite = f"sqlite:///{BASE_DIR / 'var' / 'fleetfuel.sqlite3'}"
 SUPPORTED_DATABASES = ("django.db.backends.postgresql", "django.db.backends.sqlite3")
 _conn_max_age = env_int("DB_CONN_MAX_AGE", 60, low=0)
-try:
-    DATABASES = {
-        "default": dj_database_url.parse(
-            env_str("DATABASE_URL", _default_sqlite), conn_max_age=_conn_max_age
+
+
+def env_database(name: str, default: str) -> dict[str, Any]:
+    try:
+        db = dj_database_url.parse(env_str(name, default), conn_max_age=_conn_max_age)
+    except ValueError as exc:
+        raise ImproperlyConfigured(f"Environment variable {name} is not usable: {exc}") from exc
+    if db["ENGINE"] not in SUPPORTED_DATABASES:
+        raise ImproperlyConfigured(
+            f"Environment variable {name} must name PostgreSQL (postgres://user@host:5432/name) "
+            "or SQLite (sqlite:///path)."
         )
-    }
-except ValueError as exc:
-    raise ImproperlyConfigured(f"Environment variable DATABASE_URL is not usable: {exc}") from exc
-if DATABASES["default"]["ENGINE"] not in SUPPORTED_DATABASES:
-    raise ImproperlyConfigured(
-        "Environment variable DATABASE_URL must name PostgreSQL (postgres://user@host:5432/name) "
-        "or SQLite (sqlite:///path)."
-    )
+    return dict(db)
+
+
+DATABASES = {"default": env_database("DATABASE_URL", _default_sqlite)}
+DATABASE_REPLICA_READS = bool(env_str("DATABASE_REPLICA_URL", ""))
+if DATABASE_REPLICA_READS or TESTING:
+    _replica = env_database("DATABASE_REPLICA_URL", env_str("DATABASE_URL", _default_sqlite))
+    DATABASES["replica"] = {**_replica, "TEST": {"MIRROR": "default"}}
+DATABASE_ROUTERS = ["fleetfuel.dbrouters.PrimaryRouter"]
 if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     (BASE_DIR / "var").mkdir(exist_ok=True)
     DATABASES["default"]["CONN_MAX_AGE"] = 0

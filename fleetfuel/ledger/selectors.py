@@ -9,6 +9,7 @@ from typing import Any
 from django.db.models import Exists, OuterRef, Q, QuerySet
 
 from fleetfuel.accounts.access import site_ids_for_user
+from fleetfuel.dbrouters import history_alias
 from fleetfuel.fleet.models import Site, Unit
 
 from .models import ExportLog, ServiceEvent
@@ -100,8 +101,10 @@ def history_page(
     *, scope: HistoryScope, older_than: str = "", newer_than: str = "", size: int = PAGE_SIZE
 ) -> HistoryPage:
     """One page, newest first, by keyset (no count of the table): one query."""
-    rows = scope.events().select_related(
-        "unit", "unit__site", "recorded_by", "work_order", "corrects"
+    rows = (
+        scope.events()
+        .using(history_alias())
+        .select_related("unit", "unit__site", "recorded_by", "work_order", "corrects")
     )
     rows = rows.annotate(
         is_corrected=Exists(ServiceEvent.objects.filter(corrects_id=OuterRef("pk")))

@@ -23,7 +23,8 @@ from services.filter_dp import DpReading
 from services.schedule import MAX_FORECAST_DAYS
 
 from . import engine_tank
-from .selectors import BatchInputs, FuelSampleRow, UnitInputs, unit_forecast
+from .rows import FuelSampleRow
+from .selectors import BatchInputs, UnitInputs, unit_forecast
 
 FILTER_TASKS = {
     ComponentKind.PRIMARY_FILTER: TaskKind.PRIMARY_FILTER,
