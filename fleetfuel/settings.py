@@ -13,10 +13,10 @@ import os
 from datetime import timedelta
 from email.utils import parseaddr
 from pathlib import Path
+from typing import Any
 from urllib.parse import urlsplit
 
 import dj_database_url
-from celery.schedules import crontab
 from django.core.exceptions import ImproperlyConfigured
 from django.utils.csp import CSP
 
@@ -212,23 +212,33 @@ TEMPLATES = [
     }
 ]
 
-# Database: DATABASE_URL (postgres://user@host:5432/name) or the SQLite default under var/.
+# Database: DATABASE_URL (postgres://user@host:5432/name) or the SQLite default under var/;
+# DATABASE_REPLICA_URL (optional): a read replica for exports and history reads only
+# (fleetfuel/dbrouters.py); tests run it as a mirror of the default database.
 _default_sqlite = f"sqlite:///{BASE_DIR / 'var' / 'fleetfuel.sqlite3'}"
 SUPPORTED_DATABASES = ("django.db.backends.postgresql", "django.db.backends.sqlite3")
 _conn_max_age = env_int("DB_CONN_MAX_AGE", 60, low=0)
-try:
-    DATABASES = {
-        "default": dj_database_url.parse(
-            env_str("DATABASE_URL", _default_sqlite), conn_max_age=_conn_max_age
+
+
+def env_database(name: str, default: str) -> dict[str, Any]:
+    try:
+        db = dj_database_url.parse(env_str(name, default), conn_max_age=_conn_max_age)
+    except ValueError as exc:
+        raise ImproperlyConfigured(f"Environment variable {name} is not usable: {exc}") from exc
+    if db["ENGINE"] not in SUPPORTED_DATABASES:
+        raise ImproperlyConfigured(
+            f"Environment variable {name} must name PostgreSQL (postgres://user@host:5432/name) "
+            "or SQLite (sqlite:///path)."
         )
-    }
-except ValueError as exc:
-    raise ImproperlyConfigured(f"Environment variable DATABASE_URL is not usable: {exc}") from exc
-if DATABASES["default"]["ENGINE"] not in SUPPORTED_DATABASES:
-    raise ImproperlyConfigured(
-        "Environment variable DATABASE_URL must name PostgreSQL (postgres://user@host:5432/name) "
-        "or SQLite (sqlite:///path)."
-    )
+    return dict(db)
+
+
+DATABASES = {"default": env_database("DATABASE_URL", _default_sqlite)}
+DATABASE_REPLICA_READS = bool(env_str("DATABASE_REPLICA_URL", ""))
+if DATABASE_REPLICA_READS or TESTING:
+    _replica = env_database("DATABASE_REPLICA_URL", env_str("DATABASE_URL", _default_sqlite))
+    DATABASES["replica"] = {**_replica, "TEST": {"MIRROR": "default"}}
+DATABASE_ROUTERS = ["fleetfuel.dbrouters.PrimaryRouter"]
 if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     (BASE_DIR / "var").mkdir(exist_ok=True)
     DATABASES["default"]["CONN_MAX_AGE"] = 0
@@ -395,30 +405,7 @@ CELERY_BROKER_CONNECTION_TIMEOUT = 2
 CELERY_REDIS_SOCKET_CONNECT_TIMEOUT = 2
 CELERY_TASK_PUBLISH_RETRY_POLICY = _PUBLISH_RETRY
 CELERY_RESULT_BACKEND_TRANSPORT_OPTIONS = {"retry_policy": _PUBLISH_RETRY}
-# Keep beat single (one process): every scheduled job is idempotent anyway.
-CELERY_BEAT_SCHEDULE = {
-    "nightly-recompute": {
-        "task": "fleetfuel.planning.tasks.recompute_all",
-        "schedule": crontab(hour=2, minute=15),
-        "options": {"expires": 6 * 3600},
-    },
-    "stale-sweep": {
-        # Units whose recompute could not be queued, and a nightly run whose chain broke.
-        "task": "fleetfuel.planning.tasks.stale_sweep",
-        "schedule": crontab(minute="*/5"),
-        "options": {"expires": 4 * 60},
-    },
-    "ledger-checkpoints": {
-        "task": "fleetfuel.ledger.tasks.checkpoint_heads",
-        "schedule": crontab(minute="*/15"),
-        "options": {"expires": 14 * 60},
-    },
-    "work-lists": {
-        "task": "fleetfuel.planning.tasks.worklists_tick",
-        "schedule": crontab(minute=0),
-        "options": {"expires": 50 * 60},
-    },
-}
+# Queues (task routes) and the beat schedule: fleetfuel/celery.py.
 
 LOG_LEVEL = env_choice("LOG_LEVEL", "INFO", ("DEBUG", "INFO", "WARNING", "ERROR", "CRITICAL"))
 LOGGING = {

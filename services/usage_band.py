@@ -142,12 +142,17 @@ def rate_band(
     n = len(intervals)
     if n < 2:
         return None
-    draws = splitmix64(seed=seed)
+    # SplitMix64 as splitmix64() gives it, inlined: the same draws, without a generator
+    # call per draw (the band is most of a unit's projection time).
+    state = seed & _MASK64
     ratios = []
     for _ in range(BOOTSTRAP_DRAWS):
         hours = days = 0.0
         for _ in range(n):
-            h, d = intervals[next(draws) % n]
+            state = (state + 0x9E3779B97F4A7C15) & _MASK64
+            z = ((state ^ (state >> 30)) * 0xBF58476D1CE4E5B9) & _MASK64
+            z = ((z ^ (z >> 27)) * 0x94D049BB133111EB) & _MASK64
+            h, d = intervals[(z ^ (z >> 31)) % n]
             hours += h
             days += d
         ratios.append(hours / days)

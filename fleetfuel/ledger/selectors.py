@@ -11,6 +11,7 @@ from zoneinfo import ZoneInfo
 from django.db.models import Exists, OuterRef, Q, QuerySet
 
 from fleetfuel.accounts.access import site_ids_for_user
+from fleetfuel.dbrouters import history_alias
 from fleetfuel.fleet.models import Site, Unit
 
 from .effective import in_effect, with_effective_kind
@@ -128,7 +129,7 @@ def history_page(
     table): one query (two with dates: their depots' time zones). The corrected view (each
     entry with its corrections applied: effective.py), or with ``scope.recorded`` every entry
     as recorded, each marked when a correction took its place."""
-    rows = scope.events(with_kind=False)
+    rows = scope.events(with_kind=False).using(history_alias())
     if scope.recorded:
         rows = with_effective_kind(rows.filter(kind=scope.kind) if scope.kind else rows)
     else:

@@ -33,6 +33,7 @@ from fleetfuel.accounts.access import (
     role_required,
     site_ids_for_user,
 )
+from fleetfuel.dbrouters import history_alias
 from fleetfuel.ledger.csv_copy import history_csv_stream
 from fleetfuel.ledger.exports import export_rows, file_sha256
 from fleetfuel.ledger.forms import ExportForm
@@ -67,7 +68,8 @@ def export(request: HttpRequest) -> HttpResponse:
         )
         return redirect("ledger:history")
     log, heads = history_export_start(scope=scope, fmt=fmt, via=ExportLog.Via.WEB, user=user)
-    events = scope.events(with_kind=False)
+    # Read from the replica once it holds every entry up to the heads (dbrouters.py).
+    events = scope.events(with_kind=False).using(history_alias(caught_up=True))
     if fmt == ExportLog.Format.CSV:
         response: HttpResponse | StreamingHttpResponse = StreamingHttpResponse(
             history_csv_stream(events=events, heads=heads, on_done=partial(_finish, log.pk)),

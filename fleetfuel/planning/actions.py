@@ -16,6 +16,7 @@ from .engine import UnitResult, unit_compute
 from .models import DueItem, StaleProjection, UnitFlag
 from .selectors import batch_inputs_load
 from .source_decisions import source_decisions_recompute
+from .source_models import SourceDecisionUnit
 
 STATUS_RANK = {s: rank for rank, s in enumerate(DueStatus)}  # in DueStatus's order of urgency
 DUE_FIELDS = [
@@ -137,14 +138,17 @@ class RecomputeResult:
     flags: int
 
 
-def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResult:
+def due_items_recompute(
+    *, unit_ids: list[int], now: datetime, sources: bool = True
+) -> RecomputeResult:
     """Project every task of the given units and store the latest word on each.
 
     Idempotent: the same inputs give the same rows (upserts keyed on component and task, so
     a due item keeps its id, and the work-order tasks that point at it stay linked).
     A fixed number of queries per call, whatever the number of units.
     The units' stale marks read before their inputs are removed after (a mark made since
-    stays, for the sweep).
+    stays, for the sweep). With ``sources`` (the default) the fuel sources' decisions are
+    refreshed after; a full run's batches leave that to the run's end (runs.py).
     """
     marks = list(
         StaleProjection.objects.filter(unit_id__in=unit_ids).values_list("unit_id", "marked_at")
@@ -194,7 +198,8 @@ def due_items_recompute(*, unit_ids: list[int], now: datetime) -> RecomputeResul
             for unit_id, marked_at in marks:
                 seen |= Q(unit_id=unit_id, marked_at=marked_at)
             StaleProjection.objects.filter(seen).delete()
-    source_decisions_recompute(now=now, burned=burned)  # the sources' decisions, after units
+    if sources:
+        source_decisions_recompute(now=now, burned=burned)  # the sources' decisions, after units
     return RecomputeResult(units=len(ids), items=len(items), flags=len(flags))
 
 
@@ -220,3 +225,25 @@ def stale_units_recompute(*, now: datetime, limit: int) -> RecomputeResult:
     if not ids:
         return RecomputeResult(units=0, items=0, flags=0)
     return due_items_recompute(unit_ids=ids, now=now)
+
+
+def source_decisions_refresh(*, now: datetime) -> None:
+    """The sources' decisions once a full run's batches are done, with the litres burned of
+    every unit an open decision lists: the batches skip the decisions (one query over the
+    whole fleet's fuelings each), so the units the decisions name are worked out again here
+    (their tank runs; a few units, not the fleet) and the decisions refreshed with them."""
+    source_decisions_recompute(now=now)  # opens and closes decisions on the batches' rows
+    listed = list(
+        SourceDecisionUnit.objects.filter(decision__resolved_at__isnull=True)
+        .values_list("unit_id", flat=True)
+        .distinct()
+    )
+    if not listed:
+        return
+    batch = batch_inputs_load(unit_ids=listed, now=now)
+    burned: dict[int, dict[int, float]] = {}
+    for bundle in batch.units:
+        result = unit_compute(bundle, batch, now)
+        if result.burned:
+            burned[result.unit_id] = result.burned
+    source_decisions_recompute(now=now, burned=burned)

@@ -14,7 +14,6 @@ from typing import Any
 from django.db import connection
 from django.db.models import Exists, OuterRef, QuerySet
 
-
 from .models import DueItem, UnitFlag
 
 PAGE_SIZE = 50

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 from functools import partial
 
-from fleetfuel.fleet.models import Component, ComponentKind, FuelSample, FuelSource, ServicePlan
+from fleetfuel.fleet.models import Component, ComponentKind, FuelSource, ServicePlan
 from services import filter_inputs, filter_life, intervals, usage, water
 from services import flags as fl
 from services import fuel_intake as fi
@@ -23,6 +23,7 @@ from services.filter_dp import DpReading
 from services.schedule import MAX_FORECAST_DAYS
 
 from . import engine_tank
+from .rows import FuelSampleRow
 from .selectors import BatchInputs, UnitInputs, unit_forecast
 
 FILTER_TASKS = {
@@ -189,10 +190,22 @@ def engine_hours_at(b: UnitInputs, at: datetime, meter: float) -> float:
     return usage.meter_to_engine_hours(meter=meter, at=at, replacements=b.replacements)
 
 
-def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
-    refused: list[str] = []  # records services/ refuses (NaN, infinity, out of range)
+def batch_source_fuel(batch: BatchInputs) -> engine_tank.BatchSources:
+    """The batch's source samples as services read them, and each source's tank inputs:
+    the same for every unit of the batch, so read once (kept on the batch)."""
+    if batch.source_fuel is None:
+        samples, refused = samples_read(batch.source_samples, batch)
+        batch.source_fuel = engine_tank.BatchSources(samples, refused, source_fuels(batch, samples))
+    return batch.source_fuel
+
+
+def samples_read(
+    rows: list[FuelSampleRow], batch: BatchInputs
+) -> tuple[list[fi.Sample], list[str]]:
+    """Samples as services/ take them, and the ones they refuse, each with its reason."""
     samples: list[fi.Sample] = []
-    for s in [*batch.source_samples, *b.unit_samples]:
+    refused: list[str] = []
+    for s in rows:
         source = batch.sources[s.source_id] if s.source_id else None
         try:
             quality = sample_quality(s, source)
@@ -201,6 +214,14 @@ def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
             continue
         samples.append(fi.Sample(at=s.sampled_at, source_id=s.source_id,
                                  unit_sample=s.unit_id is not None, quality=quality))  # fmt: skip
+    return samples, refused
+
+
+def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
+    shared = batch_source_fuel(batch)
+    own, own_refused = samples_read(b.unit_samples, batch)
+    samples = [*shared.samples, *own]
+    refused = [*shared.refused, *own_refused]  # records services/ refuses (NaN, infinity, ...)
     fuelings: list[fi.Fueling] = []
     for f in b.fuelings:
         try:
@@ -239,8 +260,8 @@ def unit_fuel(b: UnitInputs, batch: BatchInputs) -> UnitFuel:
         ],
         burn=burn,
         refused=refused,
-        tank_samples=[s for s in samples if s.unit_sample],
-        sources=source_fuels(batch, samples),
+        tank_samples=own,
+        sources=shared.sources,
     )
 
 
@@ -259,7 +280,7 @@ def source_fuels(batch: BatchInputs, samples: list[fi.Sample]) -> dict[int, engi
     return out
 
 
-def sample_quality(sample: FuelSample, source: FuelSource | None) -> fq.FuelQuality:
+def sample_quality(sample: FuelSampleRow, source: FuelSource | None) -> fq.FuelQuality:
     """The sample as services read it; the source's FAME and density where it has none."""
     where = f"of {source.name}" if source else "from the unit's tank"
     codes = (

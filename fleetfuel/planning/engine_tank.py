@@ -9,7 +9,7 @@ has been burned.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 from functools import partial
 
@@ -26,6 +26,20 @@ class SourceFuel:
 
     deliveries: list[tuple[datetime, float, str]]  # (delivered at, litres, words naming it)
     samples: list[fi.Sample]
+    # source_fuel's answers by what they depend on (see source_fuel_at), kept for the batch
+    known: dict[tuple[int, int, int], tuple[float, bool, str]] = field(
+        default_factory=dict, compare=False
+    )
+
+
+@dataclass(frozen=True)
+class BatchSources:
+    """A batch's source samples as services read them (and the refused ones, with reasons),
+    and each source's tank inputs: the same for every unit of the batch."""
+
+    samples: list[fi.Sample]
+    refused: list[str]
+    sources: dict[int, SourceFuel]
 
 
 @dataclass(frozen=True)
@@ -74,7 +88,7 @@ def tank_loadings(
         words = quality.label if quality else "no sample: reference fuel assumed"
         source = sources.get(fueling.source_id) if fueling.source_id is not None else None
         if source and source.deliveries and id(quality) not in measured:
-            conc, assumed, words = source_fuel(source=source, at=fueling.at, channel=channel)
+            conc, assumed, words = source_fuel_at(source=source, at=fueling.at, channel=channel)
         fills.append(
             tank.Fill(
                 at=fueling.at,
@@ -201,6 +215,21 @@ def tank_water(
     if any(d != density for d in densities):  # one density throughout: nothing to mix
         _, density = run(values=densities, initial=fq.DEFAULT_DENSITY_KG_L)
     return water / density, density
+
+
+def source_fuel_at(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:
+    """``source_fuel``, worked out once per state of the bulk tank: with nothing drawn, its
+    fuel at ``at`` depends only on which deliveries and samples came by then (the ones at or
+    before ``at``: a threshold, so their number names them) and the channel. Every unit of a
+    batch fuelling from the same delivery then shares one tank run."""
+    key = (
+        channel,
+        sum(1 for d_at, _, _ in source.deliveries if d_at <= at),
+        sum(1 for s in source.samples if s.at <= at),
+    )
+    if key not in source.known:
+        source.known[key] = source_fuel(source=source, at=at, channel=channel)
+    return source.known[key]
 
 
 def source_fuel(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:

@@ -128,11 +128,7 @@ class ProjectionRun(models.Model):
     units = models.PositiveIntegerField(default=0)
     items = models.PositiveIntegerField(default=0)
     trigger = models.CharField(max_length=20, default="nightly")
-    # The batches' cursor: every unit with an id up to here is done. A batch moves it with a
-    # conditional update, so a redelivered batch neither counts twice nor forks the chain,
-    # and a run whose chain broke (a worker killed) resumes from here (the stale sweep).
-    last_unit_id = models.PositiveBigIntegerField(default=0)
-    updated_at = models.DateTimeField(null=True, blank=True)
+    updated_at = models.DateTimeField(null=True, blank=True)  # the latest batch done
 
     class Meta:
         ordering = ["-started_at"]
@@ -142,6 +138,31 @@ class ProjectionRun(models.Model):
                 name="run_finishes_after_start",
             )
         ]
+
+
+class ProjectionBatch(models.Model):
+    """One batch of a full run: its units, queued as a task that any worker may take.
+
+    A batch is marked done once, by a conditional update under the run's row lock, so a
+    redelivered batch (a worker killed before it acknowledged) neither counts twice nor
+    finishes the run early; a batch lost with its worker is queued again by the stale sweep.
+    """
+
+    run = models.ForeignKey(ProjectionRun, on_delete=models.CASCADE, related_name="batches")
+    number = models.PositiveIntegerField()
+    unit_ids = models.JSONField(default=list)
+    done_at = models.DateTimeField(null=True, blank=True)
+    units = models.PositiveIntegerField(default=0)
+    items = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["run", "number"]
+        constraints = [
+            models.UniqueConstraint(fields=["run", "number"], name="batch_one_number_per_run"),
+        ]
+
+    def __str__(self) -> str:
+        return f"run {self.run_id} batch {self.number}"
 
 
 class StaleProjection(models.Model):

@@ -37,6 +37,16 @@ from services import usage
 from services.common import UsageForecast
 from services.filter_life import LifeBudget
 
+from .engine_tank import BatchSources
+from .rows import (
+    DeliveryRow,
+    DpRow,
+    EngineEventRow,
+    FuelingRow,
+    FuelSampleRow,
+    rows_of,
+)
+
 # How far back the engine looks for fuel, events and drains. Plans longer than this are
 # still honoured for calendar limits (the last change date comes from its own query).
 LOOKBACK_DAYS = 400
@@ -62,11 +72,11 @@ class UnitInputs:
     replacements: list[usage.MeterReplacement] = field(default_factory=list)
     last_change: dict[str, tuple[datetime, float | None, int]] = field(default_factory=dict)
     drains: list[tuple[datetime, float | None, float | None]] = field(default_factory=list)
-    fuelings: list[Fueling] = field(default_factory=list)
-    unit_samples: list[FuelSample] = field(default_factory=list)
-    events: list[EngineEvent] = field(default_factory=list)
+    fuelings: list[FuelingRow] = field(default_factory=list)
+    unit_samples: list[FuelSampleRow] = field(default_factory=list)
+    events: list[EngineEventRow] = field(default_factory=list)
     lifetime_relief_openings: int = 0  # since the relief valve's last replacement
-    dp_readings: dict[int, list[FilterPressureReading]] = field(default_factory=dict)
+    dp_readings: dict[int, list[DpRow]] = field(default_factory=dict)
     # Evidence for the unit's current hours beside its readings (see services/usage.carry):
     latest_fueled_at: datetime | None = None  # the latest fueling: the unit worked until then
     latest_service: tuple[datetime, float] | None = None  # latest ledger hour meter (meter)
@@ -82,13 +92,16 @@ ChangeRow = tuple[int, datetime, float | None, float | None]
 @dataclass
 class BatchInputs:
     units: list[UnitInputs]
-    source_samples: list[FuelSample]
+    source_samples: list[FuelSampleRow]
     sources: dict[int, FuelSource]
     # Every filter change on record for the batch's unit classes, by (class id, filter kind),
     # ordered by unit and time: the evidence services/filter_life.py fits the life from.
     filter_changes: dict[tuple[int, str], list[ChangeRow]] = field(default_factory=dict)
     lives: dict[tuple[int, str], LifeBudget] = field(default_factory=dict)  # the engine's, once
-    deliveries: list[Delivery] = field(default_factory=list)  # into the sources, oldest first
+    deliveries: list[DeliveryRow] = field(default_factory=list)  # into the sources, oldest first
+    # The source samples as services read them, and the sources' tank inputs: the same for
+    # every unit, so the engine reads them once a batch (engine.batch_source_fuel).
+    source_fuel: BatchSources | None = None
 
 
 def unit_forecast(b: UnitInputs, *, now: datetime) -> UsageForecast:
@@ -155,9 +168,12 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     _replacements_load(bundles=bundles)  # 5. meter replacements (all: offsets accumulate)
     _ledger_load(bundles=bundles, now=now, since=since)  # 6. filter changes and drains
     # 7. fuelings in the look-back
-    for f in Fueling.objects.filter(
-        unit_id__in=ids, fueled_at__gte=since, fueled_at__lte=now
-    ).order_by("unit_id", "fueled_at"):
+    for f in rows_of(
+        Fueling.objects.filter(unit_id__in=ids, fueled_at__gte=since, fueled_at__lte=now).order_by(
+            "unit_id", "fueled_at"
+        ),
+        FuelingRow,
+    ):
         bundles[f.unit_id].fuelings.append(f)
     source_samples = _samples_load(bundles=bundles, now=now, since=since)  # 8. samples
     _events_load(bundles=bundles, now=now, since=since)  # 9, 10. engine events, relief total
@@ -166,10 +182,11 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     # 13. every filter change of the batch's unit classes: the life evidence
     filter_changes = filter_changes_load(class_ids=class_ids, now=now)
     # 14. deliveries into the sources in the look-back (each source's tank model)
-    deliveries = list(
+    deliveries = rows_of(
         Delivery.objects.filter(delivered_at__gte=since, delivered_at__lte=now).order_by(
             "delivered_at", "pk"
-        )
+        ),
+        DeliveryRow,
     )
     return BatchInputs(
         units=[bundles[i] for i in ids],
@@ -333,13 +350,15 @@ def _ledger_load(*, bundles: dict[int, UnitInputs], now: datetime, since: dateti
 
 def _samples_load(
     *, bundles: dict[int, UnitInputs], now: datetime, since: datetime
-) -> list[FuelSample]:
+) -> list[FuelSampleRow]:
     """Every source sample in the look-back (few), and the batch's tank samples."""
-    source_samples: list[FuelSample] = []
-    for s in FuelSample.objects.filter(
-        sampled_at__lte=now, sampled_at__gte=since - timedelta(days=LOOKBACK_DAYS)
-    ).filter(source__isnull=False) | FuelSample.objects.filter(
-        unit_id__in=list(bundles), sampled_at__lte=now
+    source_samples: list[FuelSampleRow] = []
+    for s in rows_of(
+        FuelSample.objects.filter(
+            sampled_at__lte=now, sampled_at__gte=since - timedelta(days=LOOKBACK_DAYS)
+        ).filter(source__isnull=False)
+        | FuelSample.objects.filter(unit_id__in=list(bundles), sampled_at__lte=now),
+        FuelSampleRow,
     ):
         if s.unit_id is not None:
             bundles[s.unit_id].unit_samples.append(s)
@@ -351,9 +370,12 @@ def _samples_load(
 def _events_load(*, bundles: dict[int, UnitInputs], now: datetime, since: datetime) -> None:
     """Two queries: engine events in the look-back, and lifetime relief-valve openings."""
     ids = list(bundles)
-    for e in EngineEvent.objects.filter(
-        unit_id__in=ids, occurred_at__gte=since, occurred_at__lte=now
-    ).order_by("unit_id", "occurred_at"):
+    for e in rows_of(
+        EngineEvent.objects.filter(
+            unit_id__in=ids, occurred_at__gte=since, occurred_at__lte=now
+        ).order_by("unit_id", "occurred_at"),
+        EngineEventRow,
+    ):
         bundles[e.unit_id].events.append(e)
     # Openings since the valve's last replacement (a ledger event) or fitting (a component).
     replaced_since = ledger_events(ServiceEvent.Kind.RELIEF_VALVE_REPLACED).filter(
@@ -383,8 +405,11 @@ def _events_load(*, bundles: dict[int, UnitInputs], now: datetime, since: dateti
 
 def _dp_load(*, bundles: dict[int, UnitInputs], now: datetime, since: datetime) -> None:
     comp_to_unit = {c.pk: c.unit_id for b in bundles.values() for c in b.filters.values()}
-    for dp in FilterPressureReading.objects.filter(
-        component_id__in=list(comp_to_unit), taken_at__gte=since, taken_at__lte=now
-    ).order_by("component_id", "taken_at"):
+    for dp in rows_of(
+        FilterPressureReading.objects.filter(
+            component_id__in=list(comp_to_unit), taken_at__gte=since, taken_at__lte=now
+        ).order_by("component_id", "taken_at"),
+        DpRow,
+    ):
         readings = bundles[comp_to_unit[dp.component_id]].dp_readings
         readings.setdefault(dp.component_id, []).append(dp)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from datetime import date, timedelta
+from datetime import date
 
 from celery import shared_task
 from django.conf import settings
@@ -10,10 +10,9 @@ from django.db import OperationalError
 from django.db.models import F
 from django.utils import timezone
 
-from fleetfuel.fleet.models import Unit
-
 from .actions import due_items_recompute, stale_units_recompute
-from .models import ProjectionRun, WorkListDispatch
+from .models import WorkListDispatch
+from .runs import batch_recompute, run_start, runs_stalled
 from .worklists import dispatch_claim, dispatch_send, dispatches_stuck, worklists_due_now
 
 RETRY = {
@@ -37,68 +36,40 @@ def recompute_units(unit_ids: list[int]) -> dict[str, int]:
 @shared_task(
     name="fleetfuel.planning.tasks.recompute_all", time_limit=300, soft_time_limit=240, **RETRY
 )
-def recompute_all(after_id: int = 0, run_id: int | None = None) -> dict[str, int]:
-    """The nightly full recompute, in bounded batches that re-queue themselves.
-
-    Each call handles at most PLANNING_BATCH_SIZE units with ids above ``after_id``; a rerun
-    of any batch rewrites the same rows. The run's cursor moves only from ``after_id`` (a
-    conditional update), so a redelivered batch (a worker killed before it acknowledged)
-    neither counts its units twice nor queues a second chain; a chain that broke is resumed
-    from the cursor by the stale sweep.
-    """
-    now = timezone.now()
-    if run_id is None:
-        run_id = ProjectionRun.objects.create(started_at=now, trigger="nightly", updated_at=now).pk
-    ids = list(
-        Unit.objects.filter(pk__gt=after_id)
-        .order_by("pk")
-        .values_list("pk", flat=True)[: settings.PLANNING_BATCH_SIZE]
-    )
-    if not ids:
-        ProjectionRun.objects.filter(pk=run_id, finished_at__isnull=True).update(
-            finished_at=timezone.now(), updated_at=timezone.now()
-        )
-        return {"units": 0, "items": 0, "run": run_id}
-    result = due_items_recompute(unit_ids=ids, now=now)
-    moved = ProjectionRun.objects.filter(
-        pk=run_id, last_unit_id=after_id, finished_at__isnull=True
-    ).update(
-        units=F("units") + result.units,
-        items=F("items") + result.items,
-        last_unit_id=ids[-1],
-        updated_at=timezone.now(),
-    )
-    if moved:
-        recompute_all.delay(after_id=ids[-1], run_id=run_id)
-    return {"units": result.units, "items": result.items, "run": run_id}
+def recompute_all() -> dict[str, int]:
+    """The nightly full recompute: its units split into batches of PLANNING_BATCH_SIZE, each
+    queued as its own task (``recompute_batch``), which any number of workers take at once.
+    Idempotent: a batch done is never done or counted again (runs.py)."""
+    batch_ids = run_start(now=timezone.now(), trigger="nightly", size=settings.PLANNING_BATCH_SIZE)
+    for batch_id in batch_ids:
+        recompute_batch.delay(batch_id)
+    return {"batches": len(batch_ids)}
 
 
-# A run whose cursor has not moved for this long lost its chain (a batch takes minutes at
-# most: its time limit is 300 s).
-RUN_STALLED_AFTER = timedelta(minutes=15)
+@shared_task(
+    name="fleetfuel.planning.tasks.recompute_batch", time_limit=300, soft_time_limit=240, **RETRY
+)
+def recompute_batch(batch_id: int) -> dict[str, int]:
+    """One batch of a full run; a redelivered batch rewrites nothing and counts nothing."""
+    result = batch_recompute(batch_id=batch_id, now=timezone.now())
+    if result is None:
+        return {"units": 0, "items": 0}
+    return {"units": result.units, "items": result.items}
 
 
 @shared_task(name="fleetfuel.planning.tasks.stale_sweep", time_limit=300, soft_time_limit=240)
 def stale_sweep() -> dict[str, int]:
-    """Every few minutes (beat): recompute units marked stale, and resume a stalled nightly run.
+    """Every few minutes (beat): recompute units marked stale, and queue again the batches
+    of a stalled full run (a worker killed with them).
 
-    Idempotent: a recompute rewrites the same rows, and a run resumes from its cursor, which
-    only the batch that started from it can move.
+    Idempotent: a recompute rewrites the same rows, and a batch is marked done only once.
     """
     now = timezone.now()
     result = stale_units_recompute(now=now, limit=settings.PLANNING_BATCH_SIZE)
-    stalled = ProjectionRun.objects.filter(
-        finished_at__isnull=True, updated_at__lt=now - RUN_STALLED_AFTER
-    ).order_by("started_at")
-    resumed = 0
-    for run in stalled:
-        # Touch it first, so the next sweep leaves it alone while this resumption runs.
-        if ProjectionRun.objects.filter(pk=run.pk, updated_at=run.updated_at).update(
-            updated_at=now
-        ):
-            recompute_all.delay(after_id=run.last_unit_id, run_id=run.pk)
-            resumed += 1
-    return {"units": result.units, "items": result.items, "runs_resumed": resumed}
+    batch_ids = runs_stalled(now=now)
+    for batch_id in batch_ids:
+        recompute_batch.delay(batch_id)
+    return {"units": result.units, "items": result.items, "batches_requeued": len(batch_ids)}
 
 
 @shared_task(name="fleetfuel.planning.tasks.worklists_tick", time_limit=120, soft_time_limit=100)

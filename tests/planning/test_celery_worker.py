@@ -17,6 +17,7 @@ import pytest
 from celery import Celery
 from django.db import connection
 
+from fleetfuel.celery import QUEUES
 from fleetfuel.planning.models import DueItem
 from fleetfuel.planning.tasks import recompute_units
 from tests import factories as f
@@ -49,7 +50,8 @@ test_db_url.__test__ = False  # type: ignore[attr-defined]
 
 
 def worker_command(*, hostname: str, queue: str | None = None) -> list[str]:
-    """A real worker, one task at a time, on the default queue or on ``queue``."""
+    """A real worker, one task at a time, on every queue (as docker-compose's single-worker
+    setup) or on ``queue`` only."""
     return [
         sys.executable,
         "-m",
@@ -65,7 +67,8 @@ def worker_command(*, hostname: str, queue: str | None = None) -> list[str]:
         "--without-mingle",
         "--hostname",
         hostname,
-        *(["-Q", queue] if queue else []),
+        "-Q",
+        queue or ",".join(QUEUES),
     ]
 
 

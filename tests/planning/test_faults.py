@@ -20,7 +20,6 @@ from typing import Any
 import pytest
 import time_machine
 from celery import current_app
-from django.conf import settings
 from django.test import override_settings
 from django.urls import reverse
 from django.utils import timezone
@@ -206,7 +205,7 @@ def test_admin_save_of_a_reading_with_the_broker_unreachable_stands(
 
 def test_every_scheduled_job_names_a_task_of_the_app() -> None:
     """The sweep is on beat's schedule, and no entry names a task the workers lack."""
-    names = {entry["task"] for entry in settings.CELERY_BEAT_SCHEDULE.values()}
+    names = {entry["task"] for entry in app.conf.beat_schedule.values()}
     assert stale_sweep.name in names
     for name in names:
         module, attribute = name.rsplit(".", 1)

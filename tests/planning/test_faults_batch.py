@@ -1,6 +1,6 @@
-"""The nightly recompute survives a worker killed in the middle of it: the run resumes from
-its cursor, no unit is skipped, and none is counted twice (a redelivered batch neither counts
-again nor starts a second chain)."""
+"""The nightly recompute survives a worker killed in the middle of it: the sweep queues the
+run's undone batches again, no unit is skipped, and none is counted twice (a redelivered
+batch neither recomputes nor counts again)."""
 
 from __future__ import annotations
 
@@ -23,10 +23,10 @@ from django.test import override_settings
 from django.utils import timezone
 
 from fleetfuel.fleet.models import Unit
-from fleetfuel.planning import tasks
+from fleetfuel.planning import runs
 from fleetfuel.planning.actions import due_items_recompute
-from fleetfuel.planning.models import DueItem, ProjectionRun
-from fleetfuel.planning.tasks import recompute_all, stale_sweep
+from fleetfuel.planning.models import DueItem, ProjectionBatch, ProjectionRun
+from fleetfuel.planning.tasks import recompute_all, recompute_batch, stale_sweep
 from tests import factories as f
 from tests.conftest import need
 from tests.planning.builders import history_make
@@ -53,18 +53,18 @@ def fleet(site: Any, unit_class: Any) -> list[int]:
 def recomputed(monkeypatch: pytest.MonkeyPatch) -> Iterator[list[list[int]]]:
     """The batches whose recompute ran to its end, in order; the third one is killed."""
     done: list[list[int]] = []
-    real = tasks.due_items_recompute
+    real = runs.due_items_recompute
     state = {"calls": 0}
 
-    def recompute(*, unit_ids: list[int], now: Any) -> Any:
+    def recompute(*, unit_ids: list[int], now: Any, sources: bool = True) -> Any:
         state["calls"] += 1
         if state["calls"] == 3:
             raise WorkerKilled
-        result = real(unit_ids=unit_ids, now=now)
+        result = real(unit_ids=unit_ids, now=now, sources=sources)
         done.append(list(unit_ids))
         return result
 
-    monkeypatch.setattr(tasks, "due_items_recompute", recompute)
+    monkeypatch.setattr(runs, "due_items_recompute", recompute)
     with override_settings(PLANNING_BATCH_SIZE=BATCH):
         yield done
 
@@ -75,38 +75,60 @@ def test_a_run_killed_mid_batch_resumes_with_no_unit_skipped_or_counted_twice(
     fleet: list[int], recomputed: list[list[int]]
 ) -> None:
     with pytest.raises(WorkerKilled):
-        recompute_all()  # in-process: each batch queues the next; the third one dies
+        recompute_all()  # in-process: each queued batch runs at once; the third one dies
     run = ProjectionRun.objects.get()
     assert run.finished_at is None
-    assert (run.units, run.last_unit_id) == (2 * BATCH, fleet[2 * BATCH - 1])
+    assert run.units == 2 * BATCH
     assert recomputed == [fleet[0:2], fleet[2:4]]
+    # Every batch was recorded before any was queued: the lost ones are still on record.
+    assert [b.unit_ids for b in run.batches.all()] == [
+        fleet[0:2],
+        fleet[2:4],
+        fleet[4:6],
+        fleet[6:7],
+    ]
 
-    # Its chain is lost with the worker. A sweep soon after leaves the run alone (a batch
+    # Its batches are lost with the worker. A sweep soon after leaves the run alone (a batch
     # may still be running) ...
-    assert stale_sweep()["runs_resumed"] == 0
-    # ... a sweep after the stall limit resumes it from its cursor.
+    assert stale_sweep()["batches_requeued"] == 0
+    # ... a sweep after the stall limit queues its undone batches again.
     with time_machine.travel(timezone.now() + timedelta(minutes=20), tick=True):
-        assert stale_sweep()["runs_resumed"] == 1
-        assert stale_sweep()["runs_resumed"] == 0  # finished: nothing left to resume
+        assert stale_sweep()["batches_requeued"] == 2
+        assert stale_sweep()["batches_requeued"] == 0  # finished: nothing left to queue
     run.refresh_from_db()
     assert run.finished_at is not None
-    # Every unit once, in order: none skipped, none done twice, and counted once each.
+    # Every unit once: none skipped, none done twice, and counted once each.
     assert recomputed == [fleet[0:2], fleet[2:4], fleet[4:6], fleet[6:7]]
     assert run.units == UNITS
     assert set(DueItem.objects.values_list("unit_id", flat=True)) == set(fleet)
 
-    # The killed batch delivered again (acknowledged late, so the broker re-sends it): it
-    # rewrites its own rows, counts nothing again and starts no second chain.
-    recompute_all(after_id=fleet[3], run_id=run.pk)
+    # A batch delivered again (acknowledged late, so the broker re-sends it) after it was
+    # done: it recomputes nothing and counts nothing again.
+    for batch in run.batches.all():
+        recompute_batch(batch.pk)
     run.refresh_from_db()
-    assert recomputed[4:] == [fleet[4:6]]
+    assert recomputed[4:] == []
     assert run.units == UNITS
+
+
+@pytest.mark.django_db
+def test_a_full_run_refreshes_the_sources_decisions_once_at_its_end(
+    fleet: list[int], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    calls: list[Any] = []
+    monkeypatch.setattr(runs, "source_decisions_recompute", lambda *, now: calls.append(now))
+    with override_settings(PLANNING_BATCH_SIZE=BATCH):
+        recompute_all()
+    run = ProjectionRun.objects.get()
+    assert run.finished_at is not None and run.units == UNITS
+    assert ProjectionBatch.objects.filter(run=run, done_at__isnull=True).count() == 0
+    assert len(calls) == 1 and calls[0] == run.finished_at
 
 
 # ------------------------------------------------------------------ with a real worker
 
 BROKER = os.environ.get("CELERY_BROKER_URL") or "redis://127.0.0.1:6379/11"
-QUEUE_KEYS = ("celery", "unacked", "unacked_index", "unacked_mutex")
+QUEUE_KEYS = ("celery", "projection", "unacked", "unacked_index", "unacked_mutex")
 
 
 def worker_start(env: dict[str, str], log: Any) -> subprocess.Popen[bytes]:
@@ -137,8 +159,8 @@ def test_a_worker_killed_mid_batch_leaves_a_run_the_sweep_resumes(
     """A real worker on Redis runs the nightly batches (two units each). The third unit's
     due-item rows are held locked from another session, so the worker's second batch waits
     inside its transaction; the worker is killed there (SIGKILL). Its batch rolls back, the
-    chain is lost, and the sweep resumes the run from its cursor: every unit recomputed,
-    the first batch not again, each counted once."""
+    batch is lost, and the sweep queues the run's undone batches again: every unit
+    recomputed, the first batch not again, each counted once."""
     need(redis_up(BROKER), f"needs Redis at {BROKER}")
     tank = f.source_make()
     fleet = sorted(
@@ -170,8 +192,8 @@ def test_a_worker_killed_mid_batch_leaves_a_run_the_sweep_resumes(
     try:
         holder.execute("SELECT id FROM planning_dueitem WHERE unit_id = %s FOR UPDATE", [fleet[2]])
         sender.send_task(recompute_all.name)
-        runs = ProjectionRun.objects.filter(trigger="nightly")
-        until(lambda: runs.filter(last_unit_id=fleet[1]).exists(), worker, log, "the first batch")
+        first_done = ProjectionBatch.objects.filter(number=0, done_at__isnull=False)
+        until(first_done.exists, worker, log, "the first batch")
         until(lambda: lock_waiters() > 0, worker, log, "the second batch waiting on its rows")
         worker.send_signal(signal.SIGKILL)
         worker.wait(timeout=30)
@@ -183,8 +205,8 @@ def test_a_worker_killed_mid_batch_leaves_a_run_the_sweep_resumes(
             worker.kill()
             worker.wait(timeout=30)
         out.close()
-    run = runs.get()
-    assert run.finished_at is None and (run.units, run.last_unit_id) == (2, fleet[1])
+    run = ProjectionRun.objects.get(trigger="nightly")
+    assert run.finished_at is None and run.units == 2
     first = {u: at for u, at in computed_at(fleet).items() if u in fleet[:2]}
     assert all(at != earlier for at in first.values())
     assert all(at == earlier for u, at in computed_at(fleet).items() if u in fleet[2:])
@@ -194,7 +216,7 @@ def test_a_worker_killed_mid_batch_leaves_a_run_the_sweep_resumes(
         override_settings(PLANNING_BATCH_SIZE=2),
     ):
         resumed_at = timezone.now()
-        assert stale_sweep()["runs_resumed"] == 1  # in-process here, as a worker would
+        assert stale_sweep()["batches_requeued"] == 2  # in-process here, as a worker would
     run.refresh_from_db()
     assert run.finished_at is not None and run.units == len(fleet)
     after = computed_at(fleet)

@@ -9,6 +9,7 @@ from typing import Any
 from django.core.management.base import BaseCommand, CommandError, CommandParser
 from django.db.models import Q
 
+from fleetfuel.dbrouters import history_alias
 from fleetfuel.fleet.models import Site
 from fleetfuel.ledger.csv_copy import history_csv_stream
 from fleetfuel.ledger.exports import export_rows, file_sha256
@@ -74,7 +75,8 @@ class Command(BaseCommand):
             user=None,
             file_name=out.name,
         )
-        events = scope.events(with_kind=False)
+        # Read from the replica once it holds every entry up to the heads (dbrouters.py).
+        events = scope.events(with_kind=False).using(history_alias(caught_up=True))
         if options["format"] == "csv":
             with out.open("wb") as handle:
                 for chunk in history_csv_stream(

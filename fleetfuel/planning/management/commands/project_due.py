@@ -8,8 +8,8 @@ from django.core.management.base import BaseCommand, CommandError
 from django.utils import timezone
 
 from fleetfuel.fleet.models import Site, Unit
-from fleetfuel.planning.actions import due_items_recompute
-from fleetfuel.planning.models import DueItem, ProjectionRun
+from fleetfuel.planning.models import DueItem
+from fleetfuel.planning.runs import batch_recompute, run_start
 
 
 class Command(BaseCommand):
@@ -39,14 +39,11 @@ class Command(BaseCommand):
                 raise CommandError(f"No unit with fleet number {options['unit']!r}.")
         ids = list(units.order_by("pk").values_list("pk", flat=True))
         now = timezone.now()
-        run = ProjectionRun.objects.create(started_at=now, trigger="command")
         total_items = 0
         size = settings.PLANNING_BATCH_SIZE
-        for start in range(0, len(ids), size):
-            total_items += due_items_recompute(unit_ids=ids[start : start + size], now=now).items
-        run.finished_at = timezone.now()
-        run.units, run.items = len(ids), total_items
-        run.save()
+        for batch_id in run_start(now=now, trigger="command", size=size, unit_ids=ids):
+            done = batch_recompute(batch_id=batch_id, now=now)
+            total_items += done.items if done else 0
         if options["quiet"]:
             self.stdout.write(f"Projected {total_items} items for {len(ids)} units.")
             return
