@@ -84,9 +84,10 @@ def synthetic_drop() -> int:
     return len(sites)
 
 
-def synthetic_fleet_build(*, units: int, seed: int, now: datetime) -> Made:
-    """``units`` units in ceil(units / 1000) depots named 'Synthetic depot NN'."""
-    builder = _Builder(seed=seed, now=now)
+def synthetic_fleet_build(*, units: int, seed: int, now: datetime, days: int = DAYS) -> Made:
+    """``units`` units in ceil(units / 1000) depots named 'Synthetic depot NN', with ``days``
+    of history (a short one for tests of page sizes)."""
+    builder = _Builder(seed=seed, now=now, days=days)
     builder.reference(units)
     for first in range(0, units, CHUNK):
         builder.chunk(first, min(units, first + CHUNK))
@@ -95,9 +96,10 @@ def synthetic_fleet_build(*, units: int, seed: int, now: datetime) -> Made:
 
 
 class _Builder:
-    def __init__(self, *, seed: int, now: datetime) -> None:
+    def __init__(self, *, seed: int, now: datetime, days: int) -> None:
         self.seed, self.now = seed, now
-        self.start = now - timedelta(days=DAYS)
+        self.days = days
+        self.start = now - timedelta(days=days)
         self.sink = Sink()
 
     def reference(self, units: int) -> None:
@@ -160,7 +162,7 @@ class _Builder:
     def _deliveries(self) -> Iterator[dict[str, Any]]:
         rng = random.Random(self.seed)
         for source in self.sources:
-            for week in range(DAYS // 7):
+            for week in range(self.days // 7):
                 at = self.start + timedelta(days=7 * week, hours=8)
                 yield {
                     "source_id": source.pk,
@@ -173,7 +175,7 @@ class _Builder:
     def _source_samples(self) -> Iterator[dict[str, Any]]:
         rng = random.Random(self.seed + 1)
         for source in self.sources:
-            for month in range(DAYS // 30):
+            for month in range(self.days // 30):
                 yield _sample(
                     rng,
                     f"SYS-{source.pk}-{month}",
@@ -199,7 +201,7 @@ class _Builder:
         ]
         units = Unit.objects.bulk_create(rows)
         stories = [
-            _Story(random.Random(self.seed * 1_000_003 + first + n), self.start)
+            _Story(random.Random(self.seed * 1_000_003 + first + n), self.start, self.days)
             for n, _ in enumerate(units)
         ]
         parts = Component.objects.bulk_create(
@@ -242,12 +244,12 @@ class _Story:
     rate), fuel put in at two readings in three, filters changed on their hour intervals,
     the separator drained every sixth day."""
 
-    def __init__(self, rng: random.Random, start: datetime) -> None:
+    def __init__(self, rng: random.Random, start: datetime, days: int) -> None:
         self.rng, self.start = rng, start
         rate = rng.uniform(6.0, 14.0)
         hours = float(rng.randrange(1000, 12000))
         self.log: list[tuple[datetime, float]] = []
-        for day in range(0, DAYS, 2):
+        for day in range(0, days, 2):
             hours = round(hours + 2 * rate * rng.uniform(0.7, 1.3), 1)
             at = start + timedelta(days=day, hours=17, minutes=rng.randrange(60))
             self.log.append((at, hours))
@@ -318,7 +320,7 @@ class _Story:
             }
 
     def samples(self, unit: Unit) -> Iterator[dict[str, Any]]:
-        for n, at in enumerate(range(60, DAYS, 180)):
+        for n, at in enumerate(range(60, 2 * len(self.log), 180)):
             when = self.start + timedelta(days=at, hours=10)
             yield _sample(self.rng, f"SYU-{unit.pk}-{n}", when, unit_id=unit.pk)
 
