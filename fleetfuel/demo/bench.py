@@ -47,10 +47,14 @@ def ms(fn: Callable[[], Any]) -> float:
     return (time.perf_counter() - started) * 1000
 
 
-def paired(subject: Callable[[], Any], floor: Callable[[], Any], *, runs: int) -> dict[str, Any]:
-    """Warm both once, then ``runs`` rounds of floor then subject; medians in milliseconds and
-    their ratio (subject / floor)."""
-    subject(), floor()
+def paired(
+    subject: Callable[[], Any], floor: Callable[[], Any], *, runs: int, warm: bool = True
+) -> dict[str, Any]:
+    """Warm both once (the subject only if ``warm``), then ``runs`` rounds of floor then
+    subject; medians in milliseconds and their ratio (subject / floor)."""
+    if warm:
+        subject()
+    floor()
     floors, subjects = [], []
     for _ in range(runs):
         floors.append(ms(floor))
@@ -126,7 +130,10 @@ def projection_floor(unit_ids: list[int], now: datetime) -> int:
 
 def projection_measure(unit_ids: list[int], *, now: datetime, runs: int) -> dict[str, Any]:
     out = paired(
-        lambda: projection_run(unit_ids, now), lambda: projection_floor(unit_ids, now), runs=runs
+        lambda: projection_run(unit_ids, now),
+        lambda: projection_floor(unit_ids, now),
+        runs=runs,
+        warm=False,  # a projection is long enough to need no warming, and costly
     )
     seconds = out["median_ms"] / 1000
     return {

@@ -58,12 +58,16 @@ def page_urls(site_ids: list[int]) -> dict[str, tuple[str, dict[str, Any], dict[
         "due_list_deep": (due, {"page": deep}, {}),
         "due_list_fragment": (due, filtered, HTMX),
         "unit_page": (reverse("pages:unit_detail", args=[unit.pk]), {}, {}),
-        "work_order_page": (reverse("workorders:detail", args=[_work_order(site_ids).pk]), {}, {}),
+        "work_order_page": (
+            reverse("workorders:detail", args=[drain_work_order(site_ids).pk]),
+            {},
+            {},
+        ),
         "history_page": (reverse("ledger:history"), {}, {}),
     }
 
 
-def _work_order(site_ids: list[int]) -> WorkOrder:
+def drain_work_order(site_ids: list[int]) -> WorkOrder:
     """A work order of one separator drain, made from the due item of a unit without one."""
     item = (
         DueItem.objects.filter(site_id__in=site_ids, task="separator_drain")
@@ -101,7 +105,7 @@ def close_measure(site_ids: list[int], *, runs: int) -> dict[str, Any]:
     client.force_login(user)
     times, queries = [], []
     for n in range(runs + 1):
-        wo = _work_order(site_ids)
+        wo = drain_work_order(site_ids)
         task = wo.tasks.get()
         saved = client.post(
             reverse("workorders:task_save", args=[task.pk]),

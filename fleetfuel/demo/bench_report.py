@@ -70,18 +70,51 @@ def rows(result: dict[str, Any]) -> list[tuple[str, ...]]:
 
 
 def table(result: dict[str, Any], *, markdown: bool = False) -> str:
-    body = rows(result)
     meta = result.get("meta", {})
     title = (
-        f"{meta.get('units', '?'):,} units, {meta.get('service_events', 0):,} service events, "
+        f"{meta.get('units', 0):,} units, {meta.get('service_events', 0):,} service events, "
         f"{meta.get('database', '?')}, medians of {meta.get('runs', '?')} runs, "
         f"{meta.get('date', '')} on {meta.get('machine', '')}"
     )
+    return _render(title, HEAD, rows(result), markdown=markdown)
+
+
+def _render(
+    title: str, head: tuple[str, ...], body: list[tuple[str, ...]], *, markdown: bool
+) -> str:
     if markdown:
-        lines = [title, "", "| " + " | ".join(HEAD) + " |", "|" + "---|" * len(HEAD)]
+        lines = [title, "", "| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
         lines += ["| " + " | ".join(row) + " |" for row in body]
         return "\n".join(lines)
-    widths = [max(len(r[i]) for r in [HEAD, *body]) for i in range(len(HEAD))]
-    lines = [title, "  ".join(h.ljust(w) for h, w in zip(HEAD, widths, strict=True))]
+    widths = [max(len(r[i]) for r in [head, *body]) for i in range(len(head))]
+    lines = [title, "  ".join(h.ljust(w) for h, w in zip(head, widths, strict=True))]
     lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) for r in body]
     return "\n".join(lines)
+
+
+LOAD_P99_MS, LOAD_SHARE = 500.0, 0.25
+LOAD_LABELS = {"floor_page": "Floor page", "due_list": "Due list", "unit_page": "Unit page",
+               "task_save": "Task save (POST)"}  # fmt: skip
+LOAD_HEAD = ("What", "Connections", "Requests/s", "p50", "p99", "Errors", "Met")
+
+
+def load_rows(result: dict[str, Any]) -> list[tuple[str, ...]]:
+    """Under load the targets are for the pages: throughput at least a quarter of the floor
+    page's at the same connections, p99 under 500 ms, no error."""
+    runs = result["runs"]
+    floor = {r["connections"]: r["rps"] for r in runs.get("floor_page", [])}
+    out = []
+    for key, label in LOAD_LABELS.items():
+        for r in runs.get(key, []):
+            ok = None
+            if key != "floor_page":
+                share = r["rps"] >= LOAD_SHARE * floor.get(r["connections"], 0)
+                ok = share and r["p99_ms"] < LOAD_P99_MS and r["errors"] == 0
+            out.append((label, str(r["connections"]), f"{r['rps']:,.0f}", f"{r['p50_ms']} ms",
+                        f"{r['p99_ms']} ms", str(r["errors"]), _mark(ok)))  # fmt: skip
+    return out
+
+
+def load_table(result: dict[str, Any], *, markdown: bool = False) -> str:
+    title = f"{result.get('server', '')}, {result.get('seconds', '?')} s a run"
+    return _render(title, LOAD_HEAD, load_rows(result), markdown=markdown)

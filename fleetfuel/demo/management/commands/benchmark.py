@@ -65,8 +65,9 @@ class Command(BaseCommand):
         ids = list(Unit.objects.filter(site__in=sites).order_by("pk").values_list("pk", flat=True))
         site_ids = [s.pk for s in sites]
         runs = opts["runs"]
-        projection_run(ids, now)  # every unit's due items, for the pages
         timed = ids[: opts["projection_units"]] if opts["projection_units"] else ids
+        if timed != ids:
+            projection_run(ids, now)  # every unit's due items, for the pages
         result: dict[str, Any] = {
             "meta": {
                 "date": now.date().isoformat(),
