@@ -154,7 +154,13 @@ class FleetBuilder:
         self.sites: dict[str, Site] = {}
         self.sources: dict[str, FuelSource] = {}
         for name, code, tz, system, source_name, _ in SITES:
-            site = Site.objects.create(name=name, code=code, time_zone=tz, unit_system=system)
+            site = Site.objects.create(
+                name=name,
+                code=code,
+                time_zone=tz,
+                unit_system=system,
+                display_style="en-US" if system == "us" else "en-GB",
+            )
             self.sites[code] = site
             kind = {
                 "Kestrel bulk tank": FuelSource.Kind.BULK_TANK,

@@ -32,7 +32,7 @@ class SiteAdmin(SiteLimitedAdmin):
         """A new depot is added by someone who sees every depot (others would not see it)."""
         return super().has_add_permission(request) and site_limit(request) is None
 
-    list_display = ["name", "code", "time_zone", "unit_system", "coldest_fuel_c"]
+    list_display = ["name", "code", "time_zone", "unit_system", "display_style", "coldest_fuel_c"]
     search_fields = ["name", "code"]
 
 

@@ -17,6 +17,7 @@ from django.db import models
 from django.db.models import Q
 from django.db.models.functions import Coalesce
 
+from services.display import DEFAULT_STYLE, STYLE_CHOICES
 from services.fuel_quality import parse_iso4406
 from services.rules import cylinder_exists
 
@@ -42,6 +43,14 @@ class Site(models.Model):
     time_zone = models.CharField(max_length=64, default="UTC", validators=[validate_time_zone])
     unit_system = models.CharField(
         max_length=10, choices=UnitSystem.choices, default=UnitSystem.METRIC
+    )
+    display_style = models.CharField(
+        "dates and numbers",
+        max_length=10,
+        choices=STYLE_CHOICES,
+        default=DEFAULT_STYLE,
+        help_text="How this depot's pages, emails and prints show dates, times and numbers. "
+        "Exports always use ISO 8601 dates.",
     )
     address = models.TextField(blank=True)
     coldest_fuel_c = models.FloatField(
