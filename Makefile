@@ -66,9 +66,11 @@ SCALE_ENV := DATABASE_URL=$${DATABASE_URL:-postgres://postgres@127.0.0.1:5432/fl
 
 benchmark: $(STAMP)
 	$(SCALE_ENV) $(PY) manage.py migrate --no-input -v0
+	$(SCALE_ENV) $(PY) manage.py collectstatic --no-input -v0
 	$(SCALE_ENV) $(PY) manage.py benchmark --json var/benchmark.json $(BENCH_ARGS)
 
 load: $(STAMP)
+	$(SCALE_ENV) $(PY) manage.py collectstatic --no-input -v0
 	$(SCALE_ENV) $(PY) manage.py load_run --json var/load.json $(LOAD_ARGS)
 
 # Regenerate requirements/*.txt from pyproject.toml with uv (LOCK_ARGS=--upgrade for newer releases).

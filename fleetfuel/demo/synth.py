@@ -48,6 +48,16 @@ CYLINDERS = 4  # 10 fitted parts a unit: 6 + an injector per cylinder
 PRIMARY_HOURS, FINE_HOURS = 500.0, 1000.0
 # SAE J1939 SPN/FMI pairs (services/flags.py names them): relief valve, water in fuel, filter dP.
 ENGINE_CODES = [(5571, 7), (5571, 7), (97, 0), (95, 0), (94, 1)]
+CLASS_NAME = "Synthetic class"
+PLANS = [
+    (ComponentKind.PRIMARY_FILTER, {"interval_hours": PRIMARY_HOURS, "interval_days": 180,
+     "dp_limit_bar": 0.35, "bowl_capacity_ml": 250, "drain_interval_days": 7,
+     "drain_interval_hours": 60}),
+    (ComponentKind.FINE_FILTER, {"interval_hours": FINE_HOURS, "interval_days": 365,
+     "dp_limit_bar": 1.0}),
+    (ComponentKind.RELIEF_VALVE, {"relief_window_hours": 50, "relief_window_days": 7,
+     "relief_openings_to_flag": 3, "relief_lifetime_openings": 25}),
+]  # fmt: skip
 _BLANK_EVENT = dict.fromkeys(CONTENT_FIELDS) | dict.fromkeys(
     (
         "component_kind",
@@ -81,6 +91,7 @@ def synthetic_drop() -> int:
     sites = [s.pk for s in synthetic_sites()]
     users = list(User.objects.filter(username__in=[MANAGER, MECHANIC]).values_list("pk", flat=True))
     synthetic_purge(site_ids=sites, user_ids=users)
+    UnitClass.objects.filter(name__startswith=CLASS_NAME, units__isnull=True).delete()
     return len(sites)
 
 
@@ -103,41 +114,22 @@ class _Builder:
         self.sink = Sink()
 
     def reference(self, units: int) -> None:
-        """Depots, their bulk tanks and deliveries, the class and its plans, the people."""
-        self.uclass, _ = UnitClass.objects.get_or_create(
-            name="Synthetic hauler",
-            defaults={"typical_hours_per_day": 10, "typical_burn_l_per_h": 22},
-        )
-        for kind, fields in [
-            (
-                ComponentKind.PRIMARY_FILTER,
-                {
-                    "interval_hours": PRIMARY_HOURS,
-                    "interval_days": 180,
-                    "dp_limit_bar": 0.35,
-                    "bowl_capacity_ml": 250,
-                    "drain_interval_days": 7,
-                    "drain_interval_hours": 60,
-                },
-            ),
-            (
-                ComponentKind.FINE_FILTER,
-                {"interval_hours": FINE_HOURS, "interval_days": 365, "dp_limit_bar": 1.0},
-            ),
-            (
-                ComponentKind.RELIEF_VALVE,
-                {
-                    "relief_window_hours": 50,
-                    "relief_window_days": 7,
-                    "relief_openings_to_flag": 3,
-                    "relief_lifetime_openings": 25,
-                },
-            ),
-        ]:
-            ServicePlan.objects.get_or_create(
-                unit_class=self.uclass, component_kind=kind, defaults=fields
-            )
+        """Depots, their bulk tanks and deliveries, the classes and their plans, the people."""
         count = max(1, -(-units // UNITS_PER_SITE))
+        # A class per depot: the life evidence a batch reads (every filter change of its
+        # class) stays that of 1,000 units, as in a shop with a few kinds of machine.
+        self.classes = [
+            UnitClass.objects.create(
+                name=f"{CLASS_NAME} {n:02d}", typical_hours_per_day=10, typical_burn_l_per_h=22,
+                typical_tank_l=600,
+            )
+            for n in range(1, count + 1)
+        ]  # fmt: skip
+        for uclass in self.classes:
+            ServicePlan.objects.bulk_create(
+                ServicePlan(unit_class=uclass, component_kind=kind, **fields)
+                for kind, fields in PLANS
+            )
         self.sites = [
             Site.objects.create(name=f"Synthetic depot {n:02d}", code=f"{SITE_CODE}{n:02d}")
             for n in range(1, count + 1)
@@ -188,7 +180,7 @@ class _Builder:
         rows = [
             Unit(
                 site=self.sites[i // UNITS_PER_SITE],
-                unit_class=self.uclass,
+                unit_class=self.classes[i // UNITS_PER_SITE],
                 fleet_number=f"SY-{i:06d}",
                 make="Synthetic",
                 model="SH-1",

@@ -46,6 +46,12 @@ class Command(BaseCommand):
         parser.add_argument("--markdown", action="store_true", help="Print a Markdown table.")
         parser.add_argument("--from-json", metavar="FILE", help="Only print a saved run.")
         parser.add_argument(
+            "--projection-runs",
+            type=int,
+            default=0,
+            help="Timed runs of the projection, if fewer than --runs (it is the long one).",
+        )
+        parser.add_argument(
             "--projection-units",
             type=int,
             default=0,
@@ -77,10 +83,13 @@ class Command(BaseCommand):
                 "service_events": ServiceEvent.objects.filter(unit__site__in=sites).count(),
                 "runs": runs,
             },
-            "projection": projection_measure(timed, now=now, runs=runs),
+            "projection": projection_measure(timed, now=now, runs=opts["projection_runs"] or runs),
         }
         if connection.vendor == "postgresql":
             result["meta"]["database"] = f"PostgreSQL {connection.pg_version // 10000}"
+            with connection.cursor() as cursor:
+                cursor.execute("SELECT pg_database_size(current_database())")
+                result["meta"]["database_bytes"] = cursor.fetchone()[0]
         with override_settings(
             ALLOWED_HOSTS=["*"], SECURE_SSL_REDIRECT=False, DEBUG=False,
             ROOT_URLCONF="fleetfuel.demo.floor",
