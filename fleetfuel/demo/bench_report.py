@@ -72,8 +72,12 @@ def rows(result: dict[str, Any]) -> list[tuple[str, ...]]:
 
 def table(result: dict[str, Any], *, markdown: bool = False) -> str:
     meta = result.get("meta", {})
+    part = meta.get("projected_units", meta.get("units"))
+    projected = f" ({part:,} projected: the pages show their due items)" if part != meta.get(
+        "units") else ""  # fmt: skip
     title = (
-        f"{meta.get('units', 0):,} units, {meta.get('service_events', 0):,} service events, "
+        f"{meta.get('units', 0):,} units{projected}, "
+        f"{meta.get('service_events', 0):,} service events, "
         f"{meta.get('database', '?')}, medians of {meta.get('runs', '?')} runs, "
         f"{meta.get('date', '')} on {meta.get('machine', '')}"
     )
