@@ -37,7 +37,7 @@ def rows(result: dict[str, Any]) -> list[tuple[str, ...]]:
         ok = (p["units_per_s"] or 0) >= PROJECTION_UNITS_PER_S and (p["ratio"] or 99) <= 3
         out.append((
             f"Projection of {p['units']:,} units ({p['input_rows']:,} input rows, "
-            f"{p['runs']} runs)",
+            f"{p['runs']} run{'' if p['runs'] == 1 else 's'})",
             f"{p['median_ms'] / 1000:.2f} s = {p['units_per_s']:,} units/s",
             f"{p['floor_ms'] / 1000:.2f} s", f"{p['ratio']}", "",
             f">= {PROJECTION_UNITS_PER_S:,}/s, <= {PROJECTION_RATIO}x", _mark(ok),

@@ -98,10 +98,14 @@ class Command(BaseCommand):
         ):  # fmt: skip
             result["pages"] = pages_measure(site_ids, runs=runs)
             result["close"] = close_measure(site_ids, runs=runs)
+        self.save(result, opts["json"])  # what is measured so far, should the export fail
         result["export"] = export_all(site_ids)
-        if opts["json"]:
-            Path(opts["json"]).write_text(json.dumps(result, indent=2, default=str) + "\n")
+        self.save(result, opts["json"])
         self.stdout.write(table(result, markdown=opts["markdown"]))
+
+    def save(self, result: dict[str, Any], path: str | None) -> None:
+        if path:
+            Path(path).write_text(json.dumps(result, indent=2, default=str) + "\n")
 
     def fleet(self, *, units: int, seed: int, now: Any) -> list[Any]:
         sites = synthetic_sites()
