@@ -146,7 +146,7 @@ class _Builder:
 
     def _person(self, username: str, role: str) -> User:
         user, _ = User.objects.get_or_create(username=username)
-        user.groups.add(Group.objects.get(name=role))
+        user.groups.add(Group.objects.get_or_create(name=role)[0])
         profile, _ = Profile.objects.get_or_create(user=user)
         profile.sites.add(*self.sites)
         return user
