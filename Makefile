@@ -13,7 +13,7 @@ PORT ?= 8000
 SITE_URL ?= http://$(HOST):$(PORT)
 DEMO_ENV := DEBUG=true SITE_URL=$(SITE_URL)
 
-.PHONY: demo test lint format migrations-check check-deploy benchmark clean venv lock
+.PHONY: demo test lint format migrations-check check-deploy benchmark load clean venv lock
 
 # The venv installs the lock (requirements/test.txt, every file checked against its hash),
 # then fleetfuel itself without dependencies; it is redone when the lock or pyproject changes.
@@ -58,8 +58,22 @@ check-deploy: $(STAMP)
 	LEDGER_SIGNING_KEY=$$(openssl rand -hex 32 2>/dev/null || echo y-not-secret-but-long-enough-for-the-deploy-check-0123456789) \
 	ALLOWED_HOSTS=fleetfuel.example.com EMAIL_HOST=smtp.example.com $(PY) manage.py check --deploy --fail-level WARNING
 
+# Scale (README, "Scale"): on PostgreSQL (DATABASE_URL, else the local fleetfuel database),
+# production-like settings, throwaway keys unless given. BENCH_ARGS / LOAD_ARGS add options
+# (e.g. BENCH_ARGS="--units 1000 --runs 5"); the JSON lands in var/. `make load` drives the
+# fleet `make benchmark` left behind; `manage.py synth_fleet --drop` removes it.
+SCALE_ENV := DATABASE_URL=$${DATABASE_URL:-postgres://postgres@127.0.0.1:5432/fleetfuel} \
+	SECRET_KEY=$${SECRET_KEY:-$$(openssl rand -hex 32)} \
+	LEDGER_SIGNING_KEY=$${LEDGER_SIGNING_KEY:-$$(openssl rand -hex 32)}
+
 benchmark: $(STAMP)
-	$(PY) manage.py benchmark
+	$(SCALE_ENV) $(PY) manage.py migrate --no-input -v0
+	$(SCALE_ENV) $(PY) manage.py collectstatic --no-input -v0
+	$(SCALE_ENV) $(PY) manage.py benchmark --json var/benchmark.json $(BENCH_ARGS)
+
+load: $(STAMP)
+	$(SCALE_ENV) $(PY) manage.py collectstatic --no-input -v0
+	$(SCALE_ENV) $(PY) manage.py load_run --json var/load.json $(LOAD_ARGS)
 
 # Regenerate requirements/*.txt from pyproject.toml with uv (LOCK_ARGS=--upgrade for newer releases).
 lock: | $(STAMP)

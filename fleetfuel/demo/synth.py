@@ -48,6 +48,16 @@ CYLINDERS = 4  # 10 fitted parts a unit: 6 + an injector per cylinder
 PRIMARY_HOURS, FINE_HOURS = 500.0, 1000.0
 # SAE J1939 SPN/FMI pairs (services/flags.py names them): relief valve, water in fuel, filter dP.
 ENGINE_CODES = [(5571, 7), (5571, 7), (97, 0), (95, 0), (94, 1)]
+CLASS_NAME = "Synthetic class"
+PLANS = [
+    (ComponentKind.PRIMARY_FILTER, {"interval_hours": PRIMARY_HOURS, "interval_days": 180,
+     "dp_limit_bar": 0.35, "bowl_capacity_ml": 250, "drain_interval_days": 7,
+     "drain_interval_hours": 60}),
+    (ComponentKind.FINE_FILTER, {"interval_hours": FINE_HOURS, "interval_days": 365,
+     "dp_limit_bar": 1.0}),
+    (ComponentKind.RELIEF_VALVE, {"relief_window_hours": 50, "relief_window_days": 7,
+     "relief_openings_to_flag": 3, "relief_lifetime_openings": 25}),
+]  # fmt: skip
 _BLANK_EVENT = dict.fromkeys(CONTENT_FIELDS) | dict.fromkeys(
     (
         "component_kind",
@@ -82,12 +92,14 @@ def synthetic_drop() -> int:
     sites = [s.pk for s in synthetic_sites()]
     users = list(User.objects.filter(username__in=[MANAGER, MECHANIC]).values_list("pk", flat=True))
     synthetic_purge(site_ids=sites, user_ids=users)
+    UnitClass.objects.filter(name__startswith=CLASS_NAME, units__isnull=True).delete()
     return len(sites)
 
 
-def synthetic_fleet_build(*, units: int, seed: int, now: datetime) -> Made:
-    """``units`` units in ceil(units / 1000) depots named 'Synthetic depot NN'."""
-    builder = _Builder(seed=seed, now=now)
+def synthetic_fleet_build(*, units: int, seed: int, now: datetime, days: int = DAYS) -> Made:
+    """``units`` units in ceil(units / 1000) depots named 'Synthetic depot NN', with ``days``
+    of history (a short one for tests of page sizes)."""
+    builder = _Builder(seed=seed, now=now, days=days)
     builder.reference(units)
     for first in range(0, units, CHUNK):
         builder.chunk(first, min(units, first + CHUNK))
@@ -96,47 +108,29 @@ def synthetic_fleet_build(*, units: int, seed: int, now: datetime) -> Made:
 
 
 class _Builder:
-    def __init__(self, *, seed: int, now: datetime) -> None:
+    def __init__(self, *, seed: int, now: datetime, days: int) -> None:
         self.seed, self.now = seed, now
-        self.start = now - timedelta(days=DAYS)
+        self.days = days
+        self.start = now - timedelta(days=days)
         self.sink = Sink()
 
     def reference(self, units: int) -> None:
-        """Depots, their bulk tanks and deliveries, the class and its plans, the people."""
-        self.uclass, _ = UnitClass.objects.get_or_create(
-            name="Synthetic hauler",
-            defaults={"typical_hours_per_day": 10, "typical_burn_l_per_h": 22},
-        )
-        for kind, fields in [
-            (
-                ComponentKind.PRIMARY_FILTER,
-                {
-                    "interval_hours": PRIMARY_HOURS,
-                    "interval_days": 180,
-                    "dp_limit_bar": 0.35,
-                    "bowl_capacity_ml": 250,
-                    "drain_interval_days": 7,
-                    "drain_interval_hours": 60,
-                },
-            ),
-            (
-                ComponentKind.FINE_FILTER,
-                {"interval_hours": FINE_HOURS, "interval_days": 365, "dp_limit_bar": 1.0},
-            ),
-            (
-                ComponentKind.RELIEF_VALVE,
-                {
-                    "relief_window_hours": 50,
-                    "relief_window_days": 7,
-                    "relief_openings_to_flag": 3,
-                    "relief_lifetime_openings": 25,
-                },
-            ),
-        ]:
-            ServicePlan.objects.get_or_create(
-                unit_class=self.uclass, component_kind=kind, defaults=fields
-            )
+        """Depots, their bulk tanks and deliveries, the classes and their plans, the people."""
         count = max(1, -(-units // UNITS_PER_SITE))
+        # A class per depot: the life evidence a batch reads (every filter change of its
+        # class) stays that of 1,000 units, as in a shop with a few kinds of machine.
+        self.classes = [
+            UnitClass.objects.create(
+                name=f"{CLASS_NAME} {n:02d}", typical_hours_per_day=10, typical_burn_l_per_h=22,
+                typical_tank_l=600,
+            )
+            for n in range(1, count + 1)
+        ]  # fmt: skip
+        for uclass in self.classes:
+            ServicePlan.objects.bulk_create(
+                ServicePlan(unit_class=uclass, component_kind=kind, **fields)
+                for kind, fields in PLANS
+            )
         self.sites = [
             Site.objects.create(name=f"Synthetic depot {n:02d}", code=f"{SITE_CODE}{n:02d}")
             for n in range(1, count + 1)
@@ -153,7 +147,7 @@ class _Builder:
 
     def _person(self, username: str, role: str) -> User:
         user, _ = User.objects.get_or_create(username=username)
-        user.groups.add(Group.objects.get(name=role))
+        user.groups.add(Group.objects.get_or_create(name=role)[0])
         profile, _ = Profile.objects.get_or_create(user=user)
         profile.sites.add(*self.sites)
         return user
@@ -161,7 +155,7 @@ class _Builder:
     def _deliveries(self) -> Iterator[dict[str, Any]]:
         rng = random.Random(self.seed)
         for source in self.sources:
-            for week in range(DAYS // 7):
+            for week in range(self.days // 7):
                 at = self.start + timedelta(days=7 * week, hours=8)
                 yield {
                     "source_id": source.pk,
@@ -174,7 +168,7 @@ class _Builder:
     def _source_samples(self) -> Iterator[dict[str, Any]]:
         rng = random.Random(self.seed + 1)
         for source in self.sources:
-            for month in range(DAYS // 30):
+            for month in range(self.days // 30):
                 yield _sample(
                     rng,
                     f"SYS-{source.pk}-{month}",
@@ -187,7 +181,7 @@ class _Builder:
         rows = [
             Unit(
                 site=self.sites[i // UNITS_PER_SITE],
-                unit_class=self.uclass,
+                unit_class=self.classes[i // UNITS_PER_SITE],
                 fleet_number=f"SY-{i:06d}",
                 make="Synthetic",
                 model="SH-1",
@@ -200,7 +194,7 @@ class _Builder:
         ]
         units = Unit.objects.bulk_create(rows)
         stories = [
-            _Story(random.Random(self.seed * 1_000_003 + first + n), self.start)
+            _Story(random.Random(self.seed * 1_000_003 + first + n), self.start, self.days)
             for n, _ in enumerate(units)
         ]
         parts = Component.objects.bulk_create(
@@ -243,12 +237,12 @@ class _Story:
     rate), fuel put in at two readings in three, filters changed on their hour intervals,
     the separator drained every sixth day."""
 
-    def __init__(self, rng: random.Random, start: datetime) -> None:
+    def __init__(self, rng: random.Random, start: datetime, days: int) -> None:
         self.rng, self.start = rng, start
         rate = rng.uniform(6.0, 14.0)
         hours = float(rng.randrange(1000, 12000))
         self.log: list[tuple[datetime, float]] = []
-        for day in range(0, DAYS, 2):
+        for day in range(0, days, 2):
             hours = round(hours + 2 * rate * rng.uniform(0.7, 1.3), 1)
             at = start + timedelta(days=day, hours=17, minutes=rng.randrange(60))
             self.log.append((at, hours))
@@ -319,7 +313,7 @@ class _Story:
             }
 
     def samples(self, unit: Unit) -> Iterator[dict[str, Any]]:
-        for n, at in enumerate(range(60, DAYS, 180)):
+        for n, at in enumerate(range(60, 2 * len(self.log), 180)):
             when = self.start + timedelta(days=at, hours=10)
             yield _sample(self.rng, f"SYU-{unit.pk}-{n}", when, unit_id=unit.pk)
 

@@ -163,3 +163,22 @@ def export_benchmark(*, rows: int) -> dict[str, Any]:
         }
         transaction.set_rollback(True)
     return result
+
+
+def export_measure(*, scope: HistoryScope, heads: dict[int, int], rows: int) -> dict[str, Any]:
+    """The export of rows already stored (a synthetic fleet's), by the Python path and, on
+    PostgreSQL, by the COPY path and by a plain COPY of the same query (the floor); the
+    ratio is the export path's time over the plain COPY's."""
+    postgres = connection.vendor == "postgresql"
+    result: dict[str, Any] = {
+        "rows": rows,
+        "database": connection.vendor,
+        "csv_stream": _measure(lambda: _csv_run(scope, heads), rows),
+        "csv_copy": _measure(lambda: _csv_copy_run(scope, heads), rows) if postgres else None,
+        "postgres_copy": _measure(lambda: _copy_run(scope), rows) if postgres else None,
+    }
+    if postgres:
+        floor = result["postgres_copy"]["seconds"]
+        for path in ("csv_stream", "csv_copy"):
+            result[path]["ratio"] = round(result[path]["seconds"] / floor, 2) if floor else None
+    return result
