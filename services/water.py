@@ -356,10 +356,13 @@ def _explanation(
             f"({free_water:g} mg/kg free water at {burn:.1f} L/h, "
             f"{efficiency * 100:.0f} % separated); no drains with water amounts yet."
         )
-    wettest = sorted(since, key=lambda i: i.free_water_mg_kg, reverse=True)[:3]
+    wettest = sorted(since, key=lambda i: i.free_water_mg_kg, reverse=True)
     if wettest and wettest[0].free_water_mg_kg > 0:
-        parts = [f"{i.label} ({i.free_water_mg_kg:g} mg/kg free water)" for i in wettest]
-        out.append("Wettest fuel since the drain: " + "; ".join(parts) + ".")
+        # Two fuelings from one delivery carry the same sample: name each fuel once.
+        parts = dict.fromkeys(
+            f"{i.label} ({i.free_water_mg_kg:.0f} mg/kg free water)" for i in wettest
+        )
+        out.append("Wettest fuel since the drain: " + "; ".join(list(parts)[:3]) + ".")
     out.append(sentence(f"Usage: {forecast.note}"))
     return out
 

@@ -285,6 +285,16 @@ def test_wettest_fuel_named() -> None:
     assert line.index("Tank 9") < line.index("Tank 1")
 
 
+def test_wettest_fuel_named_once_per_sample() -> None:
+    # Two fuelings from one delivery carry one sample: the line names it once, and the next
+    # wettest fuel still gets its place among the three named (common practice: a list of
+    # causes names each cause once).
+    same = [intake(water=400.0, label="Tank 9"), intake(water=400.0, label="Tank 9")]
+    p = project(intakes=[*same, intake(water=50.0, label="Tank 1")])
+    line = next(s for s in p.explanation if s.startswith("Wettest"))
+    assert line.count("Tank 9") == 1 and "Tank 1" in line
+
+
 # ----------------------------------------------------------------- properties
 
 
