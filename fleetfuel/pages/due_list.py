@@ -48,7 +48,10 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
     groups, decisions_elsewhere = due_groups(
         items=page.items,
         flags_by_unit=page.flags_by_unit,
-        decisions=source_decisions_open(site_ids=site_ids),
+        # The decisions reaching the depot the list is narrowed to, else every depot's.
+        decisions=source_decisions_open(
+            site_ids=[data["site"].pk] if data.get("site") else site_ids
+        ),
         today=today,
     )
     query = request.GET.copy()

@@ -31,6 +31,7 @@ from django.test import Client, TestCase
 from django.urls import reverse
 
 from fleetfuel.fleet.models import Site, Unit
+from fleetfuel.planning.models import DueItem
 from fleetfuel.planning.worklists import worklist_message
 from fleetfuel.workorders.models import WorkOrder
 
@@ -123,6 +124,11 @@ def depot_pages(client: Client, site: Site, role: str) -> Iterator[tuple[str, st
         url = reverse("workorders:detail", args=[wo.pk])
         yield url, page(client, url)
     if role == "manager":
+        url = reverse("pages:due_list") + f"?site={site.pk}&sort=urgency"
+        yield url, page(client, url)
+        for item in DueItem.objects.filter(site=site).order_by("urgency", "pk")[:3]:
+            url = reverse("pages:due_item_detail", args=[item.pk])
+            yield url, page(client, url)
         for name in ("hours", "fuel", "delivery", "sample", "event"):
             url = reverse(f"intake:{name}") + f"?site={site.code}"
             yield url, page(client, url)
