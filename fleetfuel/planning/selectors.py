@@ -100,7 +100,7 @@ class BatchInputs:
     lives: dict[tuple[int, str], LifeBudget] = field(default_factory=dict)  # the engine's, once
     deliveries: list[DeliveryRow] = field(default_factory=list)  # into the sources, oldest first
     # The source samples as services read them, and the sources' tank inputs: the same for
-    # every unit, so the engine reads them once a batch (engine.batch_source_fuel).
+    # every unit, so the engine reads them once a batch (engine_samples.batch_source_fuel).
     source_fuel: BatchSources | None = None
 
 

@@ -281,7 +281,9 @@ def test_an_open_source_decision_gathers_its_dirt_estimate_items(
     )  # fmt: skip
     # Only the reached unit's items whose dirt estimate governs belong to the decision.
     dirt = DueItem.objects.filter(unit=reached).order_by("pk")[:2]
-    DueItem.objects.filter(pk__in=[i.pk for i in dirt]).update(basis="contaminant_budget")
+    DueItem.objects.filter(pk__in=[i.pk for i in dirt]).update(
+        basis="contaminant_budget", source_decision=decision
+    )  # as the source recompute marks them (source_decisions.due_items_mark)
     response = as_manager.get(reverse("pages:due_list"))
     groups = response.context["groups"]
     under = [g for g in groups if g.decision is not None]

@@ -116,7 +116,7 @@ def test_a_full_run_refreshes_the_sources_decisions_once_at_its_end(
     fleet: list[int], monkeypatch: pytest.MonkeyPatch
 ) -> None:
     calls: list[Any] = []
-    monkeypatch.setattr(runs, "source_decisions_recompute", lambda *, now: calls.append(now))
+    monkeypatch.setattr(runs, "source_decisions_refresh", lambda *, now: calls.append(now))
     with override_settings(PLANNING_BATCH_SIZE=BATCH):
         recompute_all()
     run = ProjectionRun.objects.get()

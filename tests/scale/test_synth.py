@@ -14,7 +14,7 @@ from django.core.management import call_command
 
 from fleetfuel.demo.synth import synthetic_drop, synthetic_fleet_build, synthetic_sites
 from fleetfuel.fleet.models import Component, MeterReading, Unit
-from fleetfuel.ledger.actions import CONTENT_FIELDS, service_event_append
+from fleetfuel.ledger.actions import CONTENT_FIELDS, HASHED_WHEN_SET, service_event_append
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.ledger.verification import ledger_verify
 from tests import factories as f
@@ -45,7 +45,9 @@ def test_builds_the_rows_it_promises_with_chains_that_verify(db: Any) -> None:
     # 180-4, Python's hashlib) of the sorted-key compact JSON (RFC 8259) of the content,
     # followed by the previous entry's hash.
     first = ServiceEvent.objects.filter(seq=1).values(*CONTENT_FIELDS, "hash", "prev_hash")[0]
-    content = {k: first[k] for k in CONTENT_FIELDS}
+    # A field added after entries were sealed without it is hashed only when set (the
+    # export manifest's ``hashed_when_set``).
+    content = {k: first[k] for k in CONTENT_FIELDS if k not in HASHED_WHEN_SET or first[k]}
     for key in ("performed_at", "recorded_at"):
         content[key] = content[key].astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
     content = {k: int(v) if isinstance(v, float) and v.is_integer() else v
