@@ -32,7 +32,7 @@ from fleetfuel.fleet.models import (
     Unit,
     UnitClass,
 )
-from fleetfuel.ledger.actions import CONTENT_FIELDS, event_content
+from fleetfuel.ledger.actions import BLANK_TEXT_FIELDS, CONTENT_FIELDS, event_content
 from fleetfuel.ledger.models import ServiceEvent
 from services.flags import event_kind_classify
 from services.ledger import GENESIS, entry_hash
@@ -58,21 +58,7 @@ PLANS = [
     (ComponentKind.RELIEF_VALVE, {"relief_window_hours": 50, "relief_window_days": 7,
      "relief_openings_to_flag": 3, "relief_lifetime_openings": 25}),
 ]  # fmt: skip
-_BLANK_EVENT = dict.fromkeys(CONTENT_FIELDS) | dict.fromkeys(
-    (
-        "component_kind",
-        "part_number",
-        "old_serial",
-        "new_serial",
-        "water_appearance",
-        "measurement_name",
-        "parts_used",
-        "notes",
-        "reason",
-        "corrected_kind",
-    ),
-    "",
-)
+_BLANK_EVENT = dict.fromkeys(CONTENT_FIELDS) | dict.fromkeys(BLANK_TEXT_FIELDS, "")
 
 
 @dataclass

@@ -106,7 +106,7 @@ def _chain_head_lock(*, unit: Unit) -> tuple[int, str]:
 
 
 # Text fields stored as "" when not given, the way the database hands them back.
-_BLANK_TEXT_FIELDS = (
+BLANK_TEXT_FIELDS = (
     "component_kind",
     "part_number",
     "old_serial",
@@ -124,7 +124,7 @@ _RELATIONS = ["unit", "component", "work_order", "recorded_by", "corrects"]
 
 def _event_seal(event: ServiceEvent, *, relations_checked_by_database: bool = False) -> None:
     """Normalise and validate ``event`` (its seq and prev_hash set), then seal its hash."""
-    for name in _BLANK_TEXT_FIELDS:
+    for name in BLANK_TEXT_FIELDS:
         if getattr(event, name) is None:
             setattr(event, name, "")
     exclude = ["hash", "prev_hash", "seq"]
