@@ -23,7 +23,8 @@ engine hours times the burn rate); a bulk tank's draws are its fuelings, a step 
 from __future__ import annotations
 
 import bisect
-from collections.abc import Sequence
+import math
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Final
@@ -47,8 +48,9 @@ class Fill:
     ref: str = ""  # the fueling's id, where it is one: to say how much of it was burned
 
     def __post_init__(self) -> None:
-        number_check(f"{self.label}: litres", self.litres)
-        number_check(f"{self.label}: concentration_per_ml", self.concentration_per_ml)
+        if not (0 <= self.litres < math.inf and 0 <= self.concentration_per_ml < math.inf):
+            number_check(f"{self.label}: litres", self.litres)  # the error, by name
+            number_check(f"{self.label}: concentration_per_ml", self.concentration_per_ml)
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,28 +114,101 @@ def path_litres(path: Sequence[tuple[datetime, float]], at: datetime) -> float:
     """Cumulative litres burned by ``at`` on a path of (moment, cumulative litres), oldest
     first: linear between points, flat before the first and after the last; at a moment
     given twice (a step), the later value."""
-    if not path or at < path[0][0]:
-        return 0.0 if not path else path[0][1]
-    times = [t for t, _ in path]
-    i = bisect.bisect_right(times, at) - 1
-    if i >= len(path) - 1:
-        return path[-1][1]
-    (t0, c0), (t1, c1) = path[i], path[i + 1]
-    span = (t1 - t0).total_seconds()
-    return c0 if span <= 0 else c0 + (c1 - c0) * (at - t0).total_seconds() / span
+    return _path_reader(path)(at)
 
 
 class _Parcel:
-    __slots__ = ("fill", "conc", "in_tank", "since", "total", "load", "measured_by")
+    """A fill in the tank. What every parcel in the tank gives to a draw is the same fraction
+    of what it holds (the tank is well mixed), so a parcel keeps its share ``share`` and the
+    tank one running scale; a draw or an overflowing fill then costs the same whatever the
+    number of parcels. What a parcel has burned is its share times the run's running sums
+    (``_Tank.burned`` and ``_Tank.counted``) since it went in, settled into its own sums
+    whenever its concentration changes or the scale is reset."""
 
-    def __init__(self, fill: Fill, in_tank: float) -> None:
+    __slots__ = ("fill", "conc", "share", "mark", "counted_mark", "since", "total", "load",
+                 "measured_by")  # fmt: skip
+
+    def __init__(self, fill: Fill, share: float, tank: _Tank) -> None:
         self.fill = fill
         self.conc = fill.concentration_per_ml
-        self.in_tank = in_tank
+        self.share = share
+        self.mark = tank.burned
+        self.counted_mark = tank.counted
         self.since = 0.0
         self.total = 0.0
         self.load = 0.0
         self.measured_by: str | None = None
+
+    def settle(self, tank: _Tank) -> None:
+        """Move what the running sums owe this parcel into its own sums."""
+        counted = self.share * (tank.counted - self.counted_mark)
+        self.total += self.share * (tank.burned - self.mark)
+        self.since += counted
+        self.load += counted * self.conc
+        self.mark, self.counted_mark = tank.burned, tank.counted
+
+
+# Below this the running scale is folded into the shares: a parcel's sums are differences
+# of running sums, and each decade the scale falls costs them a digit of precision.
+_SCALE_FLOOR: Final = 1e-4
+# Fuel left of a parcel below this is none (a nanolitre): it leaves the tank at a fold, so
+# the parcels still in it stay few however long the record.
+_NONE_LEFT_L: Final = 1e-9
+
+
+class _Tank:
+    """The parcels and the running sums: a parcel holds ``share * scale`` litres; each litre
+    of share has burned ``burned`` litres in all and ``counted`` since ``since``."""
+
+    def __init__(self) -> None:
+        self.parcels: list[_Parcel] = []  # every parcel, oldest first
+        self.live: list[_Parcel] = []  # those still holding fuel
+        self.scale = 1.0
+        self.burned = 0.0
+        self.counted = 0.0
+        self.shares = 0.0  # sum of the live parcels' shares
+        self.shares_conc = 0.0  # sum of share x concentration
+        self.emptied_at_conc: float | None = None  # the mix a draw emptied the tank at
+
+    def volume(self) -> float:
+        return self.shares * self.scale
+
+    def mix(self) -> float:
+        """The tank's concentration; an empty tank keeps the last fuel it held."""
+        if self.volume() <= 0:
+            if self.emptied_at_conc is not None:
+                return self.emptied_at_conc
+            return self.parcels[-1].conc
+        return self.shares_conc / self.shares
+
+    def add(self, parcel: _Parcel) -> None:
+        self.parcels.append(parcel)
+        if parcel.share > 0:
+            self.emptied_at_conc = None
+            self.live.append(parcel)
+            self.shares += parcel.share
+            self.shares_conc += parcel.share * parcel.conc
+
+    def rescale(self, factor: float) -> None:
+        """Every parcel in the tank keeps ``factor`` of what it holds."""
+        self.scale *= factor
+        if self.scale < _SCALE_FLOOR:
+            self.fold()
+
+    def fold(self) -> None:
+        """Fold the scale into the shares (settling every parcel); drop the emptied ones."""
+        for p in self.live:
+            p.settle(self)
+            p.share *= self.scale
+            if p.share < _NONE_LEFT_L:
+                p.share = 0.0
+        self.live = [p for p in self.live if p.share > 0]
+        self.scale = 1.0
+        self.shares = sum(p.share for p in self.live)
+        self.shares_conc = sum(p.share * p.conc for p in self.live)
+
+    def held(self, parcel: _Parcel) -> float:
+        return parcel.share * self.scale if parcel.share > 0 else 0.0
 
 
 def tank_run(
@@ -153,42 +228,57 @@ def tank_run(
     ``burned_since`` and ``loading_since``; fills after ``until`` are ignored.
     """
     number_check("tank capacity_l", capacity_l, positive=True)
-    parcels = [_Parcel(initial, capacity_l)]
+    tank = _Tank()
+    tank.add(_Parcel(initial, capacity_l, tank))
     events: list[tuple[datetime, int, Fill | Measure | None]] = [(since, 0, None)]
     events += [(f.at, 1, f) for f in fills]
     events += [(m.at, 2, m) for m in measures]  # a sample at a fill's instant: after it
     events.sort(key=lambda e: (e[0], e[1]))
     t_prev = min([since, *(e[0] for e in events), *(t for t, _ in burned[:1])])
+    litres_at = _path_reader(burned)
     for at, _, event in [*(e for e in events if e[0] <= until), (until, 3, None)]:
-        _draw(parcels, path_litres(burned, at) - path_litres(burned, t_prev), t_prev >= since)
+        _draw(tank, litres_at(at) - litres_at(t_prev), t_prev >= since)
         t_prev = at
         if isinstance(event, Fill):
-            _fill(parcels, event, capacity_l)
+            _fill(tank, event, capacity_l)
         elif isinstance(event, Measure):
-            _measure(parcels, event)
-    volume = sum(p.in_tank for p in parcels)
-    live = [p for p in parcels if p.in_tank > 0]
+            _measure(tank, event)
+    for p in tank.parcels:
+        p.settle(tank)
+    live = [p for p in tank.live if tank.held(p) > 0]
     return TankState(
         parcels=[
-            ParcelBurn(p.fill, p.since, p.total, p.in_tank, p.load, p.measured_by)
-            for p in parcels
-            if p.total > 0 or p.in_tank > 0
+            ParcelBurn(p.fill, p.since, p.total, tank.held(p), p.load, p.measured_by)
+            for p in tank.parcels
+            if p.total > 0 or tank.held(p) > 0
         ],
-        concentration_per_ml=_mix(parcels, volume),
+        concentration_per_ml=tank.mix(),
         reference_assumed=all(p.fill.reference_assumed and not p.measured_by for p in live),
-        burned_since=sum(p.since for p in parcels),
-        loading_since=sum(p.load for p in parcels),
+        burned_since=sum(p.since for p in tank.parcels),
+        loading_since=sum(p.load for p in tank.parcels),
     )
 
 
-def _mix(parcels: Sequence[_Parcel], volume: float) -> float:
-    """The tank's concentration; an empty tank keeps the last fuel it held."""
-    if volume <= 0:
-        return parcels[-1].conc
-    return sum(p.in_tank * p.conc for p in parcels) / volume
+def _path_reader(path: Sequence[tuple[datetime, float]]) -> Callable[[datetime], float]:
+    """:func:`path_litres` on one path, its moments listed once."""
+    if not path:
+        return lambda at: 0.0
+    times = [t for t, _ in path]
+
+    def litres_at(at: datetime) -> float:
+        if at < times[0]:
+            return path[0][1]
+        i = bisect.bisect_right(times, at) - 1
+        if i >= len(path) - 1:
+            return path[-1][1]
+        (t0, c0), (t1, c1) = path[i], path[i + 1]
+        span = (t1 - t0).total_seconds()
+        return c0 if span <= 0 else c0 + (c1 - c0) * (at - t0).total_seconds() / span
+
+    return litres_at
 
 
-def _draw(parcels: list[_Parcel], litres: float, counted: bool) -> None:
+def _draw(tank: _Tank, litres: float, counted: bool) -> None:
     """Draw litres at the tank's mix. With nothing coming in the mix does not change, so
     each parcel gives its share of the tank, never more than it holds. More drawn than the
     books hold (a fueling not recorded) is drawn at the mix of what was last in the tank, and
@@ -196,28 +286,29 @@ def _draw(parcels: list[_Parcel], litres: float, counted: bool) -> None:
     burned beyond its own litres."""
     if litres <= 0:
         return
-    volume = sum(p.in_tank for p in parcels)
+    volume = tank.volume()
     held = min(litres, volume)
-    last_conc = _mix(parcels, volume)
+    last_conc = tank.mix()
     if held > 0:
-        for parcel in [p for p in parcels if p.in_tank > 0]:
-            _take(parcel, held * parcel.in_tank / volume, counted)
+        fraction = held / volume
+        tank.burned += tank.scale * fraction
+        if counted:
+            tank.counted += tank.scale * fraction
+        tank.rescale(1.0 - fraction)
+        if tank.volume() <= 0:
+            tank.emptied_at_conc = last_conc
     excess = litres - held
     if excess > 0:
-        _take(_unlogged(parcels, last_conc), excess, counted)
+        parcel = _unlogged(tank, last_conc)
+        parcel.total += excess
+        if counted:
+            parcel.since += excess
+            parcel.load += excess * parcel.conc
 
 
-def _take(parcel: _Parcel, litres: float, counted: bool) -> None:
-    parcel.in_tank = max(0.0, parcel.in_tank - litres)
-    parcel.total += litres
-    if counted:
-        parcel.since += litres
-        parcel.load += litres * parcel.conc
-
-
-def _unlogged(parcels: list[_Parcel], conc: float) -> _Parcel:
+def _unlogged(tank: _Tank, conc: float) -> _Parcel:
     """The parcel of fuel burned but not in the fuel log, at the tank's last mix."""
-    last = parcels[-1]
+    last = tank.parcels[-1]
     if last.fill.label == UNLOGGED_LABEL and last.conc == conc:
         return last
     fill = Fill(
@@ -227,24 +318,24 @@ def _unlogged(parcels: list[_Parcel], conc: float) -> _Parcel:
         reference_assumed=last.fill.reference_assumed,
         label=UNLOGGED_LABEL,
     )
-    parcel = _Parcel(fill, 0.0)
-    parcels.append(parcel)
+    parcel = _Parcel(fill, 0.0, tank)
+    tank.add(parcel)
     return parcel
 
 
-def _fill(parcels: list[_Parcel], fill: Fill, capacity_l: float) -> None:
-    volume = sum(p.in_tank for p in parcels)
+def _fill(tank: _Tank, fill: Fill, capacity_l: float) -> None:
+    volume = tank.volume()
     room_for_old = max(0.0, capacity_l - fill.litres)
     if volume > room_for_old:  # the tank held less than the books say: make room
-        scale = room_for_old / volume
-        for p in parcels:
-            p.in_tank *= scale
-    parcels.append(_Parcel(fill, min(fill.litres, capacity_l)))
+        tank.rescale(room_for_old / volume)
+    tank.add(_Parcel(fill, min(fill.litres, capacity_l) / tank.scale, tank))
 
 
-def _measure(parcels: list[_Parcel], measure: Measure) -> None:
+def _measure(tank: _Tank, measure: Measure) -> None:
     """A sample of the tank: every parcel in it now carries the measured concentration."""
-    for p in parcels:
-        if p.in_tank > 0:
+    for p in tank.live:
+        if tank.held(p) > 0:
+            p.settle(tank)
             p.conc = measure.concentration_per_ml
             p.measured_by = measure.label
+    tank.shares_conc = sum(p.share * p.conc for p in tank.live)
