@@ -29,6 +29,8 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Final
 
+import numpy as np
+
 SECONDS_PER_DAY: Final = 86_400.0
 BOOTSTRAP_DRAWS: Final = 400  # resamples per band
 MAX_INTERVALS: Final = 200  # only the newest intervals are resampled above this
@@ -142,20 +144,22 @@ def rate_band(
     n = len(intervals)
     if n < 2:
         return None
-    # SplitMix64 as splitmix64() gives it, inlined: the same draws, without a generator
-    # call per draw (the band is most of a unit's projection time).
-    state = seed & _MASK64
-    ratios = []
-    for _ in range(BOOTSTRAP_DRAWS):
-        hours = days = 0.0
-        for _ in range(n):
-            state = (state + 0x9E3779B97F4A7C15) & _MASK64
-            z = ((state ^ (state >> 30)) * 0xBF58476D1CE4E5B9) & _MASK64
-            z = ((z ^ (z >> 27)) * 0x94D049BB133111EB) & _MASK64
-            h, d = intervals[(z ^ (z >> 31)) % n]
-            hours += h
-            days += d
-        ratios.append(hours / days)
+    # SplitMix64 as splitmix64() gives it, every draw of the band at once: the k-th state is
+    # seed + k x the golden gamma (mod 2^64, as unsigned 64-bit arithmetic wraps), so the
+    # same draws come out in the same order, row by row, without a Python step per draw.
+    with np.errstate(over="ignore"):
+        state = np.uint64(seed & _MASK64) + np.arange(
+            1, BOOTSTRAP_DRAWS * n + 1, dtype=np.uint64
+        ) * np.uint64(0x9E3779B97F4A7C15)
+        z = (state ^ (state >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+        z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+        picks = ((z ^ (z >> np.uint64(31))) % np.uint64(n)).astype(np.intp).reshape(-1, n)
+    table = np.array(intervals, dtype=np.float64)
+    # Running sums, left to right as the loop added them (sum() would pair them up and
+    # round differently): the last column is each resample's total.
+    hours = table[picks, 0].cumsum(axis=1)[:, -1]
+    days = table[picks, 1].cumsum(axis=1)[:, -1]
+    ratios = (hours / days).tolist()
     ratios.sort()
     tail = (1 - confidence) / 2
     widened = math.sqrt(n / (n - 1)) * t_quantile(p=1 - tail, df=n - 1)
