@@ -2,7 +2,7 @@
 work stripped to what cannot be avoided, timed in the same run, alternately, so that the ratio
 does not depend on the machine's mood.
 
-- the projection of every unit (``due_items_recompute`` in the nightly batch size) against the
+- the projection of every unit (the nightly run: its batches, then its end) against the
   plain SQL that reads the same inputs (the tables and time windows of
   ``planning.selectors.batch_inputs_load``), row tuples fetched and dropped;
 - the CSV export of every synthetic service event against ``COPY (the same query) TO STDOUT``;
@@ -37,7 +37,7 @@ from fleetfuel.fleet.models import (
 from fleetfuel.ledger.benchmark import export_measure
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.ledger.selectors import HistoryScope
-from fleetfuel.planning.actions import due_items_recompute
+from fleetfuel.planning.runs import batch_recompute, run_start
 from fleetfuel.planning.selectors import LOOKBACK_DAYS
 
 
@@ -76,8 +76,12 @@ def _batches(ids: list[int]) -> list[list[int]]:
 
 
 def projection_run(unit_ids: list[int], now: datetime) -> None:
-    for batch in _batches(unit_ids):
-        due_items_recompute(unit_ids=batch, now=now)
+    """The nightly run's work, in one process: its start (the class life budgets), its
+    batches, and its end (the sources' decisions once, with the litres burned; runs.py)."""
+    for batch_id in run_start(
+        now=now, trigger="benchmark", size=settings.PLANNING_BATCH_SIZE, unit_ids=unit_ids
+    ):
+        batch_recompute(batch_id=batch_id, now=now)
 
 
 def _table(model: Any) -> str:
@@ -111,11 +115,12 @@ def _floor_batch(cursor: Any, ids: list[int], now: datetime) -> int:
         (f"SELECT * FROM {_table(FuelSource)}", []),
         (f"SELECT * FROM {_table(Delivery)} WHERE delivered_at >= %s AND delivered_at <= %s",
          [since, now]),
-        (f"SELECT e.unit_id, e.component_kind, e.performed_at, e.hour_meter FROM "
-         f"{_table(ServiceEvent)} e JOIN {_table(Unit)} u ON u.id = e.unit_id WHERE "
-         f"e.kind = 'filter_changed' AND e.performed_at <= %s AND u.unit_class_id IN "
-         f"(SELECT unit_class_id FROM {_table(Unit)} WHERE id IN ({marks}))", [now, *ids]),
     ]  # fmt: skip
+    return _rows_read(cursor, statements)
+
+
+def _rows_read(cursor: Any, statements: list[tuple[str, list[Any]]]) -> int:
+    """Run each statement, fetch its rows and drop them: how many there were."""
     rows = 0
     for sql, params in statements:
         cursor.execute(sql, params)
@@ -123,9 +128,24 @@ def _floor_batch(cursor: Any, ids: list[int], now: datetime) -> int:
     return rows
 
 
+def _floor_run(cursor: Any, ids: list[int], now: datetime) -> int:
+    """What a run reads once: every filter change of its units' classes (the life evidence).
+    The run's end (the sources' decisions) reads more, left out of the floor: the ratio errs
+    against the projection."""
+    marks = ", ".join(["%s"] * len(ids))
+    statements: list[tuple[str, list[Any]]] = [
+        (f"SELECT e.unit_id, e.component_kind, e.performed_at, e.hour_meter, e.dp_before_bar "
+         f"FROM {_table(ServiceEvent)} e JOIN {_table(Unit)} u ON u.id = e.unit_id WHERE "
+         f"e.kind = 'filter_changed' AND e.performed_at <= %s AND u.unit_class_id IN "
+         f"(SELECT unit_class_id FROM {_table(Unit)} WHERE id IN ({marks}))", [now, *ids]),
+    ]  # fmt: skip
+    return _rows_read(cursor, statements)
+
+
 def projection_floor(unit_ids: list[int], now: datetime) -> int:
     with connection.cursor() as cursor:
-        return sum(_floor_batch(cursor, batch, now) for batch in _batches(unit_ids))
+        run = _floor_run(cursor, unit_ids, now)
+        return run + sum(_floor_batch(cursor, batch, now) for batch in _batches(unit_ids))
 
 
 def projection_measure(unit_ids: list[int], *, now: datetime, runs: int) -> dict[str, Any]:

@@ -10,6 +10,7 @@ from django.db import transaction
 from django.db.models import Q
 
 from services.common import Basis, DueStatus, Projection
+from services.filter_life import LifeBudget
 from services.urgency import estimate_overrun_hours, lateness, urgency_tier
 
 from .engine import UnitResult, unit_compute
@@ -139,7 +140,11 @@ class RecomputeResult:
 
 
 def due_items_recompute(
-    *, unit_ids: list[int], now: datetime, sources: bool = True
+    *,
+    unit_ids: list[int],
+    now: datetime,
+    sources: bool = True,
+    lives: dict[tuple[int, str], LifeBudget] | None = None,
 ) -> RecomputeResult:
     """Project every task of the given units and store the latest word on each.
 
@@ -148,12 +153,13 @@ def due_items_recompute(
     A fixed number of queries per call, whatever the number of units.
     The units' stale marks read before their inputs are removed after (a mark made since
     stays, for the sweep). With ``sources`` (the default) the fuel sources' decisions are
-    refreshed after; a full run's batches leave that to the run's end (runs.py).
+    refreshed after; a full run's batches leave that to the run's end (runs.py), and pass
+    the class life budgets the run worked out at its start (``lives``).
     """
     marks = list(
         StaleProjection.objects.filter(unit_id__in=unit_ids).values_list("unit_id", "marked_at")
     )
-    batch = batch_inputs_load(unit_ids=unit_ids, now=now)
+    batch = batch_inputs_load(unit_ids=unit_ids, now=now, lives=lives)
     items: list[DueItem] = []
     flags: list[UnitFlag] = []
     burned: dict[int, dict[int, float]] = {}  # litres of each fueling burned, by unit

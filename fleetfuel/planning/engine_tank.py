@@ -8,7 +8,8 @@ has been burned.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+import bisect
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from datetime import datetime
 from functools import partial
@@ -26,6 +27,9 @@ class SourceFuel:
 
     deliveries: list[tuple[datetime, float, str]]  # (delivered at, litres, words naming it)
     samples: list[fi.Sample]
+    # The deliveries' and samples' moments, sorted (source_fuel_at makes them when asked)
+    delivered_at: list[datetime] = field(default_factory=list, compare=False)
+    sampled_at: list[datetime] = field(default_factory=list, compare=False)
     # source_fuel's answers by what they depend on (see source_fuel_at), kept for the batch
     known: dict[tuple[int, int, int], tuple[float, bool, str]] = field(
         default_factory=dict, compare=False
@@ -83,20 +87,21 @@ def tank_loadings(
     capacity, capacity_words = unit_capacity(unit=unit, paired=paired)
     fills = []
     measured = {id(s.quality) for s in tank_samples}
+    words_of: dict[str, Callable[[], str]] = {}  # a fueling's words, made for those burned
     for fueling, quality in paired:
         conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
         words = quality.label if quality else "no sample: reference fuel assumed"
         source = sources.get(fueling.source_id) if fueling.source_id is not None else None
         if source and source.deliveries and id(quality) not in measured:
             conc, assumed, words = source_fuel_at(source=source, at=fueling.at, channel=channel)
+        words_of[fueling.ref] = partial(_fueling_words, fueling, source_names, words)
         fills.append(
             tank.Fill(
                 at=fueling.at,
                 litres=fueling.litres,
                 concentration_per_ml=conc,
                 reference_assumed=assumed,
-                label=f"the {fueling.litres:,.0f} L fuelled on {fueling.at:%Y-%m-%d} from "
-                f"{source_names[int(fueling.ref)]}, {words}",
+                label="",  # made below for the fuelings burned since ``since``
                 ref=fueling.ref,
             )
         )
@@ -122,7 +127,7 @@ def tank_loadings(
             litres=p.burned_since,
             concentration_per_ml=p.loading_since / p.burned_since,
             reference_assumed=p.fill.reference_assumed and p.measured_by is None,
-            label=_parcel_words(p),
+            label=_parcel_words(p, p.fill.label or words_of[p.fill.ref]()),
         )
         for p in state.parcels
         if p.burned_since > 0
@@ -222,10 +227,14 @@ def source_fuel_at(*, source: SourceFuel, at: datetime, channel: int) -> tuple[f
     fuel at ``at`` depends only on which deliveries and samples came by then (the ones at or
     before ``at``: a threshold, so their number names them) and the channel. Every unit of a
     batch fuelling from the same delivery then shares one tank run."""
+    if len(source.delivered_at) != len(source.deliveries):
+        source.delivered_at[:] = sorted(d_at for d_at, _, _ in source.deliveries)
+    if len(source.sampled_at) != len(source.samples):
+        source.sampled_at[:] = sorted(s.at for s in source.samples)
     key = (
         channel,
-        sum(1 for d_at, _, _ in source.deliveries if d_at <= at),
-        sum(1 for s in source.samples if s.at <= at),
+        bisect.bisect_right(source.delivered_at, at),
+        bisect.bisect_right(source.sampled_at, at),
     )
     if key not in source.known:
         source.known[key] = source_fuel(source=source, at=at, channel=channel)
@@ -269,9 +278,16 @@ def source_fuel(*, source: SourceFuel, at: datetime, channel: int) -> tuple[floa
     return state.concentration_per_ml, state.reference_assumed, f"the tank then held {words}"
 
 
-def _parcel_words(p: tank.ParcelBurn) -> str:
+def _fueling_words(fueling: fi.Fueling, source_names: dict[int, str], words: str) -> str:
+    return (
+        f"the {fueling.litres:,.0f} L fuelled on {fueling.at:%Y-%m-%d} from "
+        f"{source_names[int(fueling.ref)]}, {words}"
+    )
+
+
+def _parcel_words(p: tank.ParcelBurn, label: str) -> str:
     put_in = p.fill.litres
-    words = f"{p.fill.label} ({p.burned_total:,.0f} L of it burned so far"
+    words = f"{label} ({p.burned_total:,.0f} L of it burned so far"
     if p.left > 0 and put_in > 0:
         words += f", {p.left:,.0f} L still in the tank"
     if p.measured_by:

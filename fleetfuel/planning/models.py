@@ -129,6 +129,9 @@ class ProjectionRun(models.Model):
     items = models.PositiveIntegerField(default=0)
     trigger = models.CharField(max_length=20, default="nightly")
     updated_at = models.DateTimeField(null=True, blank=True)  # the latest batch done
+    # Each unit class's filter life budgets, "class id:filter kind" -> the budget's figures:
+    # worked out once at the start from the whole class's changes, read by every batch.
+    lives = models.JSONField(default=dict, blank=True)
 
     class Meta:
         ordering = ["-started_at"]

@@ -10,10 +10,13 @@ from datetime import datetime, timedelta
 from django.db import transaction
 from django.db.models import F
 
-from fleetfuel.fleet.models import Unit
+from fleetfuel.fleet.models import ServicePlan, Unit
+from services.filter_life import LifeBudget, budget_from_json, budget_to_json
 
 from .actions import RecomputeResult, due_items_recompute, source_decisions_refresh
+from .engine import FILTER_TASKS, filter_life_get
 from .models import ProjectionBatch, ProjectionRun
+from .selectors import BatchInputs, filter_changes_load
 
 # A run none of whose batches has finished for this long lost some (a batch takes a minute
 # at most: its time limit is 300 s); the stale sweep queues its undone batches again.
@@ -27,9 +30,14 @@ def run_start(
     the batches' ids, to queue. A run with no units is finished at once."""
     if unit_ids is None:
         unit_ids = list(Unit.objects.order_by("pk").values_list("pk", flat=True))
+    lives = run_lives(unit_ids=unit_ids, now=now)
     with transaction.atomic():
         run = ProjectionRun.objects.create(
-            started_at=now, trigger=trigger, updated_at=now, finished_at=None if unit_ids else now
+            started_at=now,
+            trigger=trigger,
+            updated_at=now,
+            finished_at=None if unit_ids else now,
+            lives=lives,
         )
         batches = ProjectionBatch.objects.bulk_create(
             ProjectionBatch(run=run, number=n, unit_ids=unit_ids[start : start + size])
@@ -38,16 +46,47 @@ def run_start(
     return [b.pk for b in batches]
 
 
+def run_lives(*, unit_ids: list[int], now: datetime) -> dict[str, dict[str, object]]:
+    """The filter life budget of each class and filter kind of these units, from every change
+    on record of the class (three queries): once a run, so that no batch reads the whole
+    classes' changes again. Keys "class id:filter kind" (JSON)."""
+    class_ids = set(Unit.objects.filter(pk__in=unit_ids).values_list("unit_class_id", flat=True))
+    plans = ServicePlan.objects.filter(
+        unit_class_id__in=class_ids, component_kind__in=list(FILTER_TASKS), interval_hours__gt=0
+    )
+    evidence = BatchInputs(
+        units=[], source_samples=[], sources={},
+        filter_changes=filter_changes_load(class_ids=class_ids, now=now),
+    )  # fmt: skip
+    return {
+        f"{plan.unit_class_id}:{plan.component_kind}": budget_to_json(
+            filter_life_get(evidence, plan.unit_class_id, plan.component_kind, plan)
+        )
+        for plan in plans
+    }
+
+
+def lives_read(stored: dict[str, dict[str, object]]) -> dict[tuple[int, str], LifeBudget]:
+    """A run's ``lives`` as the engine takes them."""
+    out = {}
+    for key, data in stored.items():
+        class_id, kind = key.split(":", 1)
+        out[(int(class_id), kind)] = budget_from_json(data)
+    return out
+
+
 def batch_recompute(*, batch_id: int, now: datetime) -> RecomputeResult | None:
     """Recompute one batch's units and mark it done; None when it was done already (a
     redelivery: its rows were written, and it counts nothing again)."""
     found = ProjectionBatch.objects.filter(pk=batch_id, done_at__isnull=True).values_list(
-        "run_id", "unit_ids"
+        "run_id", "unit_ids", "run__lives"
     )
     if not found:
         return None
-    run_id, unit_ids = found[0]
-    result = due_items_recompute(unit_ids=unit_ids, now=now, sources=False)
+    run_id, unit_ids, lives = found[0]
+    result = due_items_recompute(
+        unit_ids=unit_ids, now=now, sources=False, lives=lives_read(lives) if lives else None
+    )
     with transaction.atomic():
         # The run's row lock orders the batches' ends: the last one sees every other done.
         ProjectionRun.objects.select_for_update().filter(pk=run_id).first()

@@ -145,8 +145,15 @@ def unit_forecast_get(*, unit_id: int, now: datetime) -> UsageForecast:
     return unit_forecast(bundles[unit_id], now=now)
 
 
-def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
-    """Thirteen queries for any number of units (each named below)."""
+def batch_inputs_load(
+    *,
+    unit_ids: list[int],
+    now: datetime,
+    lives: dict[tuple[int, str], LifeBudget] | None = None,
+) -> BatchInputs:
+    """Thirteen queries for any number of units (each named below); twelve with ``lives``,
+    the class life budgets a full run worked out at its start (then query 13, the whole
+    classes' filter changes, is not needed)."""
     since = now - timedelta(days=LOOKBACK_DAYS)
     bundles = _units_load(unit_ids=unit_ids, now=now)  # 1. units, class, site, latest records
     ids = list(bundles)
@@ -180,7 +187,7 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
     _dp_load(bundles=bundles, now=now, since=since)  # 11. dP readings of the fitted filters
     sources = {s.pk: s for s in FuelSource.objects.all()}  # 12. fuel sources (a handful)
     # 13. every filter change of the batch's unit classes: the life evidence
-    filter_changes = filter_changes_load(class_ids=class_ids, now=now)
+    filter_changes = {} if lives is not None else filter_changes_load(class_ids=class_ids, now=now)
     # 14. deliveries into the sources in the look-back (each source's tank model)
     deliveries = rows_of(
         Delivery.objects.filter(delivered_at__gte=since, delivered_at__lte=now).order_by(
@@ -193,6 +200,7 @@ def batch_inputs_load(*, unit_ids: list[int], now: datetime) -> BatchInputs:
         source_samples=source_samples,
         sources=sources,
         filter_changes=filter_changes,
+        lives=dict(lives or {}),
         deliveries=deliveries,
     )
 

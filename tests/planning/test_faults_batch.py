@@ -56,11 +56,11 @@ def recomputed(monkeypatch: pytest.MonkeyPatch) -> Iterator[list[list[int]]]:
     real = runs.due_items_recompute
     state = {"calls": 0}
 
-    def recompute(*, unit_ids: list[int], now: Any, sources: bool = True) -> Any:
+    def recompute(*, unit_ids: list[int], now: Any, sources: bool = True, lives: Any = None) -> Any:
         state["calls"] += 1
         if state["calls"] == 3:
             raise WorkerKilled
-        result = real(unit_ids=unit_ids, now=now, sources=sources)
+        result = real(unit_ids=unit_ids, now=now, sources=sources, lives=lives)
         done.append(list(unit_ids))
         return result
 
