@@ -14,6 +14,8 @@ import math
 from datetime import UTC, datetime, timedelta
 
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 
 from services.tank import (
     FALLBACK_TANK_L,
@@ -148,3 +150,31 @@ def test_burning_more_than_the_log_holds_never_over_counts_a_fueling() -> None:
     assert math.isclose(s.burned_since, 800.0)
     # 200 x 1,000 + 400 x 2,500 + 200 x 2,500
     assert math.isclose(s.loading_since, 200_000.0 + 1_000_000.0 + 500_000.0)
+
+
+@given(
+    fills=st.lists(st.tuples(st.floats(0.1, 3), st.floats(0, 20_000)), max_size=400),
+    burn_per_day=st.floats(0, 120),
+)
+def test_every_litre_is_burned_or_still_in_the_tank(
+    fills: list[tuple[float, float]], burn_per_day: float
+) -> None:
+    # Mass balance of the vessel (Levenspiel, ch. 5): each fill tops the tank up with what
+    # was burned since the one before (so none overflows), and what went in is what was
+    # burned plus what is left; what was burned is the path's. Over a year of top-ups,
+    # however many parcels the tank has seen.
+    capacity, at, put_in = 400.0, 0.0, []
+    for gap, conc in fills:
+        at += gap
+        put_in.append(Fill(at=day(at), litres=burn_per_day * gap, concentration_per_ml=conc,
+                           reference_assumed=False, label=f"fill at day {at}"))  # fmt: skip
+    end = at + 1
+    s = tank_run(capacity_l=capacity, initial=initial(), fills=put_in, measures=[],
+                 burned=[(day(0), 0.0), (day(end), burn_per_day * end)], since=day(0),
+                 until=day(end))  # fmt: skip
+    total_in = capacity + sum(f.litres for f in put_in)
+    burned = sum(p.burned_total for p in s.parcels)
+    left = sum(p.left for p in s.parcels)
+    assert math.isclose(burned + left, total_in, rel_tol=1e-9)
+    assert math.isclose(s.burned_since, burn_per_day * end, rel_tol=1e-9, abs_tol=1e-9)
+    assert all(p.fill.label != UNLOGGED_LABEL for p in s.parcels)  # never burned dry
