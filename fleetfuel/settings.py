@@ -247,10 +247,15 @@ if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     )
     # A file (not memory) so a real Celery worker process can share it; one per test process.
     DATABASES["default"]["TEST"] = {"NAME": str(BASE_DIR / "var" / f"test-{os.getpid()}.sqlite3")}
-if TESTING and DATABASES["default"]["ENGINE"] == "django.db.backends.postgresql":
-    # The ledger's tables refuse TRUNCATE unless the session says so; the test runner empties
-    # tables with TRUNCATE between transactional tests (fleetfuel/ledger/migrations/0005).
-    DATABASES["default"].setdefault("OPTIONS", {})["options"] = "-c fleetfuel.ledger_truncate=allow"
+for _db in DATABASES.values():
+    if _db["ENGINE"] == "django.db.backends.postgresql":
+        # No JIT compilation: the queries are short, and compiling the engine's batch reads
+        # took longer than running them (EXPLAIN ANALYZE, README "Scale"). In tests, the
+        # ledger's tables refuse TRUNCATE unless the session says so; the test runner empties
+        # tables with TRUNCATE between transactional tests (fleetfuel/ledger/migrations/0005).
+        _db.setdefault("OPTIONS", {})["options"] = "-c jit=off" + (
+            " -c fleetfuel.ledger_truncate=allow" if TESTING else ""
+        )
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [

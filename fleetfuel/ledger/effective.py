@@ -37,7 +37,9 @@ CORRECTION = ServiceEvent.Kind.CORRECTION
 
 
 def _corrections_of(ref: str) -> QuerySet[ServiceEvent]:
-    return ServiceEvent.objects.filter(corrects_id=OuterRef(ref))
+    # "IS NOT NULL" lets the database read the corrections alone (a partial index), not
+    # the whole ledger, to find the entries a correction names.
+    return ServiceEvent.objects.filter(corrects_id=OuterRef(ref), corrects_id__isnull=False)
 
 
 def _later_siblings() -> QuerySet[ServiceEvent]:

@@ -105,6 +105,11 @@ class ServiceEvent(models.Model):
             models.Index(fields=["unit", "performed_at"], name="ledger_unit_at"),
             # The history page reads newest first by (performed_at, id), a keyset.
             models.Index(fields=["performed_at", "id"], name="ledger_at_id"),
+            # The corrections alone (a few rows of the ledger): which entries were corrected is
+            # read from here, not from the whole table (ledger/effective.py).
+            models.Index(
+                fields=["corrects"], condition=Q(corrects__isnull=False), name="ledger_corrections"
+            ),
         ]
 
     def __str__(self) -> str:
