@@ -28,10 +28,12 @@ MIN_EVENTS events; until then the plan's estimate stands, and the explanation sa
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 from services.inputs import number_check
 
@@ -194,3 +196,13 @@ def life_inputs(life: LifeBudget) -> dict[str, object]:
         "shape": fit.shape if fit else None,
         "scale": fit.scale if fit else None,
     }
+
+
+def budget_to_json(life: LifeBudget) -> dict[str, object]:
+    """A life budget as JSON-safe values, whole (:func:`budget_from_json` reads it back)."""
+    return dataclasses.asdict(life)
+
+
+def budget_from_json(data: dict[str, Any]) -> LifeBudget:
+    fit = data.get("fit")
+    return LifeBudget(**{**data, "fit": WeibullFit(**fit) if fit else None})

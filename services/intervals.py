@@ -65,6 +65,9 @@ def last_change(
     return changed_at, fitted_meter if changed_meter is None else changed_meter
 
 
+# Litres burned that show as at least "1 L" (rounded): less of a fueling is not named.
+SHOWN_LITRES = 0.5
+
 RAISED_SENTENCE = (
     "Raised one step in urgency by a recent engine event (high filter dP or low supply pressure)."
 )
@@ -324,7 +327,12 @@ def _fuel_sentences(*, since: Sequence[Loading], plan: FilterPlan, current: floa
     for ld in since:
         if ld.concentration_per_ml > ref_conc:
             groups.setdefault((ld.label, ld.concentration_per_ml), []).append(ld)
-    dirty = sorted(groups.items(), key=lambda kv: kv[0][1], reverse=True)[:3]
+    # Dirtiest first; fuels alike to nine figures (one delivery's, rounded differently on the
+    # way) keep their order, oldest first.
+    # Fuel of which under half a litre was burned since the change (it shows as "0 L") is
+    # not named: a trace of an old fueling says nothing about what the filter has taken.
+    named = [(k, v) for k, v in groups.items() if sum(ld.litres for ld in v) >= SHOWN_LITRES]
+    dirty = sorted(named, key=lambda kv: -float(f"{kv[0][1]:.9g}"))[:3]
     if dirty:
         parts = []
         for (label, conc), loads in dirty:
@@ -370,7 +378,7 @@ def _inputs(
             "fuel_volume": limits.volume_hours,
             "differential_pressure": fit.crossing_hours if fit else None,
         },
-        "sample_labels": [ld.label for ld in since],
+        "sample_labels": [ld.label for ld in since if ld.litres >= SHOWN_LITRES],
         "reference_assumed": bool(spend.notes),
         "dp_fit": dp_fit_inputs(fit),
     }

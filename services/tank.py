@@ -25,7 +25,7 @@ from __future__ import annotations
 import bisect
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Final
 
@@ -86,6 +86,10 @@ class TankState:
     reference_assumed: bool  # all of the tank's fuel at ``until`` had no sample
     burned_since: float  # litres burned from ``since`` to ``until``
     loading_since: float  # litres x particles per mL burned from ``since`` to ``until``
+    loading_at_checkpoint: float | None = None  # the same, from ``since`` to the checkpoint
+    # What ``concentration_per_ml`` is the mix of: the fills in the tank at ``until`` and their
+    # litres, or, for an empty tank, those it held when it emptied (none: never filled)
+    mix_of: list[tuple[Fill, float]] = field(default_factory=list)
 
 
 UNLOGGED_LABEL = "fuel burned but not in the fuel log (taken as the tank's last mix)"
@@ -108,6 +112,29 @@ def tank_capacity(
             f"a {largest_fill_l:,.0f} L tank (no size recorded: its largest fueling)"
         )
     return FALLBACK_TANK_L, f"a {FALLBACK_TANK_L:,.0f} L tank (no size recorded: assumed)"
+
+
+# A parcel of fuel below this fraction of the tank is none (a nanolitre in a 1,000 L tank).
+NEGLIGIBLE_FRACTION: Final = 1e-12
+
+
+def fills_displaced(
+    *, fills: Sequence[tuple[datetime, float]], capacity_l: float, first_draw_at: datetime | None
+) -> int:
+    """How many of the oldest ``fills`` ((moment, litres), oldest first) a run may leave out.
+
+    Until the first draw (``first_draw_at``; None: nothing is ever drawn) the tank is full,
+    so each fill pushes out its share of what was in it: (capacity - litres) / capacity of the
+    older fuel stays. A fill whose fuel the later ones pushed out to below
+    :data:`NEGLIGIBLE_FRACTION` of the tank before anything was drawn is never burned."""
+    number_check("tank capacity_l", capacity_l, positive=True)
+    before = [litres for at, litres in fills if first_draw_at is None or at <= first_draw_at]
+    stays = 1.0  # of the fuel in the tank before fill i, what the later fills leave
+    for i in range(len(before) - 1, -1, -1):
+        stays *= max(0.0, capacity_l - before[i]) / capacity_l
+        if stays < NEGLIGIBLE_FRACTION:
+            return i  # fills 0 .. i-1 were in the tank before fill i: below it too
+    return 0
 
 
 def path_litres(path: Sequence[tuple[datetime, float]], at: datetime) -> float:
@@ -156,6 +183,10 @@ _SCALE_FLOOR: Final = 1e-4
 _NONE_LEFT_L: Final = 1e-9
 
 
+def _mix_of(held: Sequence[tuple[_Parcel, float]]) -> float:
+    return sum(litres * p.conc for p, litres in held) / sum(litres for _, litres in held)
+
+
 class _Tank:
     """The parcels and the running sums: a parcel holds ``share * scale`` litres; each litre
     of share has burned ``burned`` litres in all and ``counted`` since ``since``."""
@@ -168,7 +199,14 @@ class _Tank:
         self.counted = 0.0
         self.shares = 0.0  # sum of the live parcels' shares
         self.shares_conc = 0.0  # sum of share x concentration
-        self.emptied_at_conc: float | None = None  # the mix a draw emptied the tank at
+        # The parcels and litres the tank held when a draw last emptied it (its mix then)
+        self.emptied_with: list[tuple[_Parcel, float]] = []
+
+    def holds(self) -> list[tuple[_Parcel, float]]:
+        """What the tank's mix is of: each parcel and its litres now, or, if the tank is
+        empty, those it held when a draw emptied it."""
+        now = [(p, self.held(p)) for p in self.live if self.held(p) > 0]
+        return now or self.emptied_with
 
     def volume(self) -> float:
         return self.shares * self.scale
@@ -176,15 +214,15 @@ class _Tank:
     def mix(self) -> float:
         """The tank's concentration; an empty tank keeps the last fuel it held."""
         if self.volume() <= 0:
-            if self.emptied_at_conc is not None:
-                return self.emptied_at_conc
+            if self.emptied_with:
+                return _mix_of(self.emptied_with)
             return self.parcels[-1].conc
         return self.shares_conc / self.shares
 
     def add(self, parcel: _Parcel) -> None:
         self.parcels.append(parcel)
         if parcel.share > 0:
-            self.emptied_at_conc = None
+            self.emptied_with = []
             self.live.append(parcel)
             self.shares += parcel.share
             self.shares_conc += parcel.share * parcel.conc
@@ -210,6 +248,11 @@ class _Tank:
     def held(self, parcel: _Parcel) -> float:
         return parcel.share * self.scale if parcel.share > 0 else 0.0
 
+    def loading(self) -> float:
+        """Litres x particles per mL burned since ``since`` so far, every parcel's."""
+        counted = self.counted
+        return sum(p.load + p.share * p.conc * (counted - p.counted_mark) for p in self.parcels)
+
 
 def tank_run(
     *,
@@ -220,12 +263,15 @@ def tank_run(
     burned: Sequence[tuple[datetime, float]],
     since: datetime,
     until: datetime,
+    checkpoint: datetime | None = None,
 ) -> TankState:
     """Run the tank from ``initial`` (its contents, full, before the first fill) to ``until``.
 
     ``burned`` is the path of cumulative litres drawn (see :func:`path_litres`); what is drawn
     between two fills carries the tank's mix. Fuel drawn at or after ``since`` is counted in
-    ``burned_since`` and ``loading_since``; fills after ``until`` are ignored.
+    ``burned_since`` and ``loading_since``; fills after ``until`` are ignored. With a
+    ``checkpoint`` (``since`` to ``until``), the loading burned by then is kept too: what a
+    run to the checkpoint would give as ``loading_since``.
     """
     number_check("tank capacity_l", capacity_l, positive=True)
     tank = _Tank()
@@ -233,13 +279,18 @@ def tank_run(
     events: list[tuple[datetime, int, Fill | Measure | None]] = [(since, 0, None)]
     events += [(f.at, 1, f) for f in fills]
     events += [(m.at, 2, m) for m in measures]  # a sample at a fill's instant: after it
+    if checkpoint is not None:
+        events.append((checkpoint, 3, None))
     events.sort(key=lambda e: (e[0], e[1]))
+    at_checkpoint = None
     t_prev = min([since, *(e[0] for e in events), *(t for t, _ in burned[:1])])
     litres_at = _path_reader(burned)
-    for at, _, event in [*(e for e in events if e[0] <= until), (until, 3, None)]:
+    for at, order, event in [*(e for e in events if e[0] <= until), (until, 4, None)]:
         _draw(tank, litres_at(at) - litres_at(t_prev), t_prev >= since)
         t_prev = at
-        if isinstance(event, Fill):
+        if order == 3:
+            at_checkpoint = tank.loading()
+        elif isinstance(event, Fill):
             _fill(tank, event, capacity_l)
         elif isinstance(event, Measure):
             _measure(tank, event)
@@ -256,6 +307,8 @@ def tank_run(
         reference_assumed=all(p.fill.reference_assumed and not p.measured_by for p in live),
         burned_since=sum(p.since for p in tank.parcels),
         loading_since=sum(p.load for p in tank.parcels),
+        loading_at_checkpoint=at_checkpoint,
+        mix_of=[(p.fill, litres) for p, litres in tank.holds()],
     )
 
 
@@ -294,9 +347,10 @@ def _draw(tank: _Tank, litres: float, counted: bool) -> None:
         tank.burned += tank.scale * fraction
         if counted:
             tank.counted += tank.scale * fraction
+        before = [(p, tank.held(p)) for p in tank.live] if held >= volume else []
         tank.rescale(1.0 - fraction)
         if tank.volume() <= 0:
-            tank.emptied_at_conc = last_conc
+            tank.emptied_with = before
     excess = litres - held
     if excess > 0:
         parcel = _unlogged(tank, last_conc)

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
-from functools import partial
 
 from fleetfuel.fleet.models import Component, ComponentKind, ServicePlan
 from services import filter_inputs, filter_life, intervals, usage, water
@@ -61,6 +60,9 @@ class UnitFuel:
     refused: list[str] = field(default_factory=list)  # records left out, each with its reason
     tank_samples: list[fi.Sample] = field(default_factory=list)  # of the unit's own tank
     sources: dict[int, engine_tank.SourceFuel] = field(default_factory=dict)  # bulk tanks
+    # Litres of each fueling burned by now, by the burn rate the tank was run at (the drain's
+    # tank run leaves them here for unit_burned: one run, not two)
+    burned_at_rate: dict[float, dict[int, float]] = field(default_factory=dict)
 
 
 def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult:
@@ -95,10 +97,13 @@ def unit_burned(
 ) -> dict[int, float]:
     """Litres of each fueling burned by ``now`` (for the source decisions); none when the
     records are refused (the filters' tasks say why)."""
+    burn = fuel.burn or b.unit.unit_class.typical_burn_l_per_h or 0.0
+    if burn in fuel.burned_at_rate:
+        return fuel.burned_at_rate[burn]
     try:
         return engine_tank.tank_now(
             unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now),
-            burn_l_per_h=fuel.burn or b.unit.unit_class.typical_burn_l_per_h or 0.0, now=now,
+            burn_l_per_h=burn, now=now,
         )[0]  # fmt: skip
     except ValueError:
         return {}
@@ -283,8 +288,8 @@ def filter_compute(
     fplan = filter_plan(plan, channel, b.unit.unit_class.typical_burn_l_per_h)
     last_hours = engine_hours_at(b, last_at, last_meter)
     fi.current_concentration(pairs=fuel.paired, now=now, channel=channel)  # refuses future fuel
-    tank_at = partial(
-        engine_tank.tank_loadings,
+    dp_taken = [r.taken_at for r in b.dp_readings.get(comp.pk, []) if last_at <= r.taken_at <= now]
+    burned = engine_tank.tank_loadings(
         unit=b.unit,
         paired=fuel.paired,
         source_names=fuel.source_names,
@@ -294,10 +299,9 @@ def filter_compute(
         hours=[*tank_hours(b, forecast, now), (last_at, last_hours)],
         burn_l_per_h=fuel.burn or fplan.reference_burn_l_per_h,
         since=last_at,
+        now=now,
+        checkpoint=max(dp_taken) if dp_taken else None,  # the loading when dP was last read
     )
-    burned = tank_at(now=now)
-    dp_taken = [r.taken_at for r in b.dp_readings.get(comp.pk, []) if last_at <= r.taken_at <= now]
-    at_dp = tank_at(now=max(dp_taken)) if dp_taken else None  # the loading when dP was read
     projection = intervals.filter_projection(
         task=task,
         plan=fplan,
@@ -323,7 +327,7 @@ def filter_compute(
         now=now,
         priority_raised=task in fl.raised_priorities(events=fuel.events, since=last_at),
         life=life,
-        loading_at_latest_dp=at_dp.loading if at_dp else None,
+        loading_at_latest_dp=burned.loading_at_checkpoint,
     )
     projection.explanation.extend([burned.sentence, channel_note])
     return projection
@@ -358,7 +362,7 @@ def drain_compute(
     reference_water = plan.reference_water_mg_kg
     coldest = b.unit.site.coldest_fuel_c  # the depot's coldest fuel, where it is set
     burn = fuel.burn or plan.reference_burn_l_per_h or b.unit.unit_class.typical_burn_l_per_h
-    current_water, current_density = engine_tank.tank_water(
+    current_water, current_density, fuel.burned_at_rate[burn] = engine_tank.tank_water(
         unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now), burn_l_per_h=burn,
         now=now, reference_mg_kg=reference_water, coldest_c=coldest,
     )  # fmt: skip

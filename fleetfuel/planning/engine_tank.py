@@ -55,6 +55,7 @@ class TankLoadings:
     current_reference_assumed: bool
     sentence: str  # the tank model in words, for the explanation
     loading: float  # litres x particles per mL burned since ``since``
+    loading_at_checkpoint: float | None = None  # the same, burned by the checkpoint
 
 
 def hour_path(
@@ -82,9 +83,13 @@ def tank_loadings(
     burn_l_per_h: float,
     since: datetime,
     now: datetime,
+    checkpoint: datetime | None = None,
 ) -> TankLoadings:
-    """The fuel the filters burned since ``since``, one loading per fueling it came from."""
+    """The fuel the filters burned since ``since``, one loading per fueling it came from (and
+    the loading burned by ``checkpoint``, when given: services.tank.tank_run)."""
     capacity, capacity_words = unit_capacity(unit=unit, paired=paired)
+    path = hour_path(hours, burn_l_per_h)
+    paired = in_reach(paired, capacity, path)
     fills = []
     measured = {id(s.quality) for s in tank_samples}
     words_of: dict[str, Callable[[], str]] = {}  # a fueling's words, made for those burned
@@ -110,7 +115,6 @@ def tank_loadings(
         conc, assumed = fq.concentration_or_reference(quality=s.quality, channel=channel)
         if not assumed:
             measures.append(tank.Measure(at=s.at, concentration_per_ml=conc, label=s.quality.label))
-    path = hour_path(hours, burn_l_per_h)
     first_at = min([since, *(f.at for f in fills), *(t for t, _ in path[:1])])
     conc0, _ = fq.concentration_or_reference(quality=None, channel=channel)
     initial = tank.Fill(
@@ -119,7 +123,7 @@ def tank_loadings(
     )  # fmt: skip
     state = tank.tank_run(
         capacity_l=capacity, initial=initial, fills=fills, measures=measures, burned=path,
-        since=since, until=now,
+        since=since, until=now, checkpoint=checkpoint,
     )  # fmt: skip
     loadings = [
         filter_inputs.Loading(
@@ -139,8 +143,20 @@ def tank_loadings(
     )
     return TankLoadings(
         loadings, state.concentration_per_ml, state.reference_assumed, sentence,
-        state.loading_since,
+        state.loading_since, state.loading_at_checkpoint,
     )  # fmt: skip
+
+
+def in_reach(
+    paired: Sequence[fi.Paired], capacity: float, path: Sequence[tuple[datetime, float]]
+) -> Sequence[fi.Paired]:
+    """The fuelings (oldest first) whose fuel can still be burned: not those the later ones
+    pushed out of the full tank before its first draw (services.tank.fills_displaced)."""
+    skip = tank.fills_displaced(
+        fills=[(f.at, f.litres) for f, _ in paired], capacity_l=capacity,
+        first_draw_at=path[0][0] if path else None,
+    )  # fmt: skip
+    return paired[skip:]
 
 
 def unit_capacity(*, unit: Unit, paired: Sequence[fi.Paired]) -> tuple[float, str]:
@@ -152,6 +168,11 @@ def unit_capacity(*, unit: Unit, paired: Sequence[fi.Paired]) -> tuple[float, st
     )
 
 
+# A figure carried by the fuel, mixed by volume: (its value per litre for each fueling, in
+# the order of ``paired``; its value for the tank's first contents).
+Figure = tuple[Sequence[float], float]
+
+
 def tank_now(
     *,
     unit: Unit,
@@ -159,34 +180,47 @@ def tank_now(
     hours: Sequence[tuple[datetime, float]],
     burn_l_per_h: float,
     now: datetime,
-    values: Sequence[float] | None = None,
-    initial: float = 0.0,
-) -> tuple[dict[int, float], float]:
+    figures: Sequence[Figure] = (),
+) -> tuple[dict[int, float], list[float]]:
     """The unit's tank run as :func:`tank_loadings` runs it (well mixed, drawn at the engine
-    hours times the burn) to ``now``, each fueling carrying its figure in ``values`` (an
-    amount per litre, mixed by volume; none: 0) and the tank's first contents ``initial``:
-    (litres of each fueling burned by ``now``, by its id; the tank's mix at ``now``). How
-    much of a fueling is burned depends on volumes only, never on what it carried."""
+    hours times the burn) to ``now``: (litres of each fueling burned by ``now``, by its id;
+    the tank's mix at ``now`` of each of ``figures``). How much of each fueling is burned, and
+    is left, depends on volumes only, so one run mixes any number of figures: each is what the
+    tank holds of every fueling (or held when it emptied: services.tank) weighted by its
+    figure."""
     capacity, _ = unit_capacity(unit=unit, paired=paired)
-    values = [0.0] * len(paired) if values is None else values
-    fills = [
-        tank.Fill(at=f.at, litres=f.litres, concentration_per_ml=value, reference_assumed=True,
-                  label=f"fueling {f.ref}", ref=f.ref)
-        for (f, _), value in zip(paired, values, strict=True)
-        if f.at <= now
-    ]  # fmt: skip
     path = hour_path(hours, burn_l_per_h)
-    first_at = min([now, *(f.at for f in fills), *(t for t, _ in path[:1])])
-    first = tank.Fill(
-        at=first_at, litres=capacity, concentration_per_ml=initial, reference_assumed=True,
-        label="the fuel in the tank before the first fueling on record",
-    )  # fmt: skip
-    state = tank.tank_run(
-        capacity_l=capacity, initial=first, fills=fills, measures=[], burned=path,
-        since=now, until=now,
-    )  # fmt: skip
+    skipped = len(paired) - len(in_reach(paired, capacity, path))  # the older: never burned
+
+    def run(values: Sequence[float], initial: float) -> tank.TankState:
+        fills = [
+            tank.Fill(at=f.at, litres=f.litres, concentration_per_ml=value,
+                      reference_assumed=True, label=f"fueling {f.ref}", ref=f.ref)
+            for (f, _), value in zip(paired[skipped:], values[skipped:], strict=True)
+            if f.at <= now
+        ]  # fmt: skip
+        first = tank.Fill(
+            at=min([now, *(f.at for f in fills), *(t for t, _ in path[:1])]), litres=capacity,
+            concentration_per_ml=initial, reference_assumed=True,
+            label="the fuel in the tank before the first fueling on record",
+        )  # fmt: skip
+        return tank.tank_run(
+            capacity_l=capacity, initial=first, fills=fills, measures=[], burned=path,
+            since=now, until=now,
+        )  # fmt: skip
+
+    state = run(*(figures[0] if figures else ([0.0] * len(paired), 0.0)))
     burned = {int(p.fill.ref): p.burned_total for p in state.parcels if p.fill.ref}
-    return burned, state.concentration_per_ml
+    volume = sum(litres for _, litres in state.mix_of)
+    mixes = []
+    for values, initial in figures:
+        if volume <= 0:  # never filled: the run of its own says what it keeps
+            mixes.append(run(values, initial).concentration_per_ml)
+            continue
+        by_ref = {f.ref: value for (f, _), value in zip(paired, values, strict=True)}
+        held = sum(litres * (by_ref[f.ref] if f.ref else initial) for f, litres in state.mix_of)
+        mixes.append(held / volume)
+    return burned, mixes
 
 
 def tank_water(
@@ -198,10 +232,11 @@ def tank_water(
     now: datetime,
     reference_mg_kg: float,
     coldest_c: float | None,
-) -> tuple[float, float]:
+) -> tuple[float, float, dict[int, float]]:
     """(free water mg/kg, density kg/L) of the fuel in the unit's tank now: the fuel the
-    filters' current concentration comes from, mixed the same way. Each fueling's free water
-    is ``services.fuel_water.free_water_or_reference``'s; mg/kg is per kilogram, so the tank
+    filters' current concentration comes from, mixed the same way; and the litres of each
+    fueling burned by now (:func:`tank_now`). Each fueling's free water is
+    ``services.fuel_water.free_water_or_reference``'s; mg/kg is per kilogram, so the tank
     mixes the water per litre (mg/kg x kg/L) and the density, and divides."""
     densities = [(q.density_kg_l if q else None) or fq.DEFAULT_DENSITY_KG_L for _, q in paired]
     per_litre = [
@@ -212,14 +247,15 @@ def tank_water(
     reference = fw.free_water_or_reference(
         quality=None, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c
     )
-    run = partial(
-        tank_now, unit=unit, paired=paired, hours=hours, burn_l_per_h=burn_l_per_h, now=now
-    )
-    _, water = run(values=per_litre, initial=reference * fq.DEFAULT_DENSITY_KG_L)
-    density = fq.DEFAULT_DENSITY_KG_L
-    if any(d != density for d in densities):  # one density throughout: nothing to mix
-        _, density = run(values=densities, initial=fq.DEFAULT_DENSITY_KG_L)
-    return water / density, density
+    figures: list[Figure] = [(per_litre, reference * fq.DEFAULT_DENSITY_KG_L)]
+    if any(d != fq.DEFAULT_DENSITY_KG_L for d in densities):  # else nothing to mix
+        figures.append((densities, fq.DEFAULT_DENSITY_KG_L))
+    burned, mixes = tank_now(
+        unit=unit, paired=paired, hours=hours, burn_l_per_h=burn_l_per_h, now=now,
+        figures=figures,
+    )  # fmt: skip
+    water, density = mixes[0], mixes[1] if len(mixes) > 1 else fq.DEFAULT_DENSITY_KG_L
+    return water / density, density, burned
 
 
 def source_fuel_at(*, source: SourceFuel, at: datetime, channel: int) -> tuple[float, bool, str]:

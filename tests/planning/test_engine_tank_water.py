@@ -30,7 +30,7 @@ def test_fuels_of_two_densities_mix_their_water_by_mass() -> None:
         (fi.Fueling(at=NOW - timedelta(days=2), litres=500.0, source_id=1, ref="1"), a),
         (fi.Fueling(at=NOW - timedelta(days=1), litres=500.0, source_id=1, ref="2"), b),
     ]
-    water, density = engine_tank.tank_water(
+    water, density, _ = engine_tank.tank_water(
         unit=unit, paired=paired, hours=[], burn_l_per_h=20.0, now=NOW,
         reference_mg_kg=200.0, coldest_c=None,
     )  # fmt: skip

@@ -122,6 +122,16 @@ def test_dirty_past_loading_named_and_counted() -> None:
     assert dirty.label in p.inputs["sample_labels"]  # type: ignore[operator]
 
 
+def test_a_trace_of_dirty_fuel_counts_but_is_not_named() -> None:
+    # 0.3 L burned shows as "0 L": it adds to the loading (0.3 x 10,000 = 3,000) but is not
+    # named as the dirtiest fuel burned; the 3,000 L of reference fuel is all there is to say.
+    trace = reference_loading(litres=0.3, conc=CODE_20_UPPER)
+    p = project(loadings=[reference_loading(), trace])
+    assert math.isclose(float(p.inputs["loading"]), 7_500_000.0 + 3_000.0)  # type: ignore[arg-type]
+    assert not any("Dirtiest" in s for s in p.explanation)
+    assert trace.label not in p.inputs["sample_labels"]  # type: ignore[operator]
+
+
 def test_clean_fuel_never_extends_the_plan() -> None:
     # Fuel at code 17 (1,300 per mL, about half the reference) would last
     # 30,000,000 / (30 x 1,300) = 769 h more: the plan's 10,500 h still governs.

@@ -22,6 +22,7 @@ from services.tank import (
     UNLOGGED_LABEL,
     Fill,
     Measure,
+    fills_displaced,
     path_litres,
     tank_capacity,
     tank_run,
@@ -178,3 +179,44 @@ def test_every_litre_is_burned_or_still_in_the_tank(
     assert math.isclose(burned + left, total_in, rel_tol=1e-9)
     assert math.isclose(s.burned_since, burn_per_day * end, rel_tol=1e-9, abs_tol=1e-9)
     assert all(p.fill.label != UNLOGGED_LABEL for p in s.parcels)  # never burned dry
+
+
+def test_fills_before_the_first_draw_push_the_old_fuel_out_geometrically() -> None:
+    # A full tank of V litres topped with b litres keeps (V - b) / V of what it held: after n
+    # fills (V - b)^n / V^n of the fuel from before them (the geometric series above, with
+    # nothing burned). Half the tank each time: 0.5^40 = 9.1e-13 is the first power below
+    # 1e-12, so of 100 such fills before the first draw, the 60 oldest can be left out.
+    fills = [(day(n / 10), 200.0) for n in range(100)]
+    assert fills_displaced(fills=fills, capacity_l=400.0, first_draw_at=day(20)) == 60
+    # A draw before them: each fill then has room of its own, none is pushed out unburned.
+    assert fills_displaced(fills=fills, capacity_l=400.0, first_draw_at=day(-1)) == 0
+
+
+@given(
+    fills=st.lists(
+        st.tuples(st.floats(0.1, 3), st.floats(1, 450), st.floats(0, 20_000)),
+        min_size=1,
+        max_size=150,
+    ),  # fmt: skip
+    first_draw=st.floats(0, 200),
+)
+def test_leaving_out_the_displaced_fills_changes_nothing_that_shows(
+    fills: list[tuple[float, float, float]], first_draw: float
+) -> None:
+    capacity, at, put_in = 400.0, 0.0, []
+    for gap, litres, conc in fills:
+        at += gap
+        put_in.append(Fill(at=day(at), litres=litres, concentration_per_ml=conc,
+                           reference_assumed=False, label=f"fill at day {at}"))  # fmt: skip
+    path = [(day(first_draw), 0.0), (day(at + 1), 50.0 * (at + 1 - first_draw))]
+    skip = fills_displaced(fills=[(f.at, f.litres) for f in put_in], capacity_l=capacity,
+                           first_draw_at=day(first_draw))  # fmt: skip
+    run = {
+        kept: tank_run(capacity_l=capacity, initial=initial(), fills=put_in[kept:], measures=[],
+                       burned=path, since=day(first_draw), until=day(at + 1))
+        for kept in (0, skip)
+    }  # fmt: skip
+    whole, short = run[0], run[skip]
+    assert math.isclose(short.loading_since, whole.loading_since, rel_tol=1e-9, abs_tol=1e-3)
+    assert math.isclose(short.concentration_per_ml, whole.concentration_per_ml, rel_tol=1e-9,
+                        abs_tol=1e-6)  # fmt: skip
