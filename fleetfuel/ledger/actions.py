@@ -124,6 +124,28 @@ _RELATIONS = ["unit", "component", "work_order", "recorded_by", "corrects"]
 
 def _event_seal(event: ServiceEvent, *, relations_checked_by_database: bool = False) -> None:
     """Normalise and validate ``event`` (its seq and prev_hash set), then seal its hash."""
+    _event_clean(event, relations_checked_by_database=relations_checked_by_database)
+    event.hash = entry_hash(content=event_content(event), prev_hash=event.prev_hash)
+
+
+def service_event_check(
+    *,
+    unit: Unit,
+    kind: str,
+    performed_at: datetime,
+    recorded_by: Any,
+    recorded_at: datetime | None = None,
+    **fields: Any,
+) -> None:
+    """Validate one entry as service_events_append will before it seals it (a ValidationError
+    by field), writing nothing: a caller gathering entries for it refuses a bad one first."""
+    event = ServiceEvent(unit_id=unit.pk, kind=kind, performed_at=performed_at,
+                         recorded_by=recorded_by, recorded_at=recorded_at or timezone.now(),
+                         seq=0, prev_hash="", **fields)  # fmt: skip
+    _event_clean(event, relations_checked_by_database=True)
+
+
+def _event_clean(event: ServiceEvent, *, relations_checked_by_database: bool) -> None:
     for name in BLANK_TEXT_FIELDS:
         if getattr(event, name) is None:
             setattr(event, name, "")
@@ -134,7 +156,6 @@ def _event_seal(event: ServiceEvent, *, relations_checked_by_database: bool = Fa
         )
     else:
         event.full_clean(exclude=exclude)
-    event.hash = entry_hash(content=event_content(event), prev_hash=event.prev_hash)
 
 
 def service_events_append(

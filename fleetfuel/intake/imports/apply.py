@@ -5,6 +5,12 @@ so a refused row leaves nothing behind and later rows see the earlier ones (a re
 neighbours, a delivery named by a sample). A dry run and an all-or-nothing apply with a
 refused row roll the whole transaction back; good rows only commits the rest. Every
 refused row is reported, and none is dropped silently.
+
+The rows go in chunks. A bulk layout's rows are each checked, writing nothing, and the
+chunk's writes are made together at its end (batch.py); when the database refuses them, the
+chunk is rolled back to its savepoint and run again a row at a time, each row written at
+once in its own savepoint (the path of a layout without ``bulk``), so the refusal is the
+row's, with its line, as it would have been.
 """
 
 from __future__ import annotations
@@ -13,9 +19,11 @@ import csv
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from datetime import datetime
+from itertools import batched
 from pathlib import Path
 from typing import Any
 
+from django.core.exceptions import ValidationError
 from django.db import IntegrityError, transaction
 
 from .columns import CellError, Column, cell_blank, cell_parse
@@ -24,6 +32,7 @@ from .readers import FileRefused, FormulaCell, Sheet, sheet_open, xlsx_column_le
 
 DRY_RUN, ALL_OR_NOTHING, GOOD_ROWS_ONLY = "dry_run", "all_or_nothing", "good_rows_only"
 MODES = (DRY_RUN, ALL_OR_NOTHING, GOOD_ROWS_ONLY)
+CHUNK = 500  # rows written together; progress is reported after each
 
 
 class _Rollback(Exception):
@@ -136,7 +145,7 @@ def file_import(
             if problem:
                 result.file_error = problem
                 return result
-            ctx = Context(now=now, site_ids=site_ids)
+            ctx = Context(now=now, site_ids=site_ids, bulk=layout.bulk)
             _rows_run(result, layout=layout, sheet=sheet, found=found, ctx=ctx,
                       progress=progress, xlsx=path.suffix.lower() == ".xlsx")  # fmt: skip
     except FileRefused as exc:
@@ -153,30 +162,19 @@ def _rows_run(
 ) -> None:  # fmt: skip
     given = {c.key for c, _, _ in found}
     absent = [c for c in layout.columns if c.key not in given]
-    seen: dict[tuple[Any, ...], int] = {}
+    run = _RowRun(layout=layout, sheet=sheet, found=found, absent=absent, ctx=ctx, xlsx=xlsx)
     rows = 0
     try:
         with transaction.atomic():
-            for line, cells in _nonblank(sheet.rows):
-                rows += 1
-                try:
-                    values = _row_values(found, cells, sheet)
-                    for column in absent:  # optional columns the file leaves out
-                        values[column.key] = cell_parse(
-                            column, None, header="", decimal_comma=False
-                        )
-                    natural = tuple(values.get(k) for k in layout.key)
-                    if natural in seen:
-                        raise RowRefused("", f"the same row as line {seen[natural]} "
-                                         f"({', '.join(layout.key)})")  # fmt: skip
-                    seen[natural] = line
-                    outcome = _row_store(layout, values, ctx)
-                    result.counts[outcome] += 1
-                except RowRefused as exc:
-                    result.counts["refused"] += 1
-                    label = _column_label(exc.column, found, sheet, xlsx) if exc.column else ""
-                    result.errors.append(RowError(sheet.name, line, label, exc.reason, cells))
-                if progress and rows % 500 == 0:
+            for chunk in batched(_nonblank(sheet.rows), CHUNK):
+                for outcome in run.chunk(chunk):
+                    if isinstance(outcome, RowError):
+                        result.counts["refused"] += 1
+                        result.errors.append(outcome)
+                    else:
+                        result.counts[outcome] += 1
+                rows += len(chunk)
+                if progress and rows % CHUNK == 0:
                     progress(rows)
             if rows == 0:
                 result.file_error = "the file has a header and no rows below it"
@@ -191,8 +189,56 @@ def _rows_run(
         result.stored = False
 
 
+@dataclass
+class _RowRun:
+    """Rows of one file through its layout, a chunk at a time."""
+
+    layout: Layout
+    sheet: Sheet
+    found: list[tuple[Column, int, str]]
+    absent: list[Column]
+    ctx: Context
+    xlsx: bool
+    seen: dict[tuple[Any, ...], int] = field(default_factory=dict)  # natural key: its line
+
+    def chunk(self, chunk: tuple[tuple[int, list[Any]], ...]) -> list[str | RowError]:
+        """Each row's outcome, its writes made (rolled back with the file's when refused)."""
+        seen = dict(self.seen)
+        try:
+            with transaction.atomic():
+                outcomes = [self.row(line, cells, seen) for line, cells in chunk]
+                self.ctx.writes.flush()
+        except (IntegrityError, ValidationError):  # the database refused the chunk's writes
+            self.ctx.restart(bulk=False)
+            seen = dict(self.seen)
+            outcomes = [self.row(line, cells, seen) for line, cells in chunk]
+            self.ctx.restart(bulk=self.layout.bulk)
+        self.seen = seen
+        return outcomes
+
+    def row(self, line: int, cells: list[Any], seen: dict[tuple[Any, ...], int]) -> str | RowError:
+        try:
+            values = _row_values(self.found, cells, self.sheet)
+            for column in self.absent:  # optional columns the file leaves out
+                values[column.key] = cell_parse(column, None, header="", decimal_comma=False)
+            natural = tuple(values.get(k) for k in self.layout.key)
+            if natural in seen:
+                raise RowRefused("", f"the same row as line {seen[natural]} "
+                                 f"({', '.join(self.layout.key)})")  # fmt: skip
+            seen[natural] = line
+            return _row_store(self.layout, values, self.ctx)
+        except RowRefused as exc:
+            label = (
+                _column_label(exc.column, self.found, self.sheet, self.xlsx) if exc.column else ""
+            )
+            return RowError(self.sheet.name, line, label, exc.reason, cells)
+
+
 def _row_store(layout: Layout, values: dict[str, Any], ctx: Context) -> str:
-    """Store one row in a savepoint; what the database itself refuses is a row error too."""
+    """Store one row in a savepoint; what the database itself refuses is a row error too.
+    A bulk chunk's row writes nothing until the flush: it needs no savepoint."""
+    if ctx.writes.bulk:
+        return layout.store(values, ctx)
     try:
         with transaction.atomic():
             return layout.store(values, ctx)

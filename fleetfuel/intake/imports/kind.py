@@ -1,12 +1,12 @@
 """What a kind of import is (its Layout), what a row may be refused for, and what a store
-function is given (a Context of lookups shared by the rows of one file)."""
+function is given (a Context of lookups shared by the rows of one file, and its writes)."""
 
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass, field
 from datetime import datetime
-from typing import Any
+from typing import Any, TypeVar
 from zoneinfo import ZoneInfo
 
 from django.contrib.auth.models import User
@@ -16,10 +16,12 @@ from django.db import models
 from fleetfuel.fleet.models import FuelSource, Site, Unit
 from services.plausibility import time_refusal
 
+from .batch import Writes
 from .columns import Column
 from .neighbours import ReadingsNearby
 
 CREATED, UPDATED, UNCHANGED = "created", "updated", "unchanged"
+T = TypeVar("T")
 
 
 class RowRefused(Exception):
@@ -35,7 +37,10 @@ class RowRefused(Exception):
 class Layout:
     """One kind of row: its columns, its natural key (column keys), how a row is stored
     (returns CREATED, UPDATED or UNCHANGED, or raises RowRefused) and how the database's
-    rows are written back out (dicts keyed by column key, values in SI)."""
+    rows are written back out (dicts keyed by column key, values in SI). ``bulk``: its store
+    function writes only through the Context (ctx.writes, row_save) and finds what earlier
+    rows of the file wrote through it too (ctx.found, ctx.readings), so the rows of a chunk
+    are written together (batch.py)."""
 
     kind: str
     title: str
@@ -44,21 +49,44 @@ class Layout:
     store: Callable[[dict[str, Any], Context], str]
     rows: Callable[[], Iterator[dict[str, Any]]]
     note: str = ""
+    bulk: bool = False
 
 
 @dataclass
 class Context:
-    """Lookups for one file's rows (each read once), and the instant the import runs at.
-    ``site_ids``: the sites the importing person may reach (None: all, as for the command);
-    units, sites and fuel sources elsewhere are not found."""
+    """Lookups for one file's rows (each read once), the instant the import runs at, and the
+    file's writes (batch.py; ``bulk``: made per chunk). ``site_ids``: the sites the importing
+    person may reach (None: all, as for the command); units, sites and fuel sources elsewhere
+    are not found."""
 
     now: datetime
     site_ids: frozenset[int] | None = None
+    bulk: bool = False
     _units: dict[str, list[Unit]] = field(default_factory=dict)
     _sources: dict[str, FuelSource | None] = field(default_factory=dict)
     _users: dict[str, User | None] = field(default_factory=dict)
     _sites: dict[str, Site | None] = field(default_factory=dict)
     readings: ReadingsNearby = field(default_factory=ReadingsNearby)
+    _found: dict[str, dict[Any, Any]] = field(default_factory=dict)
+    writes: Writes = field(init=False)
+
+    def __post_init__(self) -> None:
+        self.writes = Writes(bulk=self.bulk)
+
+    def restart(self, *, bulk: bool) -> None:
+        """Forget what was read and written (a chunk rolled back, to be run again)."""
+        self.writes = Writes(bulk=bulk)
+        self.readings = ReadingsNearby()
+        self._units.clear()
+        self._found.clear()
+
+    def found(self, table: str, key: Any, load: Callable[[], T]) -> T:
+        """A lookup of the database's rows, made once per key for the file; a store function
+        adds what it writes to the table it got, so later rows find it (before the flush)."""
+        rows = self._found.setdefault(table, {})
+        if key not in rows:
+            rows[key] = load()
+        return rows[key]  # type: ignore[no-any-return]
 
     def unit_get(self, values: Mapping[str, Any]) -> Unit:
         number, site = values["unit"], values.get("site") or ""
@@ -127,14 +155,21 @@ def model_check(
     columns: Mapping[str, str] | None = None,
     exclude: list[str] | None = None,
     fields_only: bool = False,
+    database: bool = True,
 ) -> None:
     """full_clean (or only the fields' own checks), each message turned into a RowRefused
-    naming the column (field names are the column keys unless ``columns`` maps them)."""
+    naming the column (field names are the column keys unless ``columns`` maps them).
+    ``database`` False: what the database checks at the insert (relations, uniqueness,
+    constraints) is left to it, for a bulk chunk (run again row by row when it refuses)."""
     try:
         if fields_only:
             obj.clean_fields(exclude=exclude)
-        else:
+        elif database:
             obj.full_clean(exclude=exclude)
+        else:
+            relations = [f.name for f in obj._meta.concrete_fields if f.is_relation]
+            obj.full_clean(exclude=[*(exclude or []), *relations], validate_unique=False,
+                           validate_constraints=False)  # fmt: skip
     except ValidationError as exc:
         raise validation_refusal(exc, columns=columns) from None
 
@@ -158,16 +193,17 @@ def fields_update(obj: models.Model, values: Mapping[str, Any]) -> bool:
     return changed
 
 
-def row_save(obj: Any, fields: dict[str, Any], existing: Any, **check: Any) -> str:
-    """Store ``obj`` (new) or update ``existing`` with ``fields``; CREATED/UPDATED/UNCHANGED."""
+def row_save(obj: Any, fields: dict[str, Any], existing: Any, ctx: Context, **check: Any) -> str:
+    """Store ``obj`` (new) or update ``existing`` with ``fields`` through ``ctx.writes``;
+    CREATED/UPDATED/UNCHANGED."""
     if existing is not None:
         if not fields_update(existing, fields):
             return UNCHANGED
         model_check(existing, **check)
-        existing.save()
+        ctx.writes.update(existing)
         return UPDATED
-    model_check(obj, **check)
-    obj.save()
+    model_check(obj, **check, database=not ctx.writes.bulk)
+    ctx.writes.create(obj)
     return CREATED
 
 

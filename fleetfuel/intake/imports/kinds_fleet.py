@@ -96,11 +96,21 @@ def component_store(values: dict[str, Any], ctx: Context) -> str:
     unit = ctx.unit_get(values)
     key = {"kind": values["kind"], "position": values["position"]}
     fields = {name: values[name] for name in COMPONENT_FIELDS}
-    component = Component.objects.filter(
-        unit=unit, installed_on=values["installed_on"], **key
-    ).first()
+    stored = ctx.found("components", unit.pk, lambda: _components_of(unit))
+    where = (values["installed_on"], key["kind"], key["position"])
     new = Component(unit=unit, installed_on=values["installed_on"], **key, **fields)
-    return row_save(new, fields, component, columns={"__all__": "kind"})
+    outcome = row_save(new, fields, stored.get(where), ctx, columns={"__all__": "kind"})
+    stored.setdefault(where, new)
+    return outcome
+
+
+def _components_of(unit: Unit) -> dict[tuple[Any, ...], Component]:
+    """The unit's components by (installed_on, kind, position), the first stored of a kind."""
+    found: dict[tuple[Any, ...], Component] = {}
+    for component in Component.objects.filter(unit=unit).order_by("pk"):
+        component.unit = unit
+        found.setdefault((component.installed_on, component.kind, component.position), component)
+    return found
 
 
 def component_rows() -> Iterator[dict[str, Any]]:
@@ -132,7 +142,7 @@ def replacement_store(values: dict[str, Any], ctx: Context) -> str:
     )
     fields = {n: values[n] for n in ("old_meter_final", "new_meter_start", "note")}
     existing = MeterReplacement.objects.filter(unit=unit, replaced_at=at).first()
-    return row_save(MeterReplacement(unit=unit, replaced_at=at, **fields), fields, existing)
+    return row_save(MeterReplacement(unit=unit, replaced_at=at, **fields), fields, existing, ctx)
 
 
 def replacement_rows() -> Iterator[dict[str, Any]]:
@@ -148,7 +158,8 @@ LAYOUTS = (
     Layout("units", "Units", UNITS, ("site", "fleet_number"), unit_store, unit_rows,
            note="Sites and unit classes are reference data: they must exist (the admin)."),
     Layout("components", "Fitted fuel-system components", COMPONENTS,
-           ("unit", "site", "kind", "position", "installed_on"), component_store, component_rows),
+           ("unit", "site", "kind", "position", "installed_on"), component_store, component_rows,
+           bulk=True),
     Layout("meter_replacements", "Hour-meter replacements", METER_REPLACEMENTS,
            ("unit", "site", "replaced_at"), replacement_store, replacement_rows),
 )  # fmt: skip

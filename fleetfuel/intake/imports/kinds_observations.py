@@ -36,17 +36,15 @@ def reading_store(values: dict[str, Any], ctx: Context) -> str:
     at = ctx.instant(
         values["taken_at"], time_zone=unit.site.time_zone, column="taken_at", what="reading"
     )
-    pk = ctx.readings.existing_pk(unit, at)
-    existing = MeterReading.objects.get(pk=pk) if pk else None
+    existing = ctx.readings.existing(unit, at)
     refusal = ctx.readings.refusal(unit, at=at, hours=values["hours"], now=ctx.now)
     if refusal:
         raise RowRefused("hours", refusal)
     fields = {"hours": values["hours"], "source": values["source"] or MeterReading.Source.MANUAL}
     reading = MeterReading(unit=unit, taken_at=at, **fields)
     # The rule above is what MeterReading.clean would ask again: only the fields are checked.
-    outcome = row_save(reading, fields, existing, exclude=["unit"], fields_only=True)
-    stored = existing or reading
-    ctx.readings.stored(unit, at=at, hours=stored.hours, pk=stored.pk)
+    outcome = row_save(reading, fields, existing, ctx, exclude=["unit"], fields_only=True)
+    ctx.readings.stored(unit, row=existing or reading)
     return outcome
 
 
@@ -76,9 +74,21 @@ def fueling_store(values: dict[str, Any], ctx: Context) -> str:
         raise RowRefused("litres", refusal)
     source = ctx.source_get(values["source"]) if values["source"] else None
     fields = {"litres": values["litres"], "source": source}
-    existing = Fueling.objects.filter(unit=unit, fueled_at=at).first()
+    stored = ctx.found("fuelings", unit.pk, lambda: _fuelings_at(unit))
+    existing = stored.get(at)
     fueling = Fueling(unit=unit, fueled_at=at, **fields)
-    return row_save(fueling, fields, existing, exclude=["unit", "source"])  # both just read
+    outcome = row_save(fueling, fields, existing, ctx, exclude=["unit", "source"])  # both read
+    stored.setdefault(at, fueling)
+    return outcome
+
+
+def _fuelings_at(unit: Any) -> dict[Any, Fueling]:
+    """The unit's fuelings by instant (the first stored, where two share one)."""
+    found: dict[Any, Fueling] = {}
+    for fueling in Fueling.objects.filter(unit=unit).select_related("source").order_by("pk"):
+        fueling.unit = unit
+        found.setdefault(fueling.fueled_at, fueling)
+    return found
 
 
 def fueling_rows() -> Iterator[dict[str, Any]]:
@@ -104,7 +114,7 @@ def delivery_store(values: dict[str, Any], ctx: Context) -> str:
     at = ctx.instant(values["delivered_at"], time_zone=zone, column="delivered_at", what="delivery")
     fields = {n: values[n] for n in ("litres", "supplier", "ticket")}
     existing = Delivery.objects.filter(source=source, delivered_at=at).first()
-    return row_save(Delivery(source=source, delivered_at=at, **fields), fields, existing)
+    return row_save(Delivery(source=source, delivered_at=at, **fields), fields, existing, ctx)
 
 
 def delivery_rows() -> Iterator[dict[str, Any]]:
@@ -136,7 +146,7 @@ def event_store(values: dict[str, Any], ctx: Context) -> str:
     fields = {"hours": values["hours"], "occurrences": values["occurrences"],
               "kind": values["kind"] or EngineEvent.Kind.OTHER}  # fmt: skip
     existing = EngineEvent.objects.filter(**key).first()
-    return row_save(EngineEvent(**key, **fields), fields, existing)
+    return row_save(EngineEvent(**key, **fields), fields, existing, ctx)
 
 
 def event_rows() -> Iterator[dict[str, Any]]:
@@ -156,12 +166,19 @@ FILTER_DP = (
 )
 
 
-def component_fitted(*, unit: Any, kind: str, position: int | None, column: str) -> Component:
-    """The unit's part of that kind (and cylinder): the one fitted now, else the last one."""
-    found = (
-        Component.objects.filter(unit=unit, kind=kind, position=position)
-        .order_by(F("removed_on").asc(nulls_first=True), "-installed_on")  # fitted first
-        .first()
+def component_fitted(
+    ctx: Context, *, unit: Any, kind: str, position: int | None, column: str
+) -> Component:
+    """The unit's part of that kind (and cylinder): the one fitted now, else the last one
+    (read once per file: neither file that asks for it stores components)."""
+    found = ctx.found(
+        "fitted",
+        (unit.pk, kind, position),
+        lambda: (
+            Component.objects.filter(unit=unit, kind=kind, position=position)
+            .order_by(F("removed_on").asc(nulls_first=True), "-installed_on")  # fitted first
+            .first()
+        ),
     )
     if found is None:
         where = f" at cylinder {position}" if position else ""
@@ -177,11 +194,11 @@ def dp_store(values: dict[str, Any], ctx: Context) -> str:
         column="taken_at",
         what="pressure reading",
     )
-    comp = component_fitted(unit=unit, kind=values["filter"], position=None, column="filter")
+    comp = component_fitted(ctx, unit=unit, kind=values["filter"], position=None, column="filter")
     fields = {"hours": values["hours"], "dp_bar": values["dp_bar"]}
     existing = FilterPressureReading.objects.filter(component=comp, taken_at=at).first()
     obj = FilterPressureReading(component=comp, taken_at=at, **fields)
-    return row_save(obj, fields, existing, columns={"component": "filter"})
+    return row_save(obj, fields, existing, ctx, columns={"component": "filter"})
 
 
 def dp_rows() -> Iterator[dict[str, Any]]:
@@ -194,9 +211,9 @@ def dp_rows() -> Iterator[dict[str, Any]]:
 
 LAYOUTS = (
     Layout("readings", "Hour-meter readings", READINGS, ("unit", "site", "taken_at"),
-           reading_store, reading_rows),
+           reading_store, reading_rows, bulk=True),
     Layout("fuelings", "Fuelings", FUELINGS, ("unit", "site", "fueled_at"), fueling_store,
-           fueling_rows),
+           fueling_rows, bulk=True),
     Layout("deliveries", "Bulk deliveries", DELIVERIES, ("source", "delivered_at"),
            delivery_store, delivery_rows,
            note="Fuel sources are reference data: they must exist (the admin)."),

@@ -9,7 +9,6 @@ from typing import Any
 from django.core.exceptions import ValidationError
 
 from fleetfuel.fleet.models import ComponentKind, Delivery, FuelSample
-from fleetfuel.ledger.actions import service_event_append
 from fleetfuel.ledger.effective import in_effect
 from fleetfuel.ledger.models import ServiceEvent
 from services.units import fahrenheit_to_celsius, psi_to_bar, us_fl_oz_to_ml
@@ -155,23 +154,34 @@ def service_event_store(values: dict[str, Any], ctx: Context) -> str:
     )  # fmt: skip
     fields = {n: values[n] for n in EVENT_FIELDS}
     fields["passed"] = {"yes": True, "no": False}.get(values["passed"])
-    key = {n: fields[n] for n in ("component_kind", "cylinder", "measurement_name")}
-    if ServiceEvent.objects.filter(unit=unit, kind=values["kind"], performed_at=at, **key).exists():
+    key = (values["kind"], at, *(fields[n] for n in _KEY_FIELDS))
+    recorded = ctx.found("service_events", unit.pk, lambda: _events_recorded(unit))
+    if key in recorded:
         return UNCHANGED  # events are never changed: a correction is recorded in fleetfuel
     if fields["component_kind"]:
         fields["component"] = component_fitted(
-            unit=unit, kind=fields["component_kind"], position=fields["cylinder"],
+            ctx, unit=unit, kind=fields["component_kind"], position=fields["cylinder"],
             column="component_kind",
         )  # fmt: skip
     recorded_by = ctx.user_get(values["recorded_by"], column="recorded_by")
     try:  # the ledger validates the event before it seals it
-        service_event_append(
-            unit=unit, kind=values["kind"], performed_at=at, recorded_by=recorded_by,
-            recorded_at=recorded_at, **fields,
-        )  # fmt: skip
+        ctx.writes.event_append(unit=unit, entry={
+            "kind": values["kind"], "performed_at": at, "recorded_by": recorded_by,
+            "recorded_at": recorded_at, **fields,
+        })  # fmt: skip
     except ValidationError as exc:
         raise validation_refusal(exc, columns=EVENT_COLUMNS) from None
+    recorded.add(key)
     return CREATED
+
+
+_KEY_FIELDS = ("component_kind", "cylinder", "measurement_name")
+
+
+def _events_recorded(unit: Any) -> set[tuple[Any, ...]]:
+    """What names an event of the unit already recorded: (kind, performed_at, *_KEY_FIELDS)."""
+    rows = ServiceEvent.objects.filter(unit=unit).values_list("kind", "performed_at", *_KEY_FIELDS)
+    return set(rows)
 
 
 def service_event_rows() -> Iterator[dict[str, Any]]:
@@ -195,7 +205,7 @@ LAYOUTS = (
            sample_rows),
     Layout("service_events", "Past service events", SERVICE_EVENTS,
            ("unit", "site", "kind", "performed_at", "component_kind", "cylinder",
-            "measurement_name"), service_event_store, service_event_rows,
+            "measurement_name"), service_event_store, service_event_rows, bulk=True,
            note="Appended to each unit's hash chain in file order; never updated. "
                 "Each entry is exported as last corrected; corrections themselves and rule "
                 "overrides are not imported."),

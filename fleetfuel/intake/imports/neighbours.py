@@ -3,7 +3,8 @@
 Each unit's stored readings and meter replacements are read once per file (two queries) and
 kept sorted; each row's neighbours are found by bisection and the shared rule
 (``fleetfuel.fleet.checks.surroundings_refusal``, i.e. ``services.plausibility``) decides, as
-it does on every other path. A stored row joins the list, so later rows see it.
+it does on every other path. A stored row joins the list, so later rows see it (also before
+its chunk is written: batch.py).
 """
 
 from __future__ import annotations
@@ -22,7 +23,7 @@ from services.plausibility import Neighbour
 class _UnitReadings:
     times: list[datetime]
     hours: list[float]
-    pks: dict[datetime, int]
+    rows: dict[datetime, MeterReading]  # the stored row at an instant
     replaced: list[datetime]
 
 
@@ -35,19 +36,21 @@ class ReadingsNearby:
     def _load(self, unit: Unit) -> _UnitReadings:
         if unit.pk not in self._units:
             rows = MeterReading.objects.filter(unit=unit).order_by("taken_at", "pk")
-            times, hours, pks = [], [], {}
-            for pk, at, h in rows.values_list("pk", "taken_at", "hours"):
-                times.append(at)
-                hours.append(h)
-                pks[at] = pk
+            times, hours, stored = [], [], {}
+            for row in rows:
+                row.unit = unit
+                times.append(row.taken_at)
+                hours.append(row.hours)
+                stored[row.taken_at] = row
             replaced = sorted(
                 MeterReplacement.objects.filter(unit=unit).values_list("replaced_at", flat=True)
             )
-            self._units[unit.pk] = _UnitReadings(times, hours, pks, replaced)
+            self._units[unit.pk] = _UnitReadings(times, hours, stored, replaced)
         return self._units[unit.pk]
 
-    def existing_pk(self, unit: Unit, at: datetime) -> int | None:
-        return self._load(unit).pks.get(at)
+    def existing(self, unit: Unit, at: datetime) -> MeterReading | None:
+        """The unit's reading at ``at``, stored before the file or by an earlier row."""
+        return self._load(unit).rows.get(at)
 
     def refusal(self, unit: Unit, *, at: datetime, hours: float, now: datetime) -> str | None:
         """The shared rule for a reading of ``unit`` at ``at`` (one already stored at that
@@ -66,15 +69,16 @@ class ReadingsNearby:
         zone = ZoneInfo(unit.site.time_zone)
         return surroundings_refusal(around, at=at, hours=hours, now=now, zone=zone)
 
-    def stored(self, unit: Unit, *, at: datetime, hours: float, pk: int) -> None:
+    def stored(self, unit: Unit, *, row: MeterReading) -> None:
         u = self._load(unit)
-        if at in u.pks:
+        at, hours = row.taken_at, row.hours
+        if at in u.rows:
             u.hours[bisect_left(u.times, at)] = hours
         else:
             index = bisect_right(u.times, at)
             u.times.insert(index, at)
             u.hours.insert(index, hours)
-        u.pks[at] = pk
+        u.rows[at] = row
 
 
 def _any_between(times: list[datetime], start: datetime, end: datetime) -> bool:
