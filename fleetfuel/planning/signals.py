@@ -72,13 +72,19 @@ def _batch_mark_stale(unit_ids: list[int], reason: str) -> None:
         log.exception("units %s could not be marked stale either", unit_ids)
 
 
-@receiver(post_save, sender=MeterReading)
-@receiver(post_save, sender=MeterReplacement)
-@receiver(post_save, sender=Fueling)
-@receiver(post_save, sender=EngineEvent)
-@receiver(post_save, sender=ServiceEvent)
+# The records of a unit whose save queues the unit's recompute (a bulk insert sends no
+# post_save: whoever inserts these in bulk queues it, as intake/imports/batch.py does).
+UNIT_INPUTS: tuple[type[Any], ...] = (
+    MeterReading, MeterReplacement, Fueling, EngineEvent, ServiceEvent,
+)  # fmt: skip
+
+
 def _unit_input_saved(sender: Any, instance: Any, **kwargs: Any) -> None:
     unit_recompute_enqueue([instance.unit_id])
+
+
+for _model in UNIT_INPUTS:
+    post_save.connect(_unit_input_saved, sender=_model, dispatch_uid=f"recompute-{_model.__name__}")
 
 
 @receiver(post_save, sender=Unit)

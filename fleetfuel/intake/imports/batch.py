@@ -19,17 +19,13 @@ from typing import Any
 
 from django.db import models
 
-from fleetfuel.fleet.models import Fueling, MeterReading, Unit
+from fleetfuel.fleet.models import Unit
 from fleetfuel.ledger.actions import (
     service_event_append,
     service_event_check,
     service_events_append,
 )
-from fleetfuel.planning.signals import unit_recompute_enqueue
-
-# The models whose save queues a recompute of the unit (fleetfuel/planning/signals.py), among
-# those a bulk layout creates (components queue none).
-_RECOMPUTED: tuple[type[models.Model], ...] = (MeterReading, Fueling)
+from fleetfuel.planning.signals import UNIT_INPUTS, unit_recompute_enqueue
 
 
 class Writes:
@@ -69,7 +65,7 @@ class Writes:
             obj.save()  # sends post_save, which queues its own recompute
         for model, objs in self._creates.items():
             model._default_manager.bulk_create(objs)
-            if model in _RECOMPUTED:
+            if model in UNIT_INPUTS:
                 recompute.update(obj.unit_id for obj in objs)  # type: ignore[attr-defined]
         for unit, entries in self._events.values():
             service_events_append(unit=unit, entries=entries)
