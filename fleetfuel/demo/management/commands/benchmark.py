@@ -90,6 +90,12 @@ class Command(BaseCommand):
         if connection.vendor == "postgresql":
             result["meta"]["database"] = f"PostgreSQL {connection.pg_version // 10000}"
             with connection.cursor() as cursor:
+                # The tables as autovacuum leaves them in service (fresh statistics, the
+                # visibility map set), not as a bulk load just left them: pages are timed on
+                # the database a shop would run, after the projection wrote 30,000 items.
+                # (Not possible inside a transaction: the smoke test's run skips it.)
+                if not connection.in_atomic_block:
+                    cursor.execute("VACUUM ANALYZE")
                 cursor.execute("SELECT pg_database_size(current_database())")
                 result["meta"]["database_bytes"] = cursor.fetchone()[0]
         with override_settings(
