@@ -23,6 +23,7 @@ from django.db.models import Max
 
 from fleetfuel.fleet.models import (
     Component,
+    ComponentKind,
     Delivery,
     EngineEvent,
     FilterPressureReading,
@@ -39,6 +40,7 @@ from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.ledger.selectors import HistoryScope
 from fleetfuel.planning.runs import batch_recompute, run_start
 from fleetfuel.planning.selectors import LOOKBACK_DAYS
+from services.usage import FORECAST_WINDOW_DAYS
 
 
 def ms(fn: Callable[[], Any]) -> float:
@@ -89,19 +91,23 @@ def _table(model: Any) -> str:
 
 
 def _floor_batch(cursor: Any, ids: list[int], now: datetime) -> int:
-    """The projection's inputs for one batch, read by plain SQL: rows fetched and counted."""
+    """The projection's inputs for one batch, read by plain SQL (every column of the rows the
+    engine reads: the same tables, kinds and time windows): rows fetched and counted."""
     since = now - timedelta(days=LOOKBACK_DAYS)
     marks = ", ".join(["%s"] * len(ids))
     within = f"unit_id IN ({marks})"
+    filters = ", ".join(f"'{k}'" for k in (ComponentKind.PRIMARY_FILTER, ComponentKind.FINE_FILTER))
     statements: list[tuple[str, list[Any]]] = [
         (f"SELECT * FROM {_table(Unit)} WHERE id IN ({marks})", ids),
-        (f"SELECT * FROM {_table(Component)} WHERE {within} AND removed_on IS NULL", ids),
+        (f"SELECT * FROM {_table(Component)} WHERE {within} AND removed_on IS NULL "
+         f"AND kind IN ({filters})", ids),
         (f"SELECT * FROM {_table(ServicePlan)} WHERE unit_class_id IN "
          f"(SELECT unit_class_id FROM {_table(Unit)} WHERE id IN ({marks}))", ids),
-        (f"SELECT * FROM {_table(MeterReading)} WHERE {within} AND taken_at <= %s", [*ids, now]),
+        (f"SELECT * FROM {_table(MeterReading)} WHERE {within} AND taken_at >= %s "
+         "AND taken_at <= %s", [*ids, now - timedelta(days=FORECAST_WINDOW_DAYS), now]),
         (f"SELECT * FROM {_table(MeterReplacement)} WHERE {within}", ids),
-        (f"SELECT * FROM {_table(ServiceEvent)} WHERE {within} AND performed_at <= %s",
-         [*ids, now]),
+        (f"SELECT * FROM {_table(ServiceEvent)} WHERE {within} AND performed_at <= %s "
+         "AND kind IN ('filter_changed', 'separator_drained', 'correction')", [*ids, now]),
         (f"SELECT * FROM {_table(Fueling)} WHERE {within} AND fueled_at >= %s "
          "AND fueled_at <= %s", [*ids, since, now]),
         (f"SELECT * FROM {_table(FuelSample)} WHERE ({within} OR source_id IS NOT NULL) "

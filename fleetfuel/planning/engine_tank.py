@@ -93,8 +93,13 @@ def tank_loadings(
     fills = []
     measured = {id(s.quality) for s in tank_samples}
     words_of: dict[str, Callable[[], str]] = {}  # a fueling's words, made for those burned
+    of_quality: dict[int, tuple[float, bool]] = {}  # many fuelings share one sample's quality
     for fueling, quality in paired:
-        conc, assumed = fq.concentration_or_reference(quality=quality, channel=channel)
+        if id(quality) not in of_quality:
+            of_quality[id(quality)] = fq.concentration_or_reference(
+                quality=quality, channel=channel
+            )
+        conc, assumed = of_quality[id(quality)]
         words = quality.label if quality else "no sample: reference fuel assumed"
         source = sources.get(fueling.source_id) if fueling.source_id is not None else None
         if source and source.deliveries and id(quality) not in measured:
@@ -239,10 +244,10 @@ def tank_water(
     ``services.fuel_water.free_water_or_reference``'s; mg/kg is per kilogram, so the tank
     mixes the water per litre (mg/kg x kg/L) and the density, and divides."""
     densities = [(q.density_kg_l if q else None) or fq.DEFAULT_DENSITY_KG_L for _, q in paired]
+    free = partial(fw.free_water_or_reference, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c)
+    of_quality = {id(q): free(quality=q) for _, q in paired}  # once per sample, not per fueling
     per_litre = [
-        fw.free_water_or_reference(quality=q, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c)
-        * density
-        for (_, q), density in zip(paired, densities, strict=True)
+        of_quality[id(q)] * density for (_, q), density in zip(paired, densities, strict=True)
     ]
     reference = fw.free_water_or_reference(
         quality=None, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c

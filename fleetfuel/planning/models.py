@@ -86,11 +86,10 @@ class DueItem(models.Model):
             models.Index(fields=["site", "status", "due_on", "id"], name="dueitem_site_status_due"),
             models.Index(fields=["unit", "due_on"], name="dueitem_unit_due"),
             models.Index(
-                fields=["urgency", "late_from", "-late_hours", "id"],
+                # Depot and status after the unique id: the order is the same, and a page's
+                # ids are read from the index alone, its depots and status filtered there.
+                fields=["urgency", "late_from", "-late_hours", "id", "site", "status"],
                 name="dueitem_urgency",
-                # A page's ids read from the index alone, its depots and status filtered there
-                # (an index-only scan on PostgreSQL; elsewhere the plain index).
-                include=["site", "status"],
             ),
             models.Index(
                 fields=["site", "urgency", "late_from", "-late_hours", "id"],
