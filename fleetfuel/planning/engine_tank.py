@@ -245,7 +245,8 @@ def tank_water(
     mixes the water per litre (mg/kg x kg/L) and the density, and divides."""
     densities = [(q.density_kg_l if q else None) or fq.DEFAULT_DENSITY_KG_L for _, q in paired]
     free = partial(fw.free_water_or_reference, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c)
-    of_quality = {id(q): free(quality=q) for _, q in paired}  # once per sample, not per fueling
+    samples = {id(q): q for _, q in paired}  # many fuelings share one sample's quality
+    of_quality = {key: free(quality=q) for key, q in samples.items()}
     per_litre = [
         of_quality[id(q)] * density for (_, q), density in zip(paired, densities, strict=True)
     ]
