@@ -285,9 +285,11 @@ def tank_run(
     at_checkpoint = None
     t_prev = min([since, *(e[0] for e in events), *(t for t, _ in burned[:1])])
     litres_at = _path_reader(burned)
+    litres_prev = litres_at(t_prev)
     for at, order, event in [*(e for e in events if e[0] <= until), (until, 4, None)]:
-        _draw(tank, litres_at(at) - litres_at(t_prev), t_prev >= since)
-        t_prev = at
+        litres = litres_at(at)
+        _draw(tank, litres - litres_prev, t_prev >= since)
+        t_prev, litres_prev = at, litres
         if order == 3:
             at_checkpoint = tank.loading()
         elif isinstance(event, Fill):
@@ -341,7 +343,6 @@ def _draw(tank: _Tank, litres: float, counted: bool) -> None:
         return
     volume = tank.volume()
     held = min(litres, volume)
-    last_conc = tank.mix()
     if held > 0:
         fraction = held / volume
         tank.burned += tank.scale * fraction
@@ -352,8 +353,8 @@ def _draw(tank: _Tank, litres: float, counted: bool) -> None:
         if tank.volume() <= 0:
             tank.emptied_with = before
     excess = litres - held
-    if excess > 0:
-        parcel = _unlogged(tank, last_conc)
+    if excess > 0:  # the tank is empty now: its mix is the one it emptied at
+        parcel = _unlogged(tank, tank.mix())
         parcel.total += excess
         if counted:
             parcel.since += excess
