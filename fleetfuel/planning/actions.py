@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import gc
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
@@ -139,6 +142,22 @@ class RecomputeResult:
     flags: int
 
 
+@contextmanager
+def collector_paused() -> Iterator[None]:
+    """Python's cyclic garbage collector off for one batch. A batch holds its units' rows and
+    results at once (tens of thousands of objects), and every full collection walked them
+    all: about a fifth of a batch's time (measured, 1,000 synthetic units). What the batch
+    frees goes by reference counting as before; cycles wait for the collector, back on after
+    the batch (its memory is bounded by the batch size)."""
+    was_on = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_on:
+            gc.enable()
+
+
 def due_items_recompute(
     *,
     unit_ids: list[int],
@@ -156,6 +175,17 @@ def due_items_recompute(
     refreshed after; a full run's batches leave that to the run's end (runs.py), and pass
     the class life budgets the run worked out at its start (``lives``).
     """
+    with collector_paused():
+        return _recompute(unit_ids=unit_ids, now=now, sources=sources, lives=lives)
+
+
+def _recompute(
+    *,
+    unit_ids: list[int],
+    now: datetime,
+    sources: bool,
+    lives: dict[tuple[int, str], LifeBudget] | None,
+) -> RecomputeResult:
     marks = list(
         StaleProjection.objects.filter(unit_id__in=unit_ids).values_list("unit_id", "marked_at")
     )
@@ -238,6 +268,11 @@ def source_decisions_refresh(*, now: datetime) -> None:
     every unit an open decision lists: the batches skip the decisions (one query over the
     whole fleet's fuelings each), so the units the decisions name are worked out again here
     (their tank runs; a few units, not the fleet) and the decisions refreshed with them."""
+    with collector_paused():
+        _sources_refresh(now=now)
+
+
+def _sources_refresh(*, now: datetime) -> None:
     source_decisions_recompute(now=now)  # opens and closes decisions on the batches' rows
     listed = list(
         SourceDecisionUnit.objects.filter(decision__resolved_at__isnull=True)

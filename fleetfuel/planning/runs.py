@@ -13,7 +13,12 @@ from django.db.models import F
 from fleetfuel.fleet.models import ServicePlan, Unit
 from services.filter_life import LifeBudget, budget_from_json, budget_to_json
 
-from .actions import RecomputeResult, due_items_recompute, source_decisions_refresh
+from .actions import (
+    RecomputeResult,
+    collector_paused,
+    due_items_recompute,
+    source_decisions_refresh,
+)
 from .engine import FILTER_TASKS, filter_life_get
 from .models import ProjectionBatch, ProjectionRun
 from .selectors import BatchInputs, filter_changes_load
@@ -30,7 +35,8 @@ def run_start(
     the batches' ids, to queue. A run with no units is finished at once."""
     if unit_ids is None:
         unit_ids = list(Unit.objects.order_by("pk").values_list("pk", flat=True))
-    lives = run_lives(unit_ids=unit_ids, now=now)
+    with collector_paused():  # the whole classes' changes: many rows (actions.py)
+        lives = run_lives(unit_ids=unit_ids, now=now)
     with transaction.atomic():
         run = ProjectionRun.objects.create(
             started_at=now,
