@@ -146,16 +146,17 @@ def copy_statement_build(
     def col(lookup: str) -> str:
         return f"s.{alias[lookup]}"
 
-    # The kind's label, the mechanic's name and whether the row is in effect, worked out once
-    # per row (their parameters appear once) and formatted below like any text column.
+    # The kind's label and the mechanic's name, worked out once per row (their parameters
+    # appear once) and formatted below like any text column. Whether the row is in effect is
+    # read in the outer query from the sorted subquery's superseded_by: written here, beside
+    # the inner query's columns, PostgreSQL would run superseded_by's two subqueries again.
     kind, shown = col("kind"), f"COALESCE({col('effective_kind')}, {col('kind')})"
     whens = " ".join("WHEN %s THEN %s" for _ in KIND_LABELS)
     first, last, username = (col(lookup) for lookup in _MECHANIC_LOOKUPS)
     derived = (
         f"(CASE {shown} {whens} ELSE {shown} END) "
         f"|| CASE WHEN {kind} = %s THEN %s ELSE '' END AS nature, "
-        f"COALESCE(NULLIF(btrim({first} || ' ' || {last}, %s), ''), {username}) AS mechanic, "
-        f"CASE WHEN {col('superseded_by')} IS NULL THEN 'true' ELSE 'false' END AS in_effect"
+        f"COALESCE(NULLIF(btrim({first} || ' ' || {last}, %s), ''), {username}) AS mechanic"
     )
     params: list[object] = [str(part) for pair in KIND_LABELS.items() for part in pair]
     params += [str(CORRECTION), CORRECTION_SUFFIX, PYTHON_WHITESPACE]
@@ -163,8 +164,10 @@ def copy_statement_build(
     for name, lookup in COLUMNS:
         if lookup:
             cells.append(cell_sql_build(lookup=lookup, expr=col(lookup)))
-        elif name in {"nature", "mechanic", "in_effect"}:
+        elif name in {"nature", "mechanic"}:
             cells.append(_text_sql(f"s.{name}"))
+        elif name == "in_effect":
+            cells.append(_bool_sql(f"{col('superseded_by')} IS NULL"))
         else:
             raise ValueError(f"no source for column {name}")
     select = ", ".join(
