@@ -215,8 +215,9 @@ def copy_statement_build(
         f'{cell} AS "{name}"' for cell, (name, _) in zip(cells, COLUMNS, strict=True)
     )
     unit_id, seq = col("unit_id"), col("seq")
-    # Sorted narrow, formatted after: the subquery's order satisfies the outer ORDER BY, so
-    # PostgreSQL sorts the raw values once and never the wide formatted rows.
+    # Sorted narrow, formatted after (but for the unit's and the mechanic's cells, formatted
+    # once each before): the subquery's order satisfies the outer ORDER BY, so PostgreSQL
+    # sorts the raw values once and never the wide formatted rows.
     statement = (
         f"COPY (SELECT {select} FROM (SELECT s.*, u.*, m.mechanic, {nature} "
         f"FROM ({inner_sql}) s JOIN ({units_sql}) u ON u.unit_key = {unit_id} "
