@@ -27,8 +27,11 @@ from contextlib import suppress
 from typing import Any
 
 import psycopg
+from django.contrib.auth import get_user_model
 from django.db import connections
 from django.db.models import F, Field, ForeignKey, QuerySet
+
+from fleetfuel.fleet.models import Unit
 
 from .exports import (
     COLUMNS,
@@ -50,7 +53,6 @@ PYTHON_WHITESPACE = (
     "\u2007\u2008\u2009\u200a\u2028\u2029\u202f\u205f\u3000"
 )
 _TRIGGER_CODES = ", ".join(str(ord(c)) for c in FORMULA_TRIGGERS)
-_MECHANIC_LOOKUPS = ("recorded_by__first_name", "recorded_by__last_name", "recorded_by__username")
 _INTEGER_TYPES = {
     "AutoField", "BigAutoField", "SmallAutoField", "IntegerField", "BigIntegerField",
     "SmallIntegerField", "PositiveIntegerField", "PositiveBigIntegerField",
@@ -128,6 +130,37 @@ def cell_sql_build(*, lookup: str, expr: str) -> str:
     raise TypeError(f"no CSV cell form for {lookup} ({kind}): add one here and to cell_text")
 
 
+def _units_sql(
+    *, lookups: list[str], alias: Mapping[str, str], using: str
+) -> tuple[str, list[object]]:
+    """Each unit's cells (site, fleet number, ...), formatted once per unit, by unit id.
+
+    OFFSET 0 keeps PostgreSQL from merging the subquery into the export's query, where the
+    cells would be formatted again for every row."""
+    units = Unit.objects.order_by().values(
+        unit_key=F("pk"), **{alias[lookup]: F(lookup.removeprefix("unit__")) for lookup in lookups}
+    )
+    sql, params = units.query.get_compiler(using=using).as_sql()
+    cells = ", ".join(
+        f"{cell_sql_build(lookup=lookup, expr=f'u.{alias[lookup]}')} AS {alias[lookup]}"
+        for lookup in lookups
+    )
+    return f"SELECT u.unit_key, {cells} FROM ({sql}) u OFFSET 0", list(params)
+
+
+def _mechanics_sql(*, using: str) -> tuple[str, list[object]]:
+    """Each person's mechanic cell (full name, else user name), formatted once, by user id."""
+    people = get_user_model().objects.order_by()
+    people = people.values("first_name", "last_name", "username", user_key=F("pk"))
+    sql, params = people.query.get_compiler(using=using).as_sql()
+    name = "COALESCE(NULLIF(btrim(m.first_name || ' ' || m.last_name, %s), ''), m.username)"
+    cell = _text_sql(name)
+    return (
+        f"SELECT m.user_key, {cell} AS mechanic FROM ({sql}) m OFFSET 0",
+        [PYTHON_WHITESPACE] * cell.count("%s") + list(params),
+    )
+
+
 def copy_statement_build(
     *, events: QuerySet[ServiceEvent], heads: Mapping[int, int]
 ) -> tuple[str, list[object]]:
@@ -135,51 +168,66 @@ def copy_statement_build(
 
     Django compiles the filtered query (the scope's joins and conditions) with one alias per
     lookup; around it, the heads noted at the start cut each unit's chain, and every cell is
-    formatted. Rows come by unit and seq, as in ``exports.export_rows``.
+    formatted: the unit's cells and the mechanic's once per unit and per person, the others
+    once per row. Rows come by unit and seq, as in ``exports.export_rows``.
     """
-    lookups = [lookup for _, lookup in COLUMNS if lookup] + list(_MECHANIC_LOOKUPS)
-    alias = {lookup: f"c{i}" for i, lookup in enumerate(dict.fromkeys(lookups))}
+    lookups = [lookup for _, lookup in COLUMNS if lookup]
+    alias = {lookup: f"c{i}" for i, lookup in enumerate(lookups)}
+    per_unit = [lookup for lookup in lookups if lookup.startswith("unit__")]
     inner = view_annotate(events).order_by()
-    inner = inner.values(**{a: F(lookup) for lookup, a in alias.items()})
+    inner = inner.values(
+        **{alias[lookup]: F(lookup) for lookup in lookups if lookup not in per_unit}
+    )
     inner_sql, inner_params = inner.query.get_compiler(using=events.db).as_sql()
+    units_sql, units_params = _units_sql(lookups=per_unit, alias=alias, using=events.db)
+    mechanics_sql, mechanics_params = _mechanics_sql(using=events.db)
 
     def col(lookup: str) -> str:
         return f"s.{alias[lookup]}"
 
-    # The kind's label, the mechanic's name and whether the row is in effect, worked out once
-    # per row (their parameters appear once) and formatted below like any text column.
+    # The kind's label, worked out once per row (its parameters appear once) and formatted
+    # below like any text column. Whether the row is in effect is read in the outer query
+    # from the sorted subquery's superseded_by: written here, beside the inner query's
+    # columns, PostgreSQL would run superseded_by's two subqueries again.
     kind, shown = col("kind"), f"COALESCE({col('effective_kind')}, {col('kind')})"
     whens = " ".join("WHEN %s THEN %s" for _ in KIND_LABELS)
-    first, last, username = (col(lookup) for lookup in _MECHANIC_LOOKUPS)
-    derived = (
+    nature = (
         f"(CASE {shown} {whens} ELSE {shown} END) "
-        f"|| CASE WHEN {kind} = %s THEN %s ELSE '' END AS nature, "
-        f"COALESCE(NULLIF(btrim({first} || ' ' || {last}, %s), ''), {username}) AS mechanic, "
-        f"CASE WHEN {col('superseded_by')} IS NULL THEN 'true' ELSE 'false' END AS in_effect"
+        f"|| CASE WHEN {kind} = %s THEN %s ELSE '' END AS nature"
     )
     params: list[object] = [str(part) for pair in KIND_LABELS.items() for part in pair]
-    params += [str(CORRECTION), CORRECTION_SUFFIX, PYTHON_WHITESPACE]
+    params += [str(CORRECTION), CORRECTION_SUFFIX]
     cells = []
     for name, lookup in COLUMNS:
-        if lookup:
+        if lookup in per_unit:
+            cells.append(col(lookup))  # formatted in _units_sql
+        elif lookup:
             cells.append(cell_sql_build(lookup=lookup, expr=col(lookup)))
-        elif name in {"nature", "mechanic", "in_effect"}:
-            cells.append(_text_sql(f"s.{name}"))
+        elif name == "nature":
+            cells.append(_text_sql("s.nature"))
+        elif name == "mechanic":
+            cells.append("s.mechanic")  # formatted in _mechanics_sql
+        elif name == "in_effect":
+            cells.append(_bool_sql(f"{col('superseded_by')} IS NULL"))
         else:
             raise ValueError(f"no source for column {name}")
     select = ", ".join(
         f'{cell} AS "{name}"' for cell, (name, _) in zip(cells, COLUMNS, strict=True)
     )
     unit_id, seq = col("unit_id"), col("seq")
-    # Sorted narrow, formatted after: the subquery's order satisfies the outer ORDER BY, so
-    # PostgreSQL sorts the raw values once and never the wide formatted rows.
+    # Sorted narrow, formatted after (but for the unit's and the mechanic's cells, formatted
+    # once each before): the subquery's order satisfies the outer ORDER BY, so PostgreSQL
+    # sorts the raw values once and never the wide formatted rows.
     statement = (
-        f"COPY (SELECT {select} FROM (SELECT s.*, {derived} FROM ({inner_sql}) s "
+        f"COPY (SELECT {select} FROM (SELECT s.*, u.*, m.mechanic, {nature} "
+        f"FROM ({inner_sql}) s JOIN ({units_sql}) u ON u.unit_key = {unit_id} "
+        f"JOIN ({mechanics_sql}) m ON m.user_key = {col('recorded_by_id')} "
         "JOIN unnest(%s::bigint[], %s::bigint[]) AS h(unit_id, head_seq) "
         f"ON h.unit_id = {unit_id} AND {seq} <= h.head_seq ORDER BY {unit_id}, {seq}) s "
         f"ORDER BY {unit_id}, {seq}) TO STDOUT WITH (FORMAT csv, HEADER)"
     )
-    return statement, [*params, *inner_params, list(heads), list(heads.values())]
+    params += [*inner_params, *units_params, *mechanics_params, list(heads), list(heads.values())]
+    return statement, params
 
 
 def line_ends_convert(*, block: bytes) -> bytes:
