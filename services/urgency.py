@@ -99,7 +99,7 @@ def lateness(
 def timing_words(
     *, days_late: int, hours_late: float, estimate: bool = False, style: str | None = None
 ) -> str:
-    """'overdue by 3 d · 38 h' or 'due in 5 d · 40 h': days and engine hours, whole numbers in
+    """'overdue by 3 d · 38 h', 'due in 5 d · 40 h' or 'due now': days and engine hours, whole numbers in
     the depot's display style, a no-break space before each unit (a part not past shows 0).
     ``estimate``: the overrun of an estimate, said as one."""
     if days_late > 0 or hours_late >= 0.5:
@@ -107,4 +107,6 @@ def timing_words(
         lead = "est. overdue by" if estimate else "overdue by"
     else:
         days, hours, lead = -days_late, max(0.0, -hours_late), "due in"
+        if days == 0 and hours < 0.5:  # "due in 0 d · 0 h" reads as a fault: it is due today
+            return "due now"
     return f"{lead} {number_text(days, style)}{NBSP}d · {hours_text(hours, style)}"

@@ -141,7 +141,8 @@ def test_lateness_of_a_due_point_is_its_date_and_hours_left() -> None:
         (3, -5.0, False, "overdue by 3 d · 0 h"),  # a calendar limit passed, an idle unit
         (5, 38.0, True, "est. overdue by 5 d · 38 h"),
         (-4, -41.6, False, "due in 4 d · 42 h"),
-        (0, 0.0, False, "due in 0 d · 0 h"),
+        (0, 0.0, False, "due now"),  # nothing left of either: not "due in 0 d · 0 h"
+        (0, -3.0, False, "due in 0 d · 3 h"),
         (-400, -4_000.0, False, "due in 400 d · 4,000 h"),
     ],
 )
