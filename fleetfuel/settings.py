@@ -9,6 +9,7 @@ a message that names the variable.
 
 from __future__ import annotations
 
+import copy
 import os
 from datetime import timedelta
 from email.utils import parseaddr
@@ -236,7 +237,11 @@ def env_database(name: str, default: str) -> dict[str, Any]:
 DATABASES = {"default": env_database("DATABASE_URL", _default_sqlite)}
 DATABASE_REPLICA_READS = bool(env_str("DATABASE_REPLICA_URL", ""))
 if DATABASE_REPLICA_READS or TESTING:
-    _replica = env_database("DATABASE_REPLICA_URL", env_str("DATABASE_URL", _default_sqlite))
+    _replica = (
+        env_database("DATABASE_REPLICA_URL", "")
+        if DATABASE_REPLICA_READS
+        else copy.deepcopy(DATABASES["default"])  # tests without one: the default, parsed once
+    )
     DATABASES["replica"] = {**_replica, "TEST": {"MIRROR": "default"}}
 DATABASE_ROUTERS = ["fleetfuel.dbrouters.PrimaryRouter"]
 if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":

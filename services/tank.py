@@ -205,7 +205,7 @@ class _Tank:
     def holds(self) -> list[tuple[_Parcel, float]]:
         """What the tank's mix is of: each parcel and its litres now, or, if the tank is
         empty, those it held when a draw emptied it."""
-        now = [(p, self.held(p)) for p in self.live if self.held(p) > 0]
+        now = [(p, litres) for p in self.live if (litres := self.held(p)) > 0]
         return now or self.emptied_with
 
     def volume(self) -> float:

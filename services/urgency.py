@@ -99,8 +99,9 @@ def lateness(
 def timing_words(
     *, days_late: int, hours_late: float, estimate: bool = False, style: str | None = None
 ) -> str:
-    """'overdue by 3 d · 38 h', 'due in 5 d · 40 h' or 'due now': days and engine hours, whole numbers in
-    the depot's display style, a no-break space before each unit (a part not past shows 0).
+    """'overdue by 3 d · 38 h', 'due in 5 d · 40 h' or 'due now': days and engine hours,
+    whole numbers in the depot's display style, a no-break space before each unit (a part not
+    past shows 0).
     ``estimate``: the overrun of an estimate, said as one."""
     if days_late > 0 or hours_late >= 0.5:
         days, hours = max(0, days_late), max(0.0, hours_late)

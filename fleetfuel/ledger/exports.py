@@ -22,7 +22,7 @@ from django.db.models import QuerySet
 from services.ledger import canonical_value
 
 from .actions import CONTENT_FIELDS
-from .effective import EFFECTIVE_KIND, SUPERSEDED_BY
+from .effective import CORRECTION, EFFECTIVE_KIND, SUPERSEDED_BY
 from .models import ServiceEvent
 
 CHUNK = 2000
@@ -34,7 +34,6 @@ XLSX_MAX_ROWS = 1_048_576  # Excel's sheet limit, the header row included
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r", "'")
 
 KIND_LABELS = dict(ServiceEvent.Kind.choices)
-CORRECTION = ServiceEvent.Kind.CORRECTION
 CORRECTION_SUFFIX = " (correction)"
 
 # The corrected view beside the recorded rows (fleetfuel/ledger/effective.py): every row is

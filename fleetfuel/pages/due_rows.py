@@ -49,7 +49,6 @@ STALE = SafeString(
     ' <span class="badge st-due" title="Its inputs changed and the recompute is still owed; it '
     'runs within minutes.">Out of date: recompute pending</span>'
 )
-COUNT_LABELS = {DueItem.Status.CHECK: "Check dP first", DueItem.Status.OK: "OK"}
 _PK = 987654321  # a placeholder id: links are made by replacing it, not by reverse() per row
 
 
@@ -135,7 +134,7 @@ def _status_badges() -> dict[str, SafeString]:
             '<span class="badge st-{}" title="{}">{}</span>',
             value,
             STATUS_TITLES.get(value, ""),
-            COUNT_LABELS.get(value, label),
+            label,
         )
         for value, label in DueItem.Status.choices
     }
@@ -218,7 +217,7 @@ def count_chips(counts: dict[str, int]) -> list[tuple[str, str, str]]:
     return [
         (
             status,
-            COUNT_LABELS.get(status, str(DueItem.Status(status).label)),
+            str(DueItem.Status(status).label),
             f"{COUNT_CAP:,}+" if n > COUNT_CAP else f"{n:,}",
         )
         for status, n in counts.items()

@@ -3,9 +3,6 @@
 from __future__ import annotations
 
 import random
-import statistics
-import time
-from collections.abc import Callable
 from datetime import date, datetime, timedelta
 from typing import Any
 
@@ -96,22 +93,6 @@ def synthetic_fleet_make(
             )
     DueItem.objects.bulk_create(items, batch_size=5000)
     return units
-
-
-def medians(fn: Callable[[], Any], *, runs: int) -> dict[str, float]:
-    """Run ``fn`` once to warm up, then ``runs`` times; times in milliseconds."""
-    fn()
-    samples = []
-    for _ in range(runs):
-        start = time.perf_counter()
-        fn()
-        samples.append((time.perf_counter() - start) * 1000)
-    return {
-        "median_ms": round(statistics.median(samples), 1),
-        "min_ms": round(min(samples), 1),
-        "max_ms": round(max(samples), 1),
-        "runs": runs,
-    }
 
 
 def synthetic_history_make(

@@ -250,9 +250,7 @@ def tank_water(
     per_litre = [
         of_quality[id(q)] * density for (_, q), density in zip(paired, densities, strict=True)
     ]
-    reference = fw.free_water_or_reference(
-        quality=None, reference_mg_kg=reference_mg_kg, coldest_c=coldest_c
-    )
+    reference = free(quality=None)
     figures: list[Figure] = [(per_litre, reference * fq.DEFAULT_DENSITY_KG_L)]
     if any(d != fq.DEFAULT_DENSITY_KG_L for d in densities):  # else nothing to mix
         figures.append((densities, fq.DEFAULT_DENSITY_KG_L))
