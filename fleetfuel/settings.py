@@ -193,6 +193,7 @@ MIDDLEWARE = [
 ROOT_URLCONF = "fleetfuel.urls"
 WSGI_APPLICATION = "fleetfuel.wsgi.application"
 ASGI_APPLICATION = "fleetfuel.asgi.application"
+FORM_RENDERER = "fleetfuel.renderers.FormRenderer"  # common widgets without templates
 
 TEMPLATES = [
     {

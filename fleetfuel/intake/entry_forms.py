@@ -15,6 +15,7 @@ from django.utils import timezone
 
 from fleetfuel.fleet.checks import fueling_refusal_for
 from fleetfuel.fleet.models import Delivery, EngineEvent, FuelSample, Site, Unit
+from fleetfuel.renderers import ModelChoiceField
 from services import units
 from services.plausibility import time_refusal
 
@@ -145,7 +146,7 @@ def unit_field(required: bool = True) -> forms.CharField:
 
 class FuelingForm(SiteForm):
     unit = unit_field()
-    source = forms.ModelChoiceField(queryset=None, required=False, empty_label="(not recorded)")
+    source = ModelChoiceField(queryset=None, required=False, empty_label="(not recorded)")
     fueled_at = SiteTimeField(label="Time", what="fueling")
     amount = AmountField(label="Fuel", volume=True)
 
@@ -164,7 +165,7 @@ class RoundForm(SiteForm):
 
 
 class DeliveryForm(SiteForm):
-    source = forms.ModelChoiceField(
+    source = ModelChoiceField(
         queryset=None, label="Into (tank or bowser)", empty_label="(choose)"
     )
     delivered_at = SiteTimeField(label="Delivered at", what="delivery")
@@ -236,8 +237,8 @@ class SampleTieForm(SiteForm):
 
     TIES = [("source", "A fuel source"), ("delivery", "A delivery"), ("unit", "A unit's tank")]
     taken_from = forms.ChoiceField(choices=TIES, widget=forms.RadioSelect, initial="source")
-    source = forms.ModelChoiceField(queryset=None, required=False, empty_label="(choose)")
-    delivery = forms.ModelChoiceField(queryset=None, required=False, empty_label="(choose)")
+    source = ModelChoiceField(queryset=None, required=False, empty_label="(choose)")
+    delivery = ModelChoiceField(queryset=None, required=False, empty_label="(choose)")
     unit = unit_field(required=False)
 
     def clean(self) -> dict[str, Any]:

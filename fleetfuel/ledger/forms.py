@@ -11,6 +11,7 @@ from django.utils import timezone
 
 from fleetfuel.accounts.hygiene import DateValidator, QuantityValidator, TextValidator
 from fleetfuel.fleet.models import Component, ComponentKind, Site, Unit
+from fleetfuel.renderers import ModelChoiceField
 from services import bounds
 from services.rules import cylinder_numbers
 
@@ -23,7 +24,7 @@ _LINE = TextValidator(multiline=False)  # names, serials: one line (accounts/hyg
 
 
 class HistoryFilterForm(forms.Form):
-    site = forms.ModelChoiceField(
+    site = ModelChoiceField(
         queryset=Site.objects.none(), required=False, empty_label="All sites"
     )
     unit = forms.CharField(

@@ -9,6 +9,7 @@ from django.db.models import QuerySet
 
 from fleetfuel.accounts.models import Profile
 from fleetfuel.fleet.models import Site, UnitClass
+from fleetfuel.renderers import ModelChoiceField
 
 from .models import DueItem
 from .source_models import SourceDecision
@@ -17,10 +18,10 @@ from .source_models import SourceDecision
 class DueFilterForm(forms.Form):
     """The due list's filters: a plain GET form (works without JavaScript)."""
 
-    site = forms.ModelChoiceField(
+    site = ModelChoiceField(
         queryset=Site.objects.none(), required=False, empty_label="All sites"
     )
-    unit_class = forms.ModelChoiceField(
+    unit_class = ModelChoiceField(
         queryset=UnitClass.objects.none(), required=False, empty_label="All classes"
     )
     task = forms.ChoiceField(choices=[("", "All tasks"), *DueItem.Task.choices], required=False)
