@@ -71,6 +71,26 @@ class DueRow:
     basis_long: str
     order: SafeString  # the work order holding it, linked (empty when none)
 
+    def html(self) -> SafeString:
+        """The row and its explanation row (filled on "Why?"), made here in one string: a
+        page of rows through the template engine cost more than the rest of the page."""
+        detail = f"detail-{self.pk}"
+        return SafeString(
+            f'<tr id="row-{self.pk}" class="due-row">'
+            f'<td class="c-sel">{self.select}</td>'
+            f'<td class="c-unit">{self.unit}</td>'
+            f'<td class="c-site">{esc(self.site_name)}</td>'
+            f'<td class="c-task" title="{esc(self.task_long)}">{esc(self.task_short)}</td>'
+            f'<td class="c-status">{self.status}</td>'
+            f'<td class="c-when" title="{esc(self.timing_title)}">{esc(self.timing)}</td>'
+            f'<td class="c-basis" title="{esc(self.basis_long)}">{esc(self.basis_short)}</td>'
+            f'<td class="c-wo">{self.order}</td>'
+            f'<td class="c-why"><a class="btn why" href="{self.detail_url}" '
+            f'hx-get="{self.detail_url}" hx-target="#{detail}" hx-swap="innerHTML" '
+            f'aria-controls="{detail}">Why?</a></td></tr>\n'
+            f'<tr class="detail"><td colspan="9" id="{detail}" class="explain"></td></tr>\n'
+        )
+
 
 @dataclass(slots=True)
 class DueGroup:
