@@ -26,7 +26,7 @@ CHOICES = [
     ("", "All sites"),
     (1, "North <depot> & yard"),
     ("2", gettext_lazy("Lazy label")),
-    ("Group \"A\"", [(3, "Three"), (4, 'Four "quoted"')]),
+    ('Group "A"', [(3, "Three"), (4, 'Four "quoted"')]),
     (5.5, 12345),
 ]
 ATTRS = {"id": "id_x", "class": "a b", "required": True, "disabled": False, "min": 0,

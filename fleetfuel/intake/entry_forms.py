@@ -165,9 +165,7 @@ class RoundForm(SiteForm):
 
 
 class DeliveryForm(SiteForm):
-    source = ModelChoiceField(
-        queryset=None, label="Into (tank or bowser)", empty_label="(choose)"
-    )
+    source = ModelChoiceField(queryset=None, label="Into (tank or bowser)", empty_label="(choose)")
     delivered_at = SiteTimeField(label="Delivered at", what="delivery")
     amount = AmountField(label="Delivered", volume=True, minimum=1)
     supplier = forms.CharField(max_length=100, required=False)

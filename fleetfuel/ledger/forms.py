@@ -24,9 +24,7 @@ _LINE = TextValidator(multiline=False)  # names, serials: one line (accounts/hyg
 
 
 class HistoryFilterForm(forms.Form):
-    site = ModelChoiceField(
-        queryset=Site.objects.none(), required=False, empty_label="All sites"
-    )
+    site = ModelChoiceField(queryset=Site.objects.none(), required=False, empty_label="All sites")
     unit = forms.CharField(
         label="Unit (fleet number)",
         required=False,

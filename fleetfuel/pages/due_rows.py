@@ -167,7 +167,7 @@ TASK_LONG = {value: str(label) for value, label in DueItem.Task.choices}
 def _row(item: Any, today: date, links: _Links, flags: list[UnitFlag]) -> DueRow:
     """One row's strings; every text from the database is escaped here (html.escape)."""
     unit = item.unit
-    style = unit.site.display_style or display.DEFAULT_STYLE
+    style = item.site_style or display.DEFAULT_STYLE
     timing, timing_title = _timing(item, today, style)
     task_long = TASK_LONG.get(item.task, item.task)
     fleet_number = esc(unit.fleet_number)
@@ -190,9 +190,9 @@ def _row(item: Any, today: date, links: _Links, flags: list[UnitFlag]) -> DueRow
         select=SafeString(select),
         unit=SafeString(
             f'<a href="{links.of(links.unit, item.unit_id)}">{fleet_number}</a>{_flags(flags)} '
-            f'<span class="muted small">{esc(unit.unit_class.name)}</span>'
+            f'<span class="muted small">{esc(item.class_name)}</span>'
         ),
-        site_name=unit.site.name,
+        site_name=item.site_name,
         task_short=TASK_SHORT.get(item.task, item.task),
         task_long=task_long,
         status=SafeString(STATUS_BADGES[item.status] + (STALE if item.projection_stale else "")),

@@ -12,11 +12,17 @@ from datetime import date, timedelta
 from typing import Any
 
 from django.db import connection
-from django.db.models import Exists, OuterRef, QuerySet
+from django.db.models import Exists, F, OuterRef, QuerySet
 
 from .models import DueItem, UnitFlag
 
 PAGE_SIZE = 50
+# What a row of the list shows or sorts by; any other field loads on first use.
+ROW_FIELDS = (
+    "id", "unit_id", "site_id", "component_id", "task", "status", "rank", "urgency",
+    "late_hours", "late_from", "basis", "due_hours", "hours_left", "due_on", "earliest_on",
+    "latest_on", "projection_stale", "source_decision_id",
+)  # fmt: skip
 COUNT_CAP = 1000  # counts above it show as "1,000+": nobody reads further, nothing counts it
 SORTS = {
     # What to do first (services.urgency), on the (urgency, late_from, -late_hours, id) index.
@@ -93,18 +99,24 @@ def due_page(
     counts = status_counts(base)
     qs = base.filter(status=data["status"]) if data.get("status") else base
     page = data.get("page") or 1
-    # Query 2: one page of rows (+1 to know if there is a next page), with unit, site and
-    # class joined, the open source decision of each, and the caller's annotations. The page's
-    # ids are picked by a subquery of ids alone, so a deep page skips narrow index entries,
-    # not joined rows with their annotations worked out.
+    # Query 2: one page of rows (+1 to know if there is a next page): the columns a row shows,
+    # the unit (its fleet number), the depot's name and display style and the class's name as
+    # columns (not three model instances a row), and the caller's annotations. The page's ids
+    # are picked by a subquery of ids alone, so a deep page skips narrow index entries, not
+    # joined rows with their annotations worked out.
     order = SORTS.get(data.get("sort") or "urgency", SORTS["urgency"])
     window = qs.order_by(*order).values("id")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
     rows = list(
         DueItem.objects.filter(pk__in=window)
-        .select_related("unit", "unit__site", "unit__unit_class")
-        .annotate(**(annotations or {}))
+        .select_related("unit")
+        .only(*ROW_FIELDS, "unit__fleet_number", "unit__site_id", "unit__unit_class_id")
+        .annotate(
+            site_name=F("unit__site__name"),
+            site_style=F("unit__site__display_style"),
+            class_name=F("unit__unit_class__name"),
+            **(annotations or {}),
+        )
         .order_by(*order)
-        .defer("inputs", "explanation")
     )
     has_next = len(rows) > PAGE_SIZE
     rows = rows[:PAGE_SIZE]

@@ -18,9 +18,7 @@ from .source_models import SourceDecision
 class DueFilterForm(forms.Form):
     """The due list's filters: a plain GET form (works without JavaScript)."""
 
-    site = ModelChoiceField(
-        queryset=Site.objects.none(), required=False, empty_label="All sites"
-    )
+    site = ModelChoiceField(queryset=Site.objects.none(), required=False, empty_label="All sites")
     unit_class = ModelChoiceField(
         queryset=UnitClass.objects.none(), required=False, empty_label="All classes"
     )

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from django.db.models import Count, Exists, OuterRef, Q, QuerySet, Subquery
+from django.db.models import Count, OuterRef, Q, QuerySet, Subquery
 from django.db.models.functions import Coalesce
 
 from fleetfuel.accounts.access import site_ids_for_user, user_role
@@ -137,18 +137,12 @@ def _open_work_order_tasks() -> QuerySet[WorkOrderTask]:
     )
 
 
-def due_item_in_open_work_order() -> Exists:
-    """Whether a due item (the outer row of a query) is a task of an open work order."""
-    return Exists(_open_work_order_tasks().filter(due_item_id=OuterRef("pk")))
-
-
 def due_item_open_work_order() -> dict[str, Any]:
-    """Annotations of a due item (the outer row of a query): whether an open work order holds
-    it (``in_work_order``), and which one (``open_work_order_id``, ``open_work_order_number``;
-    None when none). Subqueries of the same query: no query more."""
+    """Annotations of a due item (the outer row of a query): the open work order that holds
+    it (``open_work_order_id``, ``open_work_order_number``; None when none). Subqueries of the
+    same query: no query more."""
     held = _open_work_order_tasks().filter(due_item_id=OuterRef("pk")).order_by("work_order_id")
     return {
-        "in_work_order": due_item_in_open_work_order(),
         "open_work_order_id": Subquery(held.values("work_order_id")[:1]),
         "open_work_order_number": Subquery(held.values("work_order__number")[:1]),
     }

@@ -111,7 +111,7 @@ def test_the_due_list_is_told_which_open_work_order_holds_an_item(
         for i in DueItem.objects.filter(unit=unit).annotate(**selectors.due_item_open_work_order())
     }
     held = rows[drain.pk]
-    assert held.in_work_order and held.open_work_order_id == first.pk
+    assert held.open_work_order_id == first.pk
     assert held.open_work_order_number == first.number
     free = next(i for i in rows.values() if i.pk != drain.pk)
-    assert not free.in_work_order and free.open_work_order_id is None
+    assert free.open_work_order_id is None and free.open_work_order_number is None
