@@ -166,11 +166,10 @@ TASK_LONG = {value: str(label) for value, label in DueItem.Task.choices}
 
 def _row(item: Any, today: date, links: _Links, flags: list[UnitFlag]) -> DueRow:
     """One row's strings; every text from the database is escaped here (html.escape)."""
-    unit = item.unit
     style = item.site_style or display.DEFAULT_STYLE
     timing, timing_title = _timing(item, today, style)
     task_long = TASK_LONG.get(item.task, item.task)
-    fleet_number = esc(unit.fleet_number)
+    fleet_number = esc(item.fleet_number)
     if getattr(item, "open_work_order_id", None):
         select = '<span class="muted" title="Already in an open work order">\u2014</span>'
         number = esc(item.open_work_order_number)

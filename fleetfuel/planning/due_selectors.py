@@ -99,18 +99,18 @@ def due_page(
     counts = status_counts(base)
     qs = base.filter(status=data["status"]) if data.get("status") else base
     page = data.get("page") or 1
-    # Query 2: one page of rows (+1 to know if there is a next page): the columns a row shows,
-    # the unit (its fleet number), the depot's name and display style and the class's name as
-    # columns (not three model instances a row), and the caller's annotations. The page's ids
-    # are picked by a subquery of ids alone, so a deep page skips narrow index entries, not
-    # joined rows with their annotations worked out.
+    # Query 2: one page of rows (+1 to know if there is a next page): the columns a row shows;
+    # the unit's fleet number, the depot's name and display style and the class's name as
+    # columns (not three more model instances a row); the caller's annotations. The page's
+    # ids are picked by a subquery of ids alone, so a deep page skips narrow index entries,
+    # not joined rows with their annotations worked out.
     order = SORTS.get(data.get("sort") or "urgency", SORTS["urgency"])
     window = qs.order_by(*order).values("id")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
     rows = list(
         DueItem.objects.filter(pk__in=window)
-        .select_related("unit")
-        .only(*ROW_FIELDS, "unit__fleet_number", "unit__site_id", "unit__unit_class_id")
+        .only(*ROW_FIELDS)
         .annotate(
+            fleet_number=F("unit__fleet_number"),
             site_name=F("unit__site__name"),
             site_style=F("unit__site__display_style"),
             class_name=F("unit__unit_class__name"),
