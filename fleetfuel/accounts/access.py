@@ -18,7 +18,7 @@ from typing import Any, TypeVar
 from django.apps import apps
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
-from django.db.models import Q, QuerySet
+from django.db.models import Exists, Q, QuerySet
 from django.http import Http404, HttpRequest, HttpResponse
 from django.shortcuts import get_object_or_404
 
@@ -82,16 +82,17 @@ def require_write(user: Any) -> None:
 
 
 def sites_for_user(user: Any) -> QuerySet[Any]:
-    """The sites a person may see."""
+    """The sites a person may see: the sites their profile names; managers and auditors who
+    name none see every site (those added later included); mechanics only named ones. One
+    query, when it is read."""
     site = model_get("fleet", "Site")
     role = user_role(user)
     if role is None:
         return site.objects.none()  # type: ignore[no-any-return]
-    assigned = site.objects.filter(staff__user=user)
+    named = site.objects.filter(staff__user=user).values("pk")
     if role == Role.MECHANIC:
-        return assigned  # type: ignore[no-any-return]
-    # Managers and auditors: their named sites, or all when none are named.
-    return assigned if assigned.exists() else site.objects.all()  # type: ignore[no-any-return]
+        return site.objects.filter(pk__in=named)  # type: ignore[no-any-return]
+    return site.objects.filter(Q(pk__in=named) | ~Exists(named))  # type: ignore[no-any-return]
 
 
 def sees_every_site(user: Any) -> bool:
@@ -103,7 +104,7 @@ def sees_every_site(user: Any) -> bool:
 
 
 def site_ids_for_user(user: Any) -> list[int]:
-    """The ids of the sites a person may see. Cached on the user object for the request."""
+    """The ids of the sites a person may see (one query). Kept on the user for the request."""
     cached = getattr(user, "_fleetfuel_site_ids", None)
     if cached is None:
         cached = list(sites_for_user(user).values_list("id", flat=True))

@@ -197,6 +197,19 @@ def test_mechanic_site_ids_are_their_assignments(site: Any, other_site: Any) -> 
     )
 
 
+def test_a_persons_depots_are_one_query(
+    site: Any, other_site: Any, django_assert_num_queries: Any
+) -> None:
+    named, everywhere = f.user_make("manager", sites=[site]), f.user_make("auditor")
+    access.user_role(named), access.user_role(everywhere)  # the role, read once a request
+    with django_assert_num_queries(1):
+        assert access.site_ids_for_user(named) == [site.pk]
+    with django_assert_num_queries(1):
+        assert sorted(access.site_ids_for_user(everywhere)) == sorted([site.pk, other_site.pk])
+    with django_assert_num_queries(0):  # kept on the user for the request
+        access.site_ids_for_user(named)
+
+
 @pytest.mark.parametrize("kind", sorted(HELPERS))
 def test_a_person_without_a_role_is_refused(objects: dict[str, Any], kind: str) -> None:
     nobody = f.user_make(None)

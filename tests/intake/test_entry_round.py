@@ -116,15 +116,15 @@ def test_round_queries_do_not_grow_with_the_depot(
     as_manager: Any, site: Any, unit_class: Any, django_assert_num_queries: Any, n: int
 ) -> None:
     units = depot(site, unit_class, n)
-    # GET: 1 session, 2 user, 3 role (groups), 4-5 the manager's sites (named ones, then
-    # all), 6 the units with their latest reading (subqueries).
-    with django_assert_num_queries(6):
+    # GET: 1 session, 2 user, 3 role (groups), 4 the manager's sites (named ones, else all:
+    # one query), 5 the units with their latest reading (subqueries).
+    with django_assert_num_queries(5):
         as_manager.get(URL, {"site": site.code})
-    # POST: 1-6 as above, 7 the units' neighbours, 8 replacements between, 9 savepoint,
-    # 10 one insert of every reading, 11 release; 12 the rows again, with the new readings
+    # POST: 1-5 as above, 6 the units' neighbours, 7 replacements between, 8 savepoint,
+    # 9 one insert of every reading, 10 release; 11 the rows again, with the new readings
     # (a row was refused, so the form comes back).
     rows = dict.fromkeys(units[:-1], "1010") | {units[-1]: "9999"}
-    with django_assert_num_queries(12):
+    with django_assert_num_queries(11):
         post(as_manager, site, rows)
     assert MeterReading.objects.filter(hours=1_010.0).count() == n - 1
 

@@ -220,14 +220,13 @@ def test_query_count_does_not_grow_with_the_fleet(
     as_manager: Any, site: Any, unit_class: Any, django_assert_num_queries: Any, size: int
 ) -> None:
     fleet_make(site=site, unit_class=unit_class, n=size)
-    # 1 session, 2 user, 3 user's groups (role), 4 sites assigned to the user (exists),
-    # 5 all sites' ids, 6 counts by status, 7 one page of items (+1, with unit, site, class,
-    # component, and workorders' open-work-order mark as a subquery), 8 flags of the units on
-    # the page,
-    # 9 the manager's recent work-list emails, 10 open decisions at fuel sources (none here,
-    # so their units are not fetched), 11 site choices, 12 class choices,
-    # 13 the manager's profile (work-list subscription).
-    with django_assert_num_queries(13):
+    # 1 session, 2 user, 3 user's groups (role), 4 the sites the user may see (named ones,
+    # else all), 5 counts by status, 6 one page of items (+1, with the unit's fleet number,
+    # site and class names as columns, and the open work order as subqueries), 7 flags of the
+    # units on the page, 8 the manager's recent work-list emails, 9 open decisions at fuel
+    # sources (none here, so their units are not fetched), 10 site choices, 11 class choices,
+    # 12 the manager's profile (work-list subscription).
+    with django_assert_num_queries(12):
         response = as_manager.get(reverse("pages:due_list"), {"status": "overdue", "sort": "unit"})
     assert response.status_code == 200 and len(rows(response)) == min(50, size * 3 // 4)
 
@@ -300,12 +299,11 @@ def test_the_fragment_query_count_does_not_grow_with_the_fleet(
     as_manager: Any, site: Any, unit_class: Any, django_assert_num_queries: Any, size: int
 ) -> None:
     fleet_make(site=site, unit_class=unit_class, n=size)
-    # 1 session, 2 user, 3 role, 4 sites assigned (exists), 5 all sites' ids, 6 counts by
-    # status, 7 one page of items (with the open source decision and the open work order's id
-    # and number as subqueries), 8 flags of the units on the page, 9 open decisions at fuel
-    # sources (none here, so their units are not fetched). The filters' choices are not
-    # rendered in the fragment, so not fetched.
-    with django_assert_num_queries(9):
+    # 1 session, 2 user, 3 role, 4 the sites the user may see, 5 counts by status, 6 one page
+    # of items (with the open work order's id and number as subqueries), 7 flags of the units
+    # on the page, 8 open decisions at fuel sources (none here, so their units are not
+    # fetched). The filters' choices are not rendered in the fragment, so not fetched.
+    with django_assert_num_queries(8):
         response = as_manager.get(reverse("pages:due_list"), headers={"HX-Request": "true"})
     assert response.status_code == 200 and len(rows(response)) == min(50, size * 3)
 
