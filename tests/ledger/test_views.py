@@ -166,8 +166,9 @@ def test_history_query_count_does_not_grow_with_the_fleet(
         unit = f.unit_make(site=sites[n % 2], unit_class=unit_class)
         add_events(unit, mechanic, 2)
     # 1 session, 2 user, 3 role (groups), 4-5 the sites one may see (assigned? then their
-    # ids), 6 the page of entries (units, sites, people, work orders, corrected entries joined),
-    # 7 your recent exports, 8 the site list of the filter.
+    # ids), 6 the page of entries (units, sites and corrected entries joined; the person and
+    # the work order's number as subqueries), 7 your recent exports, 8 the site list of the
+    # filter.
     with django_assert_num_queries(8):
         response = as_auditor.get(HISTORY)
     assert response.status_code == 200
