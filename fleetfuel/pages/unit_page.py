@@ -185,9 +185,15 @@ def _drains_chart(*, unit: Unit, since: datetime) -> Chart:
 
 def _fuel_sample_charts(*, unit: Unit, since: datetime) -> dict[str, Chart]:
     """Samples of the unit's own tank and of the sources that fuelled it over the chart's year."""
-    sources = Fueling.objects.filter(unit=unit, fueled_at__gte=since).order_by().values("source_id")
+    # The sources' ids as a list, not a subquery: with one, PostgreSQL reads every sample.
+    source_ids = list(
+        Fueling.objects.filter(unit=unit, fueled_at__gte=since)
+        .order_by()  # not the model's order, which joins the unit and its site
+        .values_list("source_id", flat=True)
+        .distinct()
+    )
     samples = list(
-        FuelSample.objects.filter(Q(unit=unit) | Q(source_id__in=sources), sampled_at__gte=since)
+        FuelSample.objects.filter(Q(unit=unit) | Q(source_id__in=source_ids), sampled_at__gte=since)
         .order_by("sampled_at")
         .values_list("sampled_at", "code_4", "code_14", "water_mg_kg")
     )
