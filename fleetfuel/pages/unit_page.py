@@ -73,7 +73,7 @@ def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
     )
     flags = list(UnitFlag.objects.filter(unit=unit).order_by("code"))
     due_items = list(
-        DueItem.objects.filter(unit=unit).select_related("component").order_by("due_on")
+        DueItem.objects.filter(unit=unit).order_by("due_on")  # shown without their parts
     )
     events = list(
         ServiceEvent.objects.filter(unit=unit)
