@@ -142,9 +142,18 @@ def cell_text(value: object) -> str:
     return str(canonical_value(value))
 
 
+def mechanic_name(*, first_name: str, last_name: str, username: str) -> str:
+    """The person who recorded an entry, as exports and the history show them: the full name
+    (as ``User.get_full_name``), else the user name."""
+    return f"{first_name} {last_name}".strip() or username
+
+
 def _mechanic(row: Mapping[str, Any]) -> str:
-    full = f"{row['recorded_by__first_name']} {row['recorded_by__last_name']}".strip()
-    return full or row["recorded_by__username"]
+    return mechanic_name(
+        first_name=row["recorded_by__first_name"],
+        last_name=row["recorded_by__last_name"],
+        username=row["recorded_by__username"],
+    )
 
 
 def nature_text(*, kind: str, effective_kind: str | None) -> str:

@@ -8,6 +8,7 @@ are composed above the ledger (fleetfuel/pages/exports.py).
 from __future__ import annotations
 
 from datetime import timedelta
+from types import SimpleNamespace
 from typing import Any
 from zoneinfo import ZoneInfo
 
@@ -15,6 +16,7 @@ from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
+from django.template.defaulttags import querystring
 from django.urls import reverse
 from django.utils import timezone
 from django.utils.cache import patch_vary_headers
@@ -32,6 +34,7 @@ from fleetfuel.accounts.models import Role
 
 from .actions import service_event_correct
 from .forms import CorrectionForm, HistoryFilterForm
+from .history_rows import PK_MARK, history_rows
 from .models import ServiceEvent
 from .selectors import exports_for_user, filter_sites, history_page
 
@@ -60,11 +63,15 @@ def _history_render(
     if correcting is None and role == Role.MANAGER and request.GET.get("correct", "").isdigit():
         correcting = service_event_for_user(user, int(request.GET["correct"]))
         correction_form = CorrectionForm(event=correcting)
+    can_correct = role == Role.MANAGER
     context: dict[str, Any] = {
         "form": form,
         "page": page,
+        "rows": history_rows(
+            page.events, correct_href=_correct_href(request) if can_correct else None
+        ),
         "can_export": role in EXPORTERS,
-        "can_correct": role == Role.MANAGER,
+        "can_correct": can_correct,
         **(_recent(user) if role in EXPORTERS else {}),
         "correcting": correcting,
         "correction_form": correction_form,
@@ -74,6 +81,12 @@ def _history_render(
     response = render(request, template, context, status=status)
     patch_vary_headers(response, ["HX-Request"])
     return response
+
+
+def _correct_href(request: HttpRequest) -> str:
+    """The "Correct…" link of the history's rows, as ``{% querystring correct=pk %}`` gives
+    it, with ``PK_MARK`` for the entry's id."""
+    return querystring(SimpleNamespace(request=request), correct=PK_MARK)
 
 
 def _recent(user: Any) -> dict[str, Any]:

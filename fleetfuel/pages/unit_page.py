@@ -6,7 +6,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import datetime, timedelta
 
-from django.db.models import Count, Q, QuerySet
+from django.db.models import Count, OuterRef, Q, QuerySet, Subquery
 
 from fleetfuel.fleet.models import (
     FILTER_KINDS,
@@ -16,6 +16,7 @@ from fleetfuel.fleet.models import (
     FuelSample,
     MeterReading,
     MeterReplacement,
+    ServicePlan,
     Unit,
 )
 from fleetfuel.ledger.models import ServiceEvent
@@ -61,10 +62,18 @@ class UnitPage:
 def unit_page(*, unit: Unit, now: datetime) -> UnitPage:
     """Everything the unit page shows: a fixed number of queries, whatever the history."""
     since = now - timedelta(days=HISTORY_DAYS)
-    components = list(unit.components.filter(removed_on__isnull=True).order_by("kind", "position"))
+    # Each fitted part with its class's dP limit (one plan per class and part kind).
+    plan = ServicePlan.objects.filter(
+        unit_class_id=unit.unit_class_id, component_kind=OuterRef("kind")
+    )
+    components = list(
+        unit.components.filter(removed_on__isnull=True)
+        .annotate(dp_limit_bar=Subquery(plan.values("dp_limit_bar")[:1]))
+        .order_by("kind", "position")
+    )
     flags = list(UnitFlag.objects.filter(unit=unit).order_by("code"))
     due_items = list(
-        DueItem.objects.filter(unit=unit).select_related("component").order_by("due_on")
+        DueItem.objects.filter(unit=unit).order_by("due_on")  # shown without their parts
     )
     events = list(
         ServiceEvent.objects.filter(unit=unit)
@@ -144,26 +153,27 @@ def _dp_charts(*, unit: Unit, components: list[Component], since: datetime) -> d
     ):
         if at.date() >= filters[comp_id].installed_on:
             dp_rows[comp_id].append((at, dp))
-    plans = {p.component_kind: p for p in unit.unit_class.plans.all()}
     charts: dict[str, Chart] = {}
     for pk, comp in filters.items():
-        plan = plans.get(comp.kind)
+        limit = comp.dp_limit_bar  # annotated in unit_page()
         charts[f"dp-{comp.kind}"] = Chart(
             title=f"Differential pressure, {comp.get_kind_display().lower()}, since its change",
             y_label="dP (bar)",
             series=[Series(points=dp_rows[pk], css="series")],
-            limit=plan.dp_limit_bar if plan else None,
-            limit_label=f"limit {plan.dp_limit_bar} bar" if plan and plan.dp_limit_bar else "",
+            limit=limit,
+            limit_label=f"limit {limit} bar" if limit else "",
         )
     return charts
 
 
 def _drains_chart(*, unit: Unit, since: datetime) -> Chart:
     drains = [
-        (e.performed_at, e.water_ml or 0.0)
-        for e in ServiceEvent.objects.filter(
+        (at, water_ml or 0.0)
+        for at, water_ml in ServiceEvent.objects.filter(
             unit=unit, kind=ServiceEvent.Kind.SEPARATOR_DRAINED, performed_at__gte=since
-        ).order_by("performed_at")
+        )
+        .order_by("performed_at")
+        .values_list("performed_at", "water_ml")
     ]
     return Chart(
         title="Water drained per drain",
@@ -175,8 +185,10 @@ def _drains_chart(*, unit: Unit, since: datetime) -> Chart:
 
 def _fuel_sample_charts(*, unit: Unit, since: datetime) -> dict[str, Chart]:
     """Samples of the unit's own tank and of the sources that fuelled it over the chart's year."""
+    # The sources' ids as a list, not a subquery: with one, PostgreSQL reads every sample.
     source_ids = list(
         Fueling.objects.filter(unit=unit, fueled_at__gte=since)
+        .order_by()  # not the model's order, which joins the unit and its site
         .values_list("source_id", flat=True)
         .distinct()
     )

@@ -14,6 +14,7 @@ from fleetfuel.fleet.models import HIGH_PRESSURE_KINDS
 
 from .charts import chart_svg
 from .unit_page import unit_page, units_for_list
+from .unit_rows import due_item_rows, event_rows
 
 
 class UnitSearchForm(forms.Form):
@@ -46,6 +47,8 @@ def unit_detail(request: HttpRequest, pk: int) -> HttpResponse:
             "p": page,
             "unit": unit,
             "charts": charts,
+            "due_rows": due_item_rows(page.due_items, unit.site),
+            "event_rows": event_rows(page.events, unit.site),
             "hp_kinds": [k.value for k in HIGH_PRESSURE_KINDS],
         },
     )

@@ -5,12 +5,14 @@ from __future__ import annotations
 
 import html
 import re
+from datetime import timedelta
 from typing import Any
 
 import pytest
 from django.urls import reverse
 
 from fleetfuel.ledger import urls as ledger_urls
+from fleetfuel.ledger.actions import service_event_append, service_event_correct
 from fleetfuel.ledger.models import ExportLog, ServiceEvent
 from fleetfuel.pages import urls as pages_urls
 from tests import factories as f
@@ -152,6 +154,37 @@ def test_history_page_links_to_older_and_newer_entries_keep_the_filters(
     assert [e.seq for e in back.context["page"].events] == list(range(55, 5, -1))
 
 
+def test_the_kind_filter_finds_each_entry_by_the_kind_it_stands_for(
+    as_auditor: Any, unit: Any, mechanic: Any, manager: Any
+) -> None:
+    """A filter change restated by a correction as a drain (effective.py) shows under drains
+    and as a correction, not under filter changes; as recorded, the original is a filter
+    change again."""
+    recorded, kept = (
+        service_event_append(
+            unit=unit,
+            kind=ServiceEvent.Kind.FILTER_CHANGED,
+            performed_at=f.NOW - timedelta(days=days),
+            recorded_by=mechanic,
+        )
+        for days in (1, 2)
+    )
+    fixed = service_event_correct(
+        event=recorded,
+        reason="was a drain",
+        recorded_by=manager,
+        kind=ServiceEvent.Kind.SEPARATOR_DRAINED,
+    )
+
+    def shown(**params: str) -> list[int]:
+        return [e.pk for e in as_auditor.get(HISTORY, params).context["page"].events]
+
+    assert shown(kind="separator_drained") == [fixed.pk]
+    assert shown(kind="filter_changed") == [kept.pk]
+    assert shown(kind="correction") == [fixed.pk]
+    assert shown(kind="filter_changed", recorded="on") == [recorded.pk, kept.pk]
+
+
 @pytest.mark.parametrize("size", [3, 30])
 def test_history_query_count_does_not_grow_with_the_fleet(
     as_auditor: Any,
@@ -166,8 +199,8 @@ def test_history_query_count_does_not_grow_with_the_fleet(
         unit = f.unit_make(site=sites[n % 2], unit_class=unit_class)
         add_events(unit, mechanic, 2)
     # 1 session, 2 user, 3 role (groups), 4 the sites one may see (one query), 5 the page of
-    # entries (units, sites, people, work orders, corrected entries joined), 6 your recent
-    # exports, 7 the site list of the filter.
+    # entries (units, sites and corrected entries joined; the person and the work order's
+    # number as subqueries), 6 your recent exports, 7 the site list of the filter.
     with django_assert_num_queries(7):
         response = as_auditor.get(HISTORY)
     assert response.status_code == 200
