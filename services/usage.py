@@ -53,6 +53,8 @@ class MeterReading:
     hours: float
 
     def __post_init__(self) -> None:
+        if type(self.hours) is float and 0 <= self.hours < math.inf:
+            return  # the usual reading, passed without spelling out its name
         amount_check(name=f"meter reading at {self.at:%Y-%m-%d %H:%M} hours", value=self.hours)
 
 

@@ -71,12 +71,7 @@ def theil_sen(
     if n > MAX_POINTS:
         keep = sorted(range(n - 1, -1, -math.ceil(n / MAX_POINTS)))
         xs, ys, n = [xs[i] for i in keep], [ys[i] for i in keep], len(keep)
-    slopes = sorted(
-        (ys[j] - ys[i]) / (xs[j] - xs[i])
-        for i in range(n)
-        for j in range(i + 1, n)
-        if xs[j] != xs[i]
-    )
+    slopes = _pair_slopes(xs, ys)
     if not slopes:
         return None
     # Sen (1968) eq. 2.6: variance of Kendall's S with ties in x and in y.
@@ -89,6 +84,17 @@ def theil_sen(
     return SlopeFit(
         slope=statistics.median(slopes), low=slopes[lower], high=slopes[upper], points=n
     )
+
+
+def _pair_slopes(xs: Sequence[float], ys: Sequence[float]) -> list[float]:
+    """(ys[j] - ys[i]) / (xs[j] - xs[i]) for every pair i < j with distinct x, sorted: the
+    same float divisions as a loop over the pairs, in the same order before a stable sort."""
+    x, y = np.asarray(xs, dtype=np.float64), np.asarray(ys, dtype=np.float64)
+    first, second = np.triu_indices(len(x), 1)  # row by row: i, then each j after it
+    dx = x[second] - x[first]
+    distinct = dx != 0
+    slopes = (y[second] - y[first])[distinct] / dx[distinct]
+    return list(np.sort(slopes, kind="stable").tolist())
 
 
 def intervals_from(points: Sequence[tuple[datetime, float]]) -> list[tuple[float, float]]:
@@ -147,18 +153,27 @@ def rate_band(
     # SplitMix64 as splitmix64() gives it, every draw of the band at once: the k-th state is
     # seed + k x the golden gamma (mod 2^64, as unsigned 64-bit arithmetic wraps), so the
     # same draws come out in the same order, row by row, without a Python step per draw.
+    # In place, in two arrays: a fresh array per step costs more than the step (each is
+    # over a hundred kilobytes, which the allocator maps and faults in anew every time).
     with np.errstate(over="ignore"):
-        state = np.uint64(seed & _MASK64) + np.arange(
-            1, BOOTSTRAP_DRAWS * n + 1, dtype=np.uint64
-        ) * np.uint64(0x9E3779B97F4A7C15)
-        z = (state ^ (state >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
-        z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
-        picks = ((z ^ (z >> np.uint64(31))) % np.uint64(n)).astype(np.intp).reshape(-1, n)
+        z = np.arange(1, BOOTSTRAP_DRAWS * n + 1, dtype=np.uint64)
+        z *= np.uint64(0x9E3779B97F4A7C15)
+        z += np.uint64(seed & _MASK64)
+        shifted = z >> np.uint64(30)
+        z ^= shifted
+        z *= np.uint64(0xBF58476D1CE4E5B9)
+        z ^= np.right_shift(z, np.uint64(27), out=shifted)
+        z *= np.uint64(0x94D049BB133111EB)
+        z ^= np.right_shift(z, np.uint64(31), out=shifted)
+        z %= np.uint64(n)
+    picks = z.view(np.intp).reshape(-1, n)  # each below n: the same number as a signed int
     table = np.array(intervals, dtype=np.float64)
     # Running sums, left to right as the loop added them (sum() would pair them up and
     # round differently): the last column is each resample's total.
-    hours = table[picks, 0].cumsum(axis=1)[:, -1]
-    days = table[picks, 1].cumsum(axis=1)[:, -1]
+    drawn = table[:, 0].take(picks, out=shifted.view(np.float64).reshape(-1, n))
+    hours = drawn.cumsum(axis=1, out=drawn)[:, -1].copy()
+    drawn = table[:, 1].take(picks, out=drawn)
+    days = drawn.cumsum(axis=1, out=drawn)[:, -1]
     ratios = (hours / days).tolist()
     ratios.sort()
     tail = (1 - confidence) / 2

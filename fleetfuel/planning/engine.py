@@ -84,16 +84,17 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
     except ValueError as exc:
         refused.append(f"fuel and engine records: {exc}")
         fuel = UnitFuel(paired=[], source_names={}, events=[], burn=None)
-    results, skipped = unit_tasks(b, batch, fuel, forecast, now, refused)
+    hours = tank_hours(b, forecast, now)  # the same for every tank run of the unit
+    results, skipped = unit_tasks(b, batch, fuel, forecast, hours, now, refused)
     unit_flags = unit_flags_compute(b, fuel, forecast, now, refused)
     return UnitResult(
         unit.pk, unit.site_id, results, unit_flags, skipped + refused, forecast.current_hours,
-        forecast.rate, unit_burned(b, fuel, forecast, now),
+        forecast.rate, unit_burned(b, fuel, hours, now),
     )  # fmt: skip
 
 
 def unit_burned(
-    b: UnitInputs, fuel: UnitFuel, forecast: UsageForecast, now: datetime
+    b: UnitInputs, fuel: UnitFuel, hours: list[tuple[datetime, float]], now: datetime
 ) -> dict[int, float]:
     """Litres of each fueling burned by ``now`` (for the source decisions); none when the
     records are refused (the filters' tasks say why)."""
@@ -102,8 +103,7 @@ def unit_burned(
         return fuel.burned_at_rate[burn]
     try:
         return engine_tank.tank_now(
-            unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now),
-            burn_l_per_h=burn, now=now,
+            unit=b.unit, paired=fuel.paired, hours=hours, burn_l_per_h=burn, now=now,
         )[0]  # fmt: skip
     except ValueError:
         return {}
@@ -125,6 +125,7 @@ def unit_tasks(
     batch: BatchInputs,
     fuel: UnitFuel,
     forecast: UsageForecast,
+    hours: list[tuple[datetime, float]],
     now: datetime,
     refused: list[str],
 ) -> tuple[list[ComponentProjection], list[str]]:
@@ -140,7 +141,9 @@ def unit_tasks(
             continue
         try:
             life = filter_life_get(batch, b.unit.unit_class_id, comp_kind, plan)
-            projection = filter_compute(b, comp, plan, task, fuel, forecast, now, life=life)
+            projection = filter_compute(
+                b, comp, plan, task, fuel, forecast, now, life=life, hours=hours
+            )
         except ValueError as exc:
             refused.append(f"{task.label}: {exc}")
             continue
@@ -150,7 +153,9 @@ def unit_tasks(
     if primary and plan and plan.bowl_capacity_ml and plan.drain_interval_days:
         try:
             results.append(
-                ComponentProjection(primary.pk, drain_compute(b, plan, fuel, forecast, now))
+                ComponentProjection(
+                    primary.pk, drain_compute(b, plan, fuel, forecast, now, hours=hours)
+                )
             )
         except ValueError as exc:
             refused.append(f"{TaskKind.SEPARATOR_DRAIN.label}: {exc}")
@@ -273,7 +278,9 @@ def filter_compute(
     now: datetime,
     *,
     life: filter_life.LifeBudget | None = None,
+    hours: list[tuple[datetime, float]],
 ) -> Projection:
+    """One filter's next change; ``hours`` are the unit's :func:`tank_hours`."""
     channel, channel_note = fq.filter_channel(
         efficiency_size_um_c=comp.efficiency_size_um_c, nominal_rating_um=comp.rating_um
     )
@@ -296,7 +303,7 @@ def filter_compute(
         tank_samples=fuel.tank_samples,
         sources=fuel.sources,
         channel=channel,
-        hours=[*tank_hours(b, forecast, now), (last_at, last_hours)],
+        hours=[*hours, (last_at, last_hours)],
         burn_l_per_h=fuel.burn or fplan.reference_burn_l_per_h,
         since=last_at,
         now=now,
@@ -349,9 +356,16 @@ def filter_plan(plan: ServicePlan, channel: int, class_burn: float) -> filter_in
 
 
 def drain_compute(
-    b: UnitInputs, plan: ServicePlan, fuel: UnitFuel, forecast: UsageForecast, now: datetime
+    b: UnitInputs,
+    plan: ServicePlan,
+    fuel: UnitFuel,
+    forecast: UsageForecast,
+    now: datetime,
+    *,
+    hours: list[tuple[datetime, float]],
 ) -> Projection:
-    """The separator's next drain (the plan has a bowl capacity and a drain interval)."""
+    """The separator's next drain (the plan has a bowl capacity and a drain interval);
+    ``hours`` are the unit's :func:`tank_hours`."""
     records = [
         water.DrainRecord(at=at, hours=engine_hours_at(b, at, meter), water_ml=ml)
         for at, meter, ml in b.drains
@@ -363,7 +377,7 @@ def drain_compute(
     coldest = b.unit.site.coldest_fuel_c  # the depot's coldest fuel, where it is set
     burn = fuel.burn or plan.reference_burn_l_per_h or b.unit.unit_class.typical_burn_l_per_h
     current_water, current_density, fuel.burned_at_rate[burn] = engine_tank.tank_water(
-        unit=b.unit, paired=fuel.paired, hours=tank_hours(b, forecast, now), burn_l_per_h=burn,
+        unit=b.unit, paired=fuel.paired, hours=hours, burn_l_per_h=burn,
         now=now, reference_mg_kg=reference_water, coldest_c=coldest,
     )  # fmt: skip
     intakes = [

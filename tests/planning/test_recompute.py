@@ -117,10 +117,11 @@ def test_query_count_does_not_grow_with_batch_size(site: Any, unit_class: Any) -
     assert counts[0] == counts[1]
     # 13 reads (planning/selectors.py names each; the 13th, filter_changes_load, is every
     # filter change of the batch's unit classes, the life evidence) + stale-row reads/deletes
-    # and two upserts;
+    # and two upserts (on PostgreSQL four statements each: the scratch table made if need be
+    # and emptied, the COPY into it, the insert from it: planning/actions.rows_upsert_copy);
     # savepoints add a few on each database. The point is the equality above; keep this a
     # sanity bound.
-    assert counts[0] <= 22
+    assert counts[0] <= 28
 
 
 def test_project_due_json_lists_every_task_with_basis_and_explanation(
