@@ -9,6 +9,7 @@ from typing import Any
 
 import pytest
 from django.utils import timezone
+from playwright.sync_api import expect
 
 from fleetfuel.fleet.models import Fueling, FuelSample, MeterReading
 from tests import factories as f
@@ -66,7 +67,9 @@ def test_manager_enters_a_days_data(login_page: Any, width: int, height: int) ->
     page.fill("#id_amount", "250")
     page.keyboard.press("Enter")
     page.get_by_text("Fueling saved: QL-1").wait_for()
-    # The next blank form has the cursor in the unit: type, Tab to the fuel, type.
+    # The next blank form has the cursor in the unit (waited for: the page's script puts it
+    # there once the form is back): type, Tab to the fuel, type.
+    expect(page.locator("#id_unit")).to_be_focused()
     page.keyboard.type("ql-2")
     page.keyboard.press("Tab")
     page.keyboard.type("900")  # more than the 400 L tank holds
