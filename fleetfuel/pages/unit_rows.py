@@ -12,16 +12,16 @@ from collections.abc import Iterable
 from html import escape as esc
 from typing import Any
 
-from django.template.loader import render_to_string
 from django.utils.safestring import SafeString
 
 from fleetfuel.accounts.templatetags.fmt import day, hours, meter, prose
+from fleetfuel.ledger.exports import mechanic_name
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.models import DueItem
 from fleetfuel.planning.templatetags.fleetfuel_tags import basis_label
 from services.units import display_quantity
 
-from .due_rows import STATUS_TITLES
+from .due_rows import STALE, STATUS_BADGES
 
 
 def due_item_rows(items: Iterable[DueItem], site: Any) -> list[SafeString]:
@@ -31,14 +31,7 @@ def due_item_rows(items: Iterable[DueItem], site: Any) -> list[SafeString]:
 
 
 def _due_row(item: DueItem, site: Any) -> SafeString:
-    title = STATUS_TITLES.get(item.status)
-    status = (
-        f'<span class="badge st-{esc(item.status)}"'
-        + (f' title="{esc(title)}"' if title else "")
-        + f">{esc(item.get_status_display())}</span>"
-    )
-    if item.projection_stale:  # rare: the shared marker's own template
-        status += render_to_string("planning/_stale_marker.html", {"item": item})
+    status = STATUS_BADGES[item.status] + (STALE if item.projection_stale else "")
     due = esc(day(item.due_on, site))
     if item.earliest_on != item.latest_on:
         window = f"between {day(item.earliest_on, site)} and {day(item.latest_on, site)}"
@@ -70,7 +63,9 @@ def _event_row(e: ServiceEvent, site: Any) -> SafeString:
     elif e.part_number:
         detail += esc(e.part_number)
     person = e.recorded_by
-    who = person.get_full_name() or person.username
+    who = mechanic_name(
+        first_name=person.first_name, last_name=person.last_name, username=person.username
+    )
     return SafeString(
         f"<tr><td>{esc(day(e.performed_at, site))}</td><td>{esc(e.get_kind_display())}</td>"
         f'<td>{e.cylinder or ""}</td><td class="num">{esc(meter(e.hour_meter, site))}</td>\n'
