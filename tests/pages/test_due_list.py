@@ -338,3 +338,14 @@ def test_row_text_from_the_database_is_escaped(as_manager: Any, small_fleet: lis
     html = as_manager.get(reverse("pages:due_list")).content.decode()
     assert "<b>Hauler</b>" not in html and "&lt;b&gt;Hauler&lt;/b&gt;" in html
     assert "Flag: Valve &quot;A&quot; &lt;i&gt;" in html and "r &amp; s" in html
+
+
+def test_more_filters_stay_closed_for_the_default_sort(
+    as_manager: Any, small_fleet: list[Unit]
+) -> None:
+    # The filter form sends every field, the default sort included (as after creating work
+    # orders from a filtered list): the extra filters open only when one of them is set.
+    default = as_manager.get(reverse("pages:due_list"), {"status": "due", "sort": "urgency"})
+    by_date = as_manager.get(reverse("pages:due_list"), {"status": "due", "sort": "due"})
+    assert '<details class="more">' in default.content.decode()
+    assert '<details class="more" open>' in by_date.content.decode()
