@@ -112,8 +112,9 @@ def _hours_and_forecast(
         readings=[usage.MeterReading(at=at, hours=h) for at, h in readings],
         replacements=replacements,
     )
-    # The engine's own forecast (the due dates on this page come from it), not a second one.
-    forecast = planning_selectors.unit_forecast_get(unit_id=unit.pk, now=now) if engine else None
+    # The forecast the unit's latest projection was made from (the due dates on this page
+    # come from it), not a second one.
+    forecast = planning_selectors.unit_forecast_stored(unit_id=unit.pk) if engine else None
     return engine, forecast
 
 

@@ -17,7 +17,7 @@ from services.filter_life import LifeBudget
 from services.urgency import estimate_overrun_hours, lateness, urgency_tier
 
 from .engine import UnitResult, unit_compute
-from .models import DueItem, StaleProjection, UnitFlag
+from .models import DueItem, StaleProjection, UnitFlag, UnitForecast
 from .selectors import batch_inputs_load
 from .source_decisions import source_decisions_recompute
 from .source_models import SourceDecisionUnit
@@ -52,7 +52,7 @@ def rows_replace(
     model: Any,
     unit_ids: list[int],
     rows: list[Any],
-    key: tuple[str, str],
+    key: tuple[str, ...],
     update_fields: list[str],
 ) -> None:
     """Make the units' rows exactly ``rows``: delete the ones no longer produced, upsert the
@@ -79,7 +79,7 @@ def rows_replace(
 
 
 def rows_upsert_copy(
-    *, model: Any, rows: list[Any], key: tuple[str, str], update_fields: list[str]
+    *, model: Any, rows: list[Any], key: tuple[str, ...], update_fields: list[str]
 ) -> None:
     """``bulk_create(rows, update_conflicts=True, ...)`` on PostgreSQL, by COPY into a scratch
     table of the session and one INSERT ... ON CONFLICT from it: the same statement's work,
@@ -230,9 +230,14 @@ def _recompute(
     batch = batch_inputs_load(unit_ids=unit_ids, now=now, lives=lives)
     items: list[DueItem] = []
     flags: list[UnitFlag] = []
+    forecasts: list[UnitForecast] = []
     burned: dict[int, dict[int, float]] = {}  # litres of each fueling burned, by unit
     for bundle in batch.units:
         result = unit_compute(bundle, batch, now)
+        if result.forecast is not None:
+            forecasts.append(
+                UnitForecast.of(unit_id=result.unit_id, forecast=result.forecast, computed_at=now)
+            )
         if result.burned:
             burned[result.unit_id] = result.burned
         stood_down = any(f.high_pressure for f in result.flags)
@@ -266,6 +271,13 @@ def _recompute(
             rows=flags,
             key=("unit_id", "code"),
             update_fields=FLAG_FIELDS,
+        )
+        rows_replace(
+            model=UnitForecast,
+            unit_ids=ids,
+            rows=forecasts,
+            key=("unit_id",),
+            update_fields=UnitForecast.FIELDS,
         )
         if marks:
             seen = Q()

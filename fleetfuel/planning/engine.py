@@ -47,6 +47,7 @@ class UnitResult:
     current_hours: float  # engine hours now, from the usage forecast
     rate: float  # engine hours per day, from the usage forecast
     burned: dict[int, float] = field(default_factory=dict)  # litres of each fueling burned
+    forecast: UsageForecast | None = None  # the usage forecast it was projected from
 
 
 @dataclass(frozen=True)
@@ -78,7 +79,8 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
                           refused, 0.0, 0.0)  # fmt: skip
     if unit.disposed_on is not None and unit.disposed_on <= now.date():
         # A disposed unit is no longer serviced: no items, no flags (its history stays).
-        return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0)
+        return UnitResult(unit.pk, unit.site_id, [], [], ["disposed"], forecast.current_hours, 0.0,
+                          forecast=forecast)  # fmt: skip
     try:
         fuel = unit_fuel(b, batch)
     except ValueError as exc:
@@ -89,7 +91,7 @@ def unit_compute(b: UnitInputs, batch: BatchInputs, now: datetime) -> UnitResult
     unit_flags = unit_flags_compute(b, fuel, forecast, now, refused)
     return UnitResult(
         unit.pk, unit.site_id, results, unit_flags, skipped + refused, forecast.current_hours,
-        forecast.rate, unit_burned(b, fuel, hours, now),
+        forecast.rate, unit_burned(b, fuel, hours, now), forecast,
     )  # fmt: skip
 
 

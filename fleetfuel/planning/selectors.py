@@ -38,6 +38,7 @@ from services.common import UsageForecast
 from services.filter_life import LifeBudget
 
 from .engine_tank import BatchSources
+from .models import UnitForecast
 from .rows import (
     DeliveryRow,
     DpRow,
@@ -137,12 +138,11 @@ def unit_forecast(b: UnitInputs, *, now: datetime) -> UsageForecast:
     )
 
 
-def unit_forecast_get(*, unit_id: int, now: datetime) -> UsageForecast:
-    """One unit's usage forecast, as the engine computes it (three queries)."""
-    bundles = _units_load(unit_ids=[unit_id], now=now)  # 1. the unit, class, latest records
-    _readings_load(bundles=bundles, now=now)  # 2. its readings in the forecast window
-    _replacements_load(bundles=bundles)  # 3. its meter replacements
-    return unit_forecast(bundles[unit_id], now=now)
+def unit_forecast_stored(*, unit_id: int) -> UsageForecast | None:
+    """The usage forecast the unit's latest projection was made from (one query), or None
+    before its first projection or when its readings gave none."""
+    stored = UnitForecast.objects.filter(unit_id=unit_id).first()
+    return stored.usage() if stored is not None else None
 
 
 def batch_inputs_load(

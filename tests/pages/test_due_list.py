@@ -3,6 +3,7 @@ row, the open-work-order mark, work orders from items."""
 
 from __future__ import annotations
 
+from collections import Counter
 from datetime import timedelta
 from typing import Any
 
@@ -12,6 +13,7 @@ from django.utils import timezone
 
 from fleetfuel.fleet.models import FuelSample, Unit
 from fleetfuel.planning.benchmark import synthetic_fleet_make
+from fleetfuel.planning.due_selectors import due_items_filtered, status_counts
 from fleetfuel.planning.models import DueItem, SourceDecision, SourceDecisionUnit, UnitFlag
 from fleetfuel.workorders.models import WorkOrder
 from services.display import NBSP
@@ -324,6 +326,31 @@ def test_counts_stop_at_the_cap_and_say_so(
     }
     assert ("overdue", "Overdue", "2+") in response.context["counts"]
     assert ("check", "Check dP first", "0") in response.context["counts"]
+
+
+def test_counts_agree_with_a_plain_count_under_joined_filters_and_with_no_depot(
+    small_fleet: list[Unit],
+) -> None:
+    # The counts compile the filtered set once and take each status as a parameter of it;
+    # checked against Python's collections.Counter over the same rows, with filters that
+    # join (class, fleet number) and one that is a subquery (flagged).
+    unit = small_fleet[0]
+    UnitFlag.objects.create(
+        unit=unit, code="x", title="t", reason="r", checks=[], since=timezone.now(),
+        computed_at=timezone.now(),
+    )  # fmt: skip
+    today = timezone.localdate()
+    for data in (
+        {},
+        {"unit_class": unit.unit_class},
+        {"q": unit.fleet_number},
+        {"flagged": True, "task": DueItem.Task.SEPARATOR_DRAIN},
+    ):
+        base = due_items_filtered(site_ids=[unit.site_id], data=data, today=today)
+        expected = Counter(base.values_list("status", flat=True))
+        assert status_counts(base) == {s: expected[s] for s in DueItem.Status.values}, data
+    none = due_items_filtered(site_ids=[], data={}, today=today)
+    assert status_counts(none) == dict.fromkeys(DueItem.Status.values, 0)
 
 
 def test_row_text_from_the_database_is_escaped(as_manager: Any, small_fleet: list[Unit]) -> None:
