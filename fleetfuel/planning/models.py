@@ -1,4 +1,4 @@
-"""The engine's latest word on each unit: due items and unit flags.
+"""The engine's latest word on each unit: due items, unit flags and the usage forecast.
 
 Rows here are derived: a recompute replaces them (same inputs, same rows), so they are never
 the record of anything done. The record is the ledger.
