@@ -18,6 +18,7 @@ from collections.abc import Callable
 from typing import Any
 
 from django import forms
+from django.core.exceptions import ValidationError
 from django.forms.models import ModelChoiceIterator
 from django.forms.renderers import DjangoTemplates
 from django.utils.formats import localize
@@ -135,3 +136,30 @@ class ModelChoiceField(forms.ModelChoiceField):
     """Django's model choice field for short lists (depots, classes, sources)."""
 
     iterator = ListedChoices
+
+
+class FilterChoiceField(ModelChoiceField):
+    """A filter form's short list (depots, classes), shown with the results: the choice is
+    checked against the listed rows, so one query serves the check and the select (Django's
+    field reads the chosen row once more, by its key)."""
+
+    def to_python(self, value: Any) -> Any:
+        if value in self.empty_values:
+            return None
+        model = self.queryset.model
+        key = self.to_field_name or model._meta.pk.name
+        if isinstance(value, model):
+            value = getattr(value, key)
+        try:
+            wanted = model._meta.get_field(key).to_python(value)
+        except ValidationError:
+            wanted = None
+        for row in self.queryset:  # listed once, kept for the select's rendering
+            if wanted is not None and getattr(row, key) == wanted:
+                return row
+        raise ValidationError(
+            self.error_messages["invalid_choice"],
+            code="invalid_choice",
+            params={"value": value},
+        )
+

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import datetime as dt
 from decimal import Decimal
+from typing import Any
 
 import pytest
 from django import forms
@@ -18,7 +19,8 @@ from django.utils.translation import gettext_lazy
 from hypothesis import given
 from hypothesis import strategies as st
 
-from fleetfuel.renderers import PYTHON_WIDGETS, FormRenderer
+from fleetfuel.fleet.models import Site
+from fleetfuel.renderers import PYTHON_WIDGETS, FilterChoiceField, FormRenderer
 
 OURS, DJANGO = FormRenderer(), DjangoTemplates()
 
@@ -98,3 +100,32 @@ def test_the_settings_use_it(settings):
     assert settings.FORM_RENDERER == "fleetfuel.renderers.FormRenderer"
     form = forms.Form()
     assert isinstance(form.renderer, FormRenderer)
+
+
+@pytest.mark.parametrize("raw", ["", None, "PK", " PK ", "abc", "999999", "1.5", "OBJ"])
+def test_a_filter_choice_is_checked_as_djangos_field_checks_it(site: Any, raw: Any) -> None:
+    # Reference: Django's own ModelChoiceField.clean over the same queryset: the same row
+    # or the same error code, whatever the input (the listed rows stand in for its lookup).
+    value = {"PK": str(site.pk), " PK ": f" {site.pk} ", "OBJ": site}.get(raw, raw)
+
+    def outcome(field: forms.ModelChoiceField) -> Any:
+        try:
+            return field.clean(value)
+        except forms.ValidationError as exc:
+            return exc.code
+
+    ours = FilterChoiceField(queryset=Site.objects.order_by("name"), required=False)
+    theirs = forms.ModelChoiceField(queryset=Site.objects.order_by("name"), required=False)
+    assert outcome(ours) == outcome(theirs)
+
+
+def test_a_filter_choice_and_its_select_are_one_query(
+    site: Any, django_assert_num_queries: Any
+) -> None:
+    class Filters(forms.Form):
+        site = FilterChoiceField(queryset=Site.objects.order_by("name"), required=False)
+
+    with django_assert_num_queries(1):
+        form = Filters({"site": str(site.pk)})
+        assert form.is_valid() and form.cleaned_data["site"] == site
+        assert f'<option value="{site.pk}" selected>' in str(form["site"])

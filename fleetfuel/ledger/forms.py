@@ -11,7 +11,7 @@ from django.utils import timezone
 
 from fleetfuel.accounts.hygiene import DateValidator, QuantityValidator, TextValidator
 from fleetfuel.fleet.models import Component, ComponentKind, Site, Unit
-from fleetfuel.renderers import ModelChoiceField
+from fleetfuel.renderers import FilterChoiceField
 from services import bounds
 from services.rules import cylinder_numbers
 
@@ -24,7 +24,7 @@ _LINE = TextValidator(multiline=False)  # names, serials: one line (accounts/hyg
 
 
 class HistoryFilterForm(forms.Form):
-    site = ModelChoiceField(queryset=Site.objects.none(), required=False, empty_label="All sites")
+    site = FilterChoiceField(queryset=Site.objects.none(), required=False, empty_label="All sites")
     unit = forms.CharField(
         label="Unit (fleet number)",
         required=False,

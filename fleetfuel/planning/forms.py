@@ -9,7 +9,7 @@ from django.db.models import QuerySet
 
 from fleetfuel.accounts.models import Profile
 from fleetfuel.fleet.models import Site, UnitClass
-from fleetfuel.renderers import ModelChoiceField
+from fleetfuel.renderers import FilterChoiceField
 
 from .models import DueItem
 from .source_models import SourceDecision
@@ -18,8 +18,8 @@ from .source_models import SourceDecision
 class DueFilterForm(forms.Form):
     """The due list's filters: a plain GET form (works without JavaScript)."""
 
-    site = ModelChoiceField(queryset=Site.objects.none(), required=False, empty_label="All sites")
-    unit_class = ModelChoiceField(
+    site = FilterChoiceField(queryset=Site.objects.none(), required=False, empty_label="All sites")
+    unit_class = FilterChoiceField(
         queryset=UnitClass.objects.none(), required=False, empty_label="All classes"
     )
     task = forms.ChoiceField(choices=[("", "All tasks"), *DueItem.Task.choices], required=False)
