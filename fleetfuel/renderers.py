@@ -162,4 +162,3 @@ class FilterChoiceField(ModelChoiceField):
             code="invalid_choice",
             params={"value": value},
         )
-

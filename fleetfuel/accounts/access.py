@@ -18,6 +18,7 @@ from typing import Any, TypeVar
 from django.apps import apps
 from django.contrib.auth.decorators import login_required
 from django.core.exceptions import PermissionDenied
+from django.db import connection
 from django.db.models import Q, QuerySet
 from django.db.models.expressions import RawSQL
 from django.http import Http404, HttpRequest, HttpResponse
@@ -82,50 +83,75 @@ def require_write(user: Any) -> None:
     role_check(user, WRITERS, refusal="Your role is read-only.")
 
 
-def sites_for_user(user: Any) -> QuerySet[Any]:
-    """The sites a person may see: the sites their profile names; managers and auditors who
-    name none see every site (those added later included); mechanics only named ones. One
-    query, when it is read.
+def _visible(user: Any, role: str) -> tuple[str, list[Any]]:
+    """Which sites (``s``, the site table) a person of ``role`` may see, as an SQL condition
+    and its parameters: the sites their profile names; managers and auditors who name none
+    see every site (those added later included); mechanics only named ones.
 
     Every page asks this first, so the rule is one short SQL statement over the profile's
     site table rather than ORM subqueries: the same rows (tests/accounts/test_access.py),
     about 1 ms less a page to build."""
-    site = model_get("fleet", "Site")
-    role = user_role(user)
-    if role is None:
-        return site.objects.none()  # type: ignore[no-any-return]
+    named = _named_sql()
+    if role == Role.MECHANIC:
+        return f"s.id IN ({named})", [user.pk]
+    return f"s.id IN ({named}) OR NOT EXISTS ({named})", [user.pk, user.pk]
+
+
+def _named_sql() -> str:
+    """The ids of the sites a person's profile names (one parameter: the user's id)."""
     through = Profile.sites.through._meta
-    named = (
+    return (
         f"SELECT ps.{through.get_field('site').column} FROM {through.db_table} ps "
         f"JOIN {Profile._meta.db_table} p ON p.id = ps.{through.get_field('profile').column} "
         "WHERE p.user_id = %s"
     )
-    if role == Role.MECHANIC:
-        return site.objects.filter(pk__in=RawSQL(named, [user.pk]))  # type: ignore[no-any-return]
-    table = site._meta.db_table
-    every_unless_named = (
-        f"SELECT s.id FROM {table} s WHERE s.id IN ({named}) OR NOT EXISTS ({named})"
-    )
-    return site.objects.filter(  # type: ignore[no-any-return]
-        pk__in=RawSQL(every_unless_named, [user.pk, user.pk])
-    )
+
+
+def sites_for_user(user: Any) -> QuerySet[Any]:
+    """The sites a person may see (``_visible``). One query, when it is read."""
+    site = model_get("fleet", "Site")
+    role = user_role(user)
+    if role is None:
+        return site.objects.none()  # type: ignore[no-any-return]
+    where, params = _visible(user, role)
+    chosen = f"SELECT s.id FROM {site._meta.db_table} s WHERE {where}"
+    return site.objects.filter(pk__in=RawSQL(chosen, params))  # type: ignore[no-any-return]
+
+
+def _sites_read(user: Any) -> tuple[list[int], bool]:
+    """The ids of the sites a person may see (by name) and whether they see every site: one
+    query, kept on the user for the request."""
+    cached = getattr(user, "_fleetfuel_sites", None)
+    if cached is None:
+        role = user_role(user)
+        if role is None:
+            cached = ([], False)
+        else:
+            where, params = _visible(user, role)
+            table = model_get("fleet", "Site")._meta.db_table
+            with connection.cursor() as cursor:
+                cursor.execute(
+                    f"SELECT s.id, NOT EXISTS ({_named_sql()}) FROM {table} s WHERE {where} "
+                    "ORDER BY s.name, s.id",
+                    [user.pk, *params],
+                )
+                rows = cursor.fetchall()
+            every = role != Role.MECHANIC and (not rows or bool(rows[0][1]))
+            cached = ([row[0] for row in rows], every)
+        user._fleetfuel_sites = cached
+    return cached  # type: ignore[no-any-return]
 
 
 def sees_every_site(user: Any) -> bool:
     """True for a manager or auditor whose profile names no site (they see every site, those
-    added later included); False for everyone else, mechanics and anyone limited to some."""
-    if user_role(user) not in (Role.MANAGER, Role.AUDITOR):
-        return False
-    return not model_get("fleet", "Site").objects.filter(staff__user=user).exists()
+    added later included); False for everyone else, mechanics and anyone limited to some.
+    Read with the sites themselves (``site_ids_for_user``): no query more."""
+    return _sites_read(user)[1]
 
 
 def site_ids_for_user(user: Any) -> list[int]:
     """The ids of the sites a person may see (one query). Kept on the user for the request."""
-    cached = getattr(user, "_fleetfuel_site_ids", None)
-    if cached is None:
-        cached = list(sites_for_user(user).values_list("id", flat=True))
-        user._fleetfuel_site_ids = cached
-    return cached  # type: ignore[no-any-return]
+    return _sites_read(user)[0]
 
 
 def _access_check(user: Any, *, write: bool) -> None:

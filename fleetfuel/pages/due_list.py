@@ -12,7 +12,12 @@ from django.views.decorators.http import require_GET, require_POST
 from django.views.decorators.vary import vary_on_headers
 from django_htmx.http import HttpResponseClientRedirect, push_url
 
-from fleetfuel.accounts.access import due_item_for_user, role_required, site_ids_for_user
+from fleetfuel.accounts.access import (
+    due_item_for_user,
+    role_required,
+    sees_every_site,
+    site_ids_for_user,
+)
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.accounts.requests import HtmxHttpRequest
 from fleetfuel.fleet.models import Site, UnitClass
@@ -44,6 +49,7 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
         data=data,
         today=today,
         annotations=selectors.due_item_open_work_order(),
+        every_site=sees_every_site(request.user),
     )
     groups, decisions_elsewhere = due_groups(
         items=page.items,

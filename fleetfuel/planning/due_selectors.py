@@ -33,6 +33,7 @@ SORTS = {
     "task": ["task", "due_on", "unit__fleet_number", "id"],
     "status": ["rank", "due_on", "unit__fleet_number", "id"],
 }
+WALKED = {"urgency", "due"}  # the sorts an index of the due items alone gives in order
 
 
 @dataclass
@@ -45,10 +46,11 @@ class DuePage:
 
 
 def due_items_filtered(
-    *, site_ids: list[int], data: dict[str, Any], today: date
+    *, site_ids: list[int] | None, data: dict[str, Any], today: date
 ) -> QuerySet[DueItem]:
+    """The due items at these depots (None: at every depot) that the filters keep."""
     # Disposed units have no due items: the recompute skips them and clears their rows.
-    qs = DueItem.objects.filter(site_id__in=site_ids)
+    qs = DueItem.objects.all() if site_ids is None else DueItem.objects.filter(site_id__in=site_ids)
     if data.get("site"):
         qs = qs.filter(site_id=data["site"].pk)
     if data.get("unit_class"):
@@ -94,11 +96,13 @@ def due_page(
     data: dict[str, Any],
     today: date,
     annotations: Mapping[str, Any] | None = None,
+    every_site: bool = False,
 ) -> DuePage:
     """The page of due items for these filters: three queries whatever the fleet size.
 
     ``annotations`` are added to each row in the page's query (the composing page passes
     what other apps say of an item, such as whether it is in an open work order).
+    ``every_site``: the depots are every depot there is (a manager or auditor who names none).
     """
     base = due_items_filtered(site_ids=site_ids, data=data, today=today)
     # Query 1: counts by status over the filtered set (without the status filter itself).
@@ -110,7 +114,14 @@ def due_page(
     # columns (not three more model instances a row); the caller's annotations. The page's
     # ids are picked by a subquery of ids alone, so a deep page skips narrow index entries,
     # not joined rows with their annotations worked out.
-    order = SORTS.get(data.get("sort") or "urgency", SORTS["urgency"])
+    sort = data.get("sort") or "urgency"
+    order = SORTS.get(sort, SORTS["urgency"])
+    if every_site and sort in WALKED:
+        # No depot condition where it keeps every row: PostgreSQL reads "site in (every
+        # depot's id)" as a third fewer rows than there are, and then sorted them all rather
+        # than walk the sort's index (10,000 units, a page in the middle: 18 -> 3 ms).
+        qs = due_items_filtered(site_ids=None, data=data, today=today)
+        qs = qs.filter(status=data["status"]) if data.get("status") else qs
     window = qs.order_by(*order).values("id")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
     rows = list(
         DueItem.objects.filter(pk__in=window)

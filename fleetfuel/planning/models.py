@@ -89,6 +89,10 @@ class DueItem(models.Model):
             models.Index(fields=["site", "due_on", "id"], name="dueitem_site_due"),
             models.Index(fields=["site", "status", "due_on", "id"], name="dueitem_site_status_due"),
             models.Index(fields=["unit", "due_on"], name="dueitem_unit_due"),
+            # The "status" and "task" sorts: read in order, the unit's fleet number (the
+            # next key) sorted within each day only (10,000 units, first page 30-45 -> 1 ms).
+            models.Index(fields=["rank", "due_on", "id"], name="dueitem_rank_due"),
+            models.Index(fields=["task", "due_on", "id"], name="dueitem_task_due"),
             models.Index(
                 # Depot and status after the unique id: the order is the same, and a page's
                 # ids are read from the index alone, its depots and status filtered there.

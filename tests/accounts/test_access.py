@@ -210,6 +210,22 @@ def test_a_persons_depots_are_one_query(
         access.site_ids_for_user(named)
 
 
+def test_seeing_every_site_is_read_with_the_sites(
+    site: Any, other_site: Any, django_assert_num_queries: Any
+) -> None:
+    named, everywhere = f.user_make("manager", sites=[site]), f.user_make("auditor")
+    mechanic, unnamed_mechanic = f.user_make("mechanic", sites=[site]), f.user_make("mechanic")
+    for user in (named, everywhere, mechanic, unnamed_mechanic):
+        access.user_role(user)  # the role, read once a request
+    with django_assert_num_queries(1):  # the sites and "every site" are one query
+        assert access.sees_every_site(everywhere)
+        assert sorted(access.site_ids_for_user(everywhere)) == sorted([site.pk, other_site.pk])
+    with django_assert_num_queries(1):
+        assert not access.sees_every_site(named) and access.site_ids_for_user(named) == [site.pk]
+    # A mechanic never sees every site, named or not.
+    assert not access.sees_every_site(mechanic) and not access.sees_every_site(unnamed_mechanic)
+
+
 @pytest.mark.parametrize("kind", sorted(HELPERS))
 def test_a_person_without_a_role_is_refused(objects: dict[str, Any], kind: str) -> None:
     nobody = f.user_make(None)

@@ -13,7 +13,7 @@ from django.utils import timezone
 
 from fleetfuel.fleet.models import FuelSample, Unit
 from fleetfuel.planning.benchmark import synthetic_fleet_make
-from fleetfuel.planning.due_selectors import due_items_filtered, status_counts
+from fleetfuel.planning.due_selectors import due_items_filtered, due_page, status_counts
 from fleetfuel.planning.models import DueItem, SourceDecision, SourceDecisionUnit, UnitFlag
 from fleetfuel.workorders.models import WorkOrder
 from services.display import NBSP
@@ -351,6 +351,25 @@ def test_counts_agree_with_a_plain_count_under_joined_filters_and_with_no_depot(
         assert status_counts(base) == {s: expected[s] for s in DueItem.Status.values}, data
     none = due_items_filtered(site_ids=[], data={}, today=today)
     assert status_counts(none) == dict.fromkeys(DueItem.Status.values, 0)
+
+
+@pytest.mark.parametrize("sort", ["urgency", "due", "unit", "task", "status"])
+def test_every_depots_pages_are_the_same_without_the_depot_condition(
+    site: Any, other_site: Any, unit_class: Any, monkeypatch: Any, sort: str
+) -> None:
+    # A person who sees every depot gets the walk with no depot condition (every_site): the
+    # same rows on every page as the list of every depot's ids gives.
+    fleet_make(site=site, unit_class=unit_class, n=3)
+    fleet_make(site=other_site, unit_class=unit_class, n=3, prefix="V")
+    monkeypatch.setattr("fleetfuel.planning.due_selectors.PAGE_SIZE", 5)
+    today = timezone.localdate()
+    every = [site.pk, other_site.pk]
+    for page in range(1, 5):
+        data = {"sort": sort, "page": page}
+        listed = due_page(site_ids=every, data=data, today=today)
+        walked = due_page(site_ids=every, data=data, today=today, every_site=True)
+        assert [i.pk for i in walked.items] == [i.pk for i in listed.items], (sort, page)
+        assert walked.counts == listed.counts and walked.has_next == listed.has_next
 
 
 def test_row_text_from_the_database_is_escaped(as_manager: Any, small_fleet: list[Unit]) -> None:
