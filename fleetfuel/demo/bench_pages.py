@@ -57,6 +57,7 @@ def page_urls(site_ids: list[int]) -> dict[str, tuple[str, dict[str, Any], dict[
         "due_list_filtered": (due, filtered, {}),
         "due_list_deep": (due, {"page": deep}, {}),
         "due_list_fragment": (due, filtered, HTMX),
+        "due_list_by_unit": (due, {"sort": "unit", "page": deep}, {}),
         "unit_page": (reverse("pages:unit_detail", args=[unit.pk]), {}, {}),
         "work_order_page": (
             reverse("workorders:detail", args=[drain_work_order(site_ids).pk]),

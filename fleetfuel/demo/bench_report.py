@@ -17,12 +17,13 @@ PAGES = {
     "due_list_filtered": "Due list, filtered (depot, soon, by date)",
     "due_list_deep": "Due list, a page in the middle",
     "due_list_fragment": "Due list, htmx fragment (filtered)",
+    "due_list_by_unit": "Due list by unit, a page in the middle",
     "unit_page": "Unit page",
     "work_order_page": "Work-order page",
     "history_page": "Service history, first page",
 }
 TARGETED = {"due_list_first", "due_list_filtered", "due_list_deep", "due_list_fragment",
-            "unit_page", "history_page"}  # fmt: skip
+            "due_list_by_unit", "unit_page", "history_page"}  # fmt: skip
 HEAD = ("What", "Median", "Floor", "Ratio", "Queries", "Target", "Met")
 
 

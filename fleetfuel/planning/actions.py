@@ -26,6 +26,7 @@ STATUS_RANK = {s: rank for rank, s in enumerate(DueStatus)}  # in DueStatus's or
 DUE_FIELDS = [
     "unit",
     "site",
+    "sort_fleet_number",
     "status",
     "rank",
     "urgency",
@@ -242,7 +243,9 @@ def _recompute(
             burned[result.unit_id] = result.burned
         stood_down = any(f.high_pressure for f in result.flags)
         for cp in result.projections:
-            items.append(due_item_make(result, cp.component_id, cp.projection, stood_down, now))
+            item = due_item_make(result, cp.component_id, cp.projection, stood_down, now)
+            item.sort_fleet_number = bundle.unit.fleet_number  # for the list's sorts
+            items.append(item)
         for f in result.flags:
             flags.append(
                 UnitFlag(

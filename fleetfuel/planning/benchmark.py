@@ -71,6 +71,7 @@ def synthetic_fleet_make(
                 DueItem(
                     unit_id=primary.unit_id,
                     site_id=site.pk,
+                    sort_fleet_number=f"{prefix}-{i:05d}",
                     component=comp,
                     task=task,
                     status=status,

@@ -24,7 +24,8 @@ INSTANTS = {
     "demo-2026-12-02T02-40Z": datetime.fromisoformat("2026-12-02T02:40:00Z"),
     "demo-2028-02-29T12-00Z": datetime.fromisoformat("2028-02-29T12:00:00Z"),
 }
-DUE_SKIP = {"id", "unit", "site", "component"}
+# sort_fleet_number: the unit's own number, copied for the list's sorts (the "unit" key holds it)
+DUE_SKIP = {"id", "unit", "site", "component", "sort_fleet_number"}
 FLAG_SKIP = {"id", "unit"}
 
 

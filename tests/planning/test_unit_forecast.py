@@ -74,3 +74,18 @@ def test_the_forecast_is_fitted_on_the_last_ninety_days(unit: Any) -> None:
     assert forecast is not None
     assert forecast.rate == pytest.approx(12.0)
     assert "91 readings over 90 days" in forecast.note
+
+
+def test_the_items_sort_key_follows_a_renamed_unit(unit: Any) -> None:
+    # The due list sorts by the fleet number the projection kept on each item; a unit saved
+    # is recomputed (planning/signals.py), so a rename reaches its items.
+    history_make(unit=unit, source=f.source_make(), days=30, hours_per_day=10.0)
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)
+    assert set(DueItem.objects.filter(unit=unit).values_list("sort_fleet_number", flat=True)) == {
+        unit.fleet_number
+    }
+    unit.fleet_number = "ZZ-RENAMED"
+    unit.save()
+    due_items_recompute(unit_ids=[unit.pk], now=NOW)
+    kept = set(DueItem.objects.filter(unit=unit).values_list("sort_fleet_number", flat=True))
+    assert kept == {"ZZ-RENAMED"}

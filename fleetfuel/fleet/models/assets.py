@@ -143,11 +143,6 @@ class Unit(models.Model):
                 violation_error_message="The disposal date cannot be before the in-service date.",
             ),
         ]
-        indexes = [
-            # Lists sorted by fleet number across depots (the due list's "unit" sort) walk
-            # the units in order and stop at a page, not sort every row.
-            models.Index(fields=["fleet_number", "id"], name="unit_fleet_number"),
-        ]
 
     def __str__(self) -> str:
         return f"{self.fleet_number} ({self.make} {self.model})"
