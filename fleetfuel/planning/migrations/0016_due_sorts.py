@@ -32,18 +32,18 @@ class Migration(migrations.Migration):
         migrations.RunPython(fleet_numbers_fill, migrations.RunPython.noop),
         migrations.AddIndex(
             model_name='dueitem',
-            index=models.Index(fields=['due_on', 'id'], name='dueitem_date_sort'),
+            index=models.Index(fields=['due_on', 'id', 'site', 'status'], name='dueitem_date_sort'),
         ),
         migrations.AddIndex(
             model_name='dueitem',
-            index=models.Index(fields=['sort_fleet_number', 'due_on', 'task', 'id'], name='dueitem_unit_sort'),
+            index=models.Index(fields=['sort_fleet_number', 'due_on', 'task', 'id', 'site', 'status'], name='dueitem_unit_sort'),
         ),
         migrations.AddIndex(
             model_name='dueitem',
-            index=models.Index(fields=['task', 'due_on', 'sort_fleet_number', 'id'], name='dueitem_task_sort'),
+            index=models.Index(fields=['task', 'due_on', 'sort_fleet_number', 'id', 'site', 'status'], name='dueitem_task_sort'),
         ),
         migrations.AddIndex(
             model_name='dueitem',
-            index=models.Index(fields=['rank', 'due_on', 'sort_fleet_number', 'id'], name='dueitem_status_sort'),
+            index=models.Index(fields=['rank', 'due_on', 'sort_fleet_number', 'id', 'site', 'status'], name='dueitem_status_sort'),
         ),
     ]
