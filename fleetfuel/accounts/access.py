@@ -118,26 +118,29 @@ def sites_for_user(user: Any) -> QuerySet[Any]:
     return site.objects.filter(pk__in=RawSQL(chosen, params))  # type: ignore[no-any-return]
 
 
-def _sites_read(user: Any) -> tuple[list[int], bool]:
-    """The ids of the sites a person may see (by name) and whether they see every site: one
-    query, kept on the user for the request."""
+def _sites_read(user: Any) -> tuple[list[int], bool, bool]:
+    """The ids of the sites a person may see (by name), whether they see every site by
+    default (a manager or auditor who names none), and whether those ids are every site
+    there is (by default, or named to each): one query, kept on the user for the request."""
     cached = getattr(user, "_fleetfuel_sites", None)
     if cached is None:
         role = user_role(user)
         if role is None:
-            cached = ([], False)
+            cached = ([], False, False)
         else:
             where, params = _visible(user, role)
             table = model_get("fleet", "Site")._meta.db_table
             with connection.cursor() as cursor:
                 cursor.execute(
-                    f"SELECT s.id, NOT EXISTS ({_named_sql()}) FROM {table} s WHERE {where} "
+                    f"SELECT s.id, NOT EXISTS ({_named_sql()}), "
+                    f"(SELECT COUNT(*) FROM {table}) FROM {table} s WHERE {where} "
                     "ORDER BY s.name, s.id",
                     [user.pk, *params],
                 )
                 rows = cursor.fetchall()
             every = role != Role.MECHANIC and (not rows or bool(rows[0][1]))
-            cached = ([row[0] for row in rows], every)
+            listed_all = bool(rows) and len(rows) == rows[0][2]
+            cached = ([row[0] for row in rows], every, every or listed_all)
         user._fleetfuel_sites = cached
     return cached  # type: ignore[no-any-return]
 
@@ -147,6 +150,13 @@ def sees_every_site(user: Any) -> bool:
     added later included); False for everyone else, mechanics and anyone limited to some.
     Read with the sites themselves (``site_ids_for_user``): no query more."""
     return _sites_read(user)[1]
+
+
+def sites_are_every_site(user: Any) -> bool:
+    """True when the sites a person may see are, right now, every site there is (by default
+    or because their profile names each): a list of theirs needs no site condition. Read
+    with the sites themselves: no query more."""
+    return _sites_read(user)[2]
 
 
 def site_ids_for_user(user: Any) -> list[int]:

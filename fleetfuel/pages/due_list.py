@@ -15,8 +15,8 @@ from django_htmx.http import HttpResponseClientRedirect, push_url
 from fleetfuel.accounts.access import (
     due_item_for_user,
     role_required,
-    sees_every_site,
     site_ids_for_user,
+    sites_are_every_site,
 )
 from fleetfuel.accounts.models import Profile, Role
 from fleetfuel.accounts.requests import HtmxHttpRequest
@@ -49,7 +49,7 @@ def due_list(request: HtmxHttpRequest) -> HttpResponse:
         data=data,
         today=today,
         annotations=selectors.due_item_open_work_order(),
-        every_site=sees_every_site(request.user),
+        every_site=sites_are_every_site(request.user),
     )
     groups, decisions_elsewhere = due_groups(
         items=page.items,

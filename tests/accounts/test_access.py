@@ -224,6 +224,14 @@ def test_seeing_every_site_is_read_with_the_sites(
         assert not access.sees_every_site(named) and access.site_ids_for_user(named) == [site.pk]
     # A mechanic never sees every site, named or not.
     assert not access.sees_every_site(mechanic) and not access.sees_every_site(unnamed_mechanic)
+    # Sites that are every site there is: by default, or named to each (no query more).
+    both = f.user_make("manager", sites=[site, other_site])
+    access.user_role(both)
+    with django_assert_num_queries(1):
+        assert access.sites_are_every_site(both) and not access.sees_every_site(both)
+    assert access.sites_are_every_site(everywhere)
+    assert not access.sites_are_every_site(named) and not access.sites_are_every_site(mechanic)
+    assert not access.sites_are_every_site(unnamed_mechanic)
 
 
 @pytest.mark.parametrize("kind", sorted(HELPERS))
