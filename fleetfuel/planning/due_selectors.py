@@ -102,7 +102,8 @@ def due_page(
 
     ``annotations`` are added to each row in the page's query (the composing page passes
     what other apps say of an item, such as whether it is in an open work order).
-    ``every_site``: the depots are every depot there is (a manager or auditor who names none).
+    ``every_site``: the depots are every depot there is (by default, or named to each:
+    ``accounts.access.sites_are_every_site``); the page's walk then has no depot condition.
     """
     base = due_items_filtered(site_ids=site_ids, data=data, today=today)
     # Query 1: counts by status over the filtered set (without the status filter itself).

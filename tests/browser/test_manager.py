@@ -118,7 +118,8 @@ def test_at_768_the_due_list_is_cards_without_sideways_scroll(
     row_id = row.get_attribute("id").removeprefix("row-")
     why.click()
     detail = page.locator(f"#detail-{row_id}")
-    detail.get_by_text("Projected").wait_for()
+    # The line that says when it was projected (an explanation may say "projected" too).
+    detail.get_by_text(re.compile(r"^Projected \d")).wait_for()
     explained = detail.bounding_box()
     assert explained is not None and explained["x"] >= 0
     assert explained["x"] + explained["width"] <= 768
