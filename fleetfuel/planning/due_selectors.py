@@ -108,21 +108,18 @@ def due_page(
     base = due_items_filtered(site_ids=site_ids, data=data, today=today)
     # Query 1: counts by status over the filtered set (without the status filter itself).
     counts = status_counts(base)
-    qs = base.filter(status=data["status"]) if data.get("status") else base
     page = data.get("page") or 1
     # Query 2: one page of rows (+1 to know if there is a next page): the columns a row shows;
     # the unit's fleet number, the depot's name and display style and the class's name as
     # columns (not three more model instances a row); the caller's annotations. The page's
     # ids are picked by a subquery of ids alone, so a deep page skips narrow index entries,
     # not joined rows with their annotations worked out.
-    sort = data.get("sort") or "urgency"
-    order = SORTS.get(sort, SORTS["urgency"])
-    if every_site:
-        # No depot condition where it keeps every row: PostgreSQL reads "site in (every
-        # depot's id)" as a third fewer rows than there are, and then sorted them all rather
-        # than walk the sort's index (10,000 units, a page in the middle: 18-96 -> 1-3 ms).
-        qs = due_items_filtered(site_ids=None, data=data, today=today)
-        qs = qs.filter(status=data["status"]) if data.get("status") else qs
+    order = SORTS.get(data.get("sort") or "urgency", SORTS["urgency"])
+    # No depot condition where it keeps every row: PostgreSQL reads "site in (every depot's
+    # id)" as a third fewer rows than there are, and then sorted them all rather than walk
+    # the sort's index (10,000 units, a page in the middle: 18-96 -> 1-3 ms).
+    qs = due_items_filtered(site_ids=None, data=data, today=today) if every_site else base
+    qs = qs.filter(status=data["status"]) if data.get("status") else qs
     window = qs.order_by(*order).values("id")[(page - 1) * PAGE_SIZE : page * PAGE_SIZE + 1]
     rows = list(
         DueItem.objects.filter(pk__in=window)

@@ -174,26 +174,20 @@ class UnitForecast(models.Model):
     meter_drop_read = models.FloatField(null=True, blank=True)
     computed_at = models.DateTimeField()
 
-    FIELDS = [
+    # The fields UsageForecast and this row share by name; its probable_meter_change is the
+    # three meter_drop_ columns.
+    SHARED = [
         "as_of", "current_hours", "rate", "rate_low", "rate_high", "basis", "note",
-        "last_reading_at", "carried_to", "meter_drop_at", "meter_drop_engine_hours",
-        "meter_drop_read", "computed_at",
+        "last_reading_at", "carried_to",
     ]  # fmt: skip
+    FIELDS = [*SHARED, "meter_drop_at", "meter_drop_engine_hours", "meter_drop_read", "computed_at"]
 
     @classmethod
     def of(cls, *, unit_id: int, forecast: UsageForecast, computed_at: datetime) -> UnitForecast:
         drop = forecast.probable_meter_change or (None, None, None)
         return cls(
             unit_id=unit_id,
-            as_of=forecast.as_of,
-            current_hours=forecast.current_hours,
-            rate=forecast.rate,
-            rate_low=forecast.rate_low,
-            rate_high=forecast.rate_high,
-            basis=forecast.basis,
-            note=forecast.note,
-            last_reading_at=forecast.last_reading_at,
-            carried_to=forecast.carried_to,
+            **{name: getattr(forecast, name) for name in cls.SHARED},
             meter_drop_at=drop[0],
             meter_drop_engine_hours=drop[1],
             meter_drop_read=drop[2],
@@ -204,15 +198,7 @@ class UnitForecast(models.Model):
         """The forecast as services/ takes it, as it was made."""
         drop = (self.meter_drop_at, self.meter_drop_engine_hours, self.meter_drop_read)
         return UsageForecast(
-            as_of=self.as_of,
-            current_hours=self.current_hours,
-            rate=self.rate,
-            rate_low=self.rate_low,
-            rate_high=self.rate_high,
-            basis=self.basis,
-            note=self.note,
-            last_reading_at=self.last_reading_at,
-            carried_to=self.carried_to,
+            **{name: getattr(self, name) for name in self.SHARED},
             probable_meter_change=drop if drop[0] is not None else None,  # type: ignore[arg-type]
         )
 

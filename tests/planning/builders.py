@@ -6,6 +6,8 @@ from datetime import datetime, timedelta
 from typing import Any
 
 from fleetfuel.fleet.models import Component, ComponentKind, Fueling, FuelSample, MeterReading
+from fleetfuel.planning.selectors import batch_inputs_load, unit_forecast
+from services.common import UsageForecast
 from tests.factories import NOW
 
 
@@ -55,3 +57,8 @@ def sample_make(
     sample.full_clean()
     sample.save()
     return sample
+
+
+def engine_forecast(unit: Any, now: datetime = NOW) -> UsageForecast:
+    """The usage forecast the engine makes for the unit at ``now``, from its stored inputs."""
+    return unit_forecast(batch_inputs_load(unit_ids=[unit.pk], now=now).units[0], now=now)

@@ -26,15 +26,10 @@ from fleetfuel.fleet.models import (
 from fleetfuel.ledger.actions import service_event_append
 from fleetfuel.ledger.models import ServiceEvent
 from fleetfuel.planning.models import DueItem, UnitFlag
-from fleetfuel.planning.selectors import batch_inputs_load, unit_forecast
 from tests import factories as f
+from tests.planning.builders import engine_forecast
 
 NOW = f.NOW
-
-
-def forecast_now(unit: Any) -> Any:
-    """The usage forecast the engine makes for the unit at NOW, from its stored inputs."""
-    return unit_forecast(batch_inputs_load(unit_ids=[unit.pk], now=NOW).units[0], now=NOW)
 
 
 def project_due() -> dict[tuple[str, str], dict[str, Any]]:
@@ -102,7 +97,7 @@ def test_one_reading_is_not_carried_without_evidence(site: Any, unit_class: Any)
     unit = f.unit_make(site=site, unit_class=unit_class, fleet_number="ONE-1")
     readings_make(unit, days=range(30, 31), hours_at=lambda d: 1_200.0)
     project_due()
-    forecast = forecast_now(unit)
+    forecast = engine_forecast(unit)
     assert forecast.basis == "class_default"
     assert forecast.current_hours == pytest.approx(1_200.0)
     stored = DueItem.objects.get(unit=unit, task="fine_filter")
@@ -131,14 +126,14 @@ def test_a_reading_at_the_instant_of_a_meter_replacement_is_the_new_meter(
         unit=unit, replaced_at=swap, old_meter_final=5_400.0, new_meter_start=0.0
     )
     project_due()
-    forecast = forecast_now(unit)
+    forecast = engine_forecast(unit)
     # Carried one day past the last reading at 10 h/day: 5,410 h.
     assert forecast.current_hours == pytest.approx(5_410.0, abs=0.5)
     assert "meter_change_unconfirmed" not in flags_of(unit)
     # A reading after it on the new meter: 50 h five days ago -> 5,450 engine hours, carried
     # one usual interval (the median gap between readings, 1 day) -> 5,460 h.
     readings_make(unit, days=range(5, 6), hours_at=lambda d: 50.0)
-    forecast = forecast_now(unit)
+    forecast = engine_forecast(unit)
     assert forecast.current_hours == pytest.approx(5_460.0, abs=1.0)
     items = project_due()
     assert items[("SWAP-1", "fine_filter")]["due_hours"] == pytest.approx(5_700.0)
@@ -154,7 +149,7 @@ def test_a_meter_replacement_nobody_recorded_is_flagged(site: Any, unit_class: A
     items = project_due()
     flag = flags_of(unit)["meter_change_unconfirmed"]
     assert "5,400 h" in flag.reason and "no meter replacement recorded" in flag.reason
-    forecast = forecast_now(unit)
+    forecast = engine_forecast(unit)
     assert forecast.basis == "readings" and forecast.rate == pytest.approx(10.0, rel=0.15)
     assert forecast.current_hours == pytest.approx(5_490.0, abs=15.0)
     explanation = items[("DROP-1", "fine_filter")]["explanation"]
@@ -288,7 +283,7 @@ def test_a_nan_reading_is_refused_by_name(site: Any, unit_class: Any, postgres: 
     assert "must be a finite number" in flags_of(unit)["records_refused"].reason
     assert items[("NAN-1", "fine_filter")]["due_hours"] == pytest.approx(1_500.0)
     # From the readings that are numbers: 1,990 h a day ago, carried one day at 10 h/day.
-    assert forecast_now(unit).current_hours == pytest.approx(2_000.0)
+    assert engine_forecast(unit).current_hours == pytest.approx(2_000.0)
 
 
 def test_huge_readings_do_not_break_the_projection(site: Any, unit_class: Any) -> None:

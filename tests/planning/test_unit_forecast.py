@@ -11,9 +11,9 @@ import pytest
 from fleetfuel.fleet.models import MeterReading
 from fleetfuel.planning.actions import due_items_recompute
 from fleetfuel.planning.models import DueItem, UnitForecast
-from fleetfuel.planning.selectors import batch_inputs_load, unit_forecast, unit_forecast_stored
+from fleetfuel.planning.selectors import unit_forecast_stored
 from tests import factories as f
-from tests.planning.builders import history_make
+from tests.planning.builders import engine_forecast, history_make
 
 NOW = f.NOW
 
@@ -31,8 +31,7 @@ def test_the_page_forecast_is_the_one_the_engine_projected_from(
     assert forecast.rate == pytest.approx(10.0)
     assert forecast.current_hours == pytest.approx(1_300.0)
     # Exactly what the engine computes from the unit's inputs, every field (a round trip).
-    batch = batch_inputs_load(unit_ids=[unit.pk], now=NOW)
-    assert forecast == unit_forecast(batch.units[0], now=NOW)
+    assert forecast == engine_forecast(unit)
     # Each stored item's hours left were counted from the same current hours.
     items = DueItem.objects.filter(unit=unit, due_hours__isnull=False)
     assert items.exists()
