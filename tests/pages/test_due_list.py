@@ -386,12 +386,18 @@ def test_row_text_from_the_database_is_escaped(as_manager: Any, small_fleet: lis
     assert "Flag: Valve &quot;A&quot; &lt;i&gt;" in html and "r &amp; s" in html
 
 
-def test_more_filters_stay_closed_for_the_default_sort(
+def test_more_filters_open_only_for_a_filter_and_name_the_sort(
     as_manager: Any, small_fleet: list[Unit]
 ) -> None:
     # The filter form sends every field, the default sort included (as after creating work
-    # orders from a filtered list): the extra filters open only when one of them is set.
+    # orders from a filtered list): the extra filters open only when one that narrows the
+    # list is set. A sort alone is named on the closed button (open, the panel covered the
+    # list's first rows and the "create work orders" button).
     default = as_manager.get(reverse("pages:due_list"), {"status": "due", "sort": "urgency"})
     by_date = as_manager.get(reverse("pages:due_list"), {"status": "due", "sort": "due"})
+    within = as_manager.get(reverse("pages:due_list"), {"within_days": "7", "sort": "urgency"})
     assert '<details class="more">' in default.content.decode()
-    assert '<details class="more" open>' in by_date.content.decode()
+    assert '<summary class="btn">More filters</summary>' in default.content.decode()
+    assert '<details class="more">' in by_date.content.decode()
+    assert "More filters · by due date</summary>" in by_date.content.decode()
+    assert '<details class="more" open>' in within.content.decode()
