@@ -45,6 +45,11 @@ class TaskView:
     not_done_typed: str = ""  # the reason as typed, kept for a retry
     settled_by: WorkOrder | None = None  # another work order did its due item since
 
+    @property
+    def refused(self) -> bool:
+        """Some entry as typed is not valid yet (kept, but not what closing would record)."""
+        return any(f.error for f in self.fields)
+
 
 def _field_view(form: TaskForm, f: TaskField, name: str, error: str) -> FieldView:
     return FieldView(

@@ -284,6 +284,22 @@ def test_job_draft_warns_when_the_meter_goes_backwards(as_mechanic: Any, wo: Wor
     assert (wo.meter_replaced, wo.meter_new_start, wo.hour_meter) == (True, 0.0, 12.0)
 
 
+def test_a_refused_entry_does_not_say_saved(as_mechanic: Any, wo: WorkOrder, limits: Any) -> None:
+    # An entry the form refuses is kept as typed (nothing is lost), but the status line must
+    # not read "Saved" beside the error: on a tablet that reads as "done" (common practice).
+    job = as_mechanic.post(
+        reverse("workorders:job_save", args=[wo.pk]), {"hour_meter": "99999999"}, **HTMX
+    ).content.decode()
+    assert "Hour meter must be from 0 to 200,000" in job
+    assert "Kept as typed" in job and "Saved " not in job
+    m = task_make(wo, K.MEASUREMENT, description="Supply pressure under load")
+    url = reverse("workorders:task_save", args=[m.pk])
+    bad = as_mechanic.post(url, {"limit": str(limits["load"].pk), "value": "five"}, **HTMX)
+    assert "Kept as typed" in bad.content.decode() and "Saved " not in bad.content.decode()
+    good = as_mechanic.post(url, {"limit": str(limits["load"].pk), "value": "5"}, **HTMX)
+    assert "Saved " in good.content.decode() and "Kept as typed" not in good.content.decode()
+
+
 def test_draft_on_a_closed_work_order_is_refused_and_kept_in_notes(
     as_mechanic: Any, wo: WorkOrder, task: WorkOrderTask, manager: Any
 ) -> None:
